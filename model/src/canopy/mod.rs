@@ -1,0 +1,4 @@
+//! Canopy: solar geometry, diffuse fraction, sunlit/shaded radiation and canopy assimilation.
+
+pub mod radiation;
+pub mod solar;

@@ -1,0 +1,1 @@
+//! Checks of isodisc against published values: see tests/.

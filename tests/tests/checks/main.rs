@@ -1,0 +1,8 @@
+//! Checks of isodisc against published values, general-purpose reference libraries and facts of the
+//! trade. One test binary; one module per process. Each check names its source beside it.
+
+mod canopy_water;
+mod isotopes_leaf;
+mod observations;
+mod pools;
+mod runner_forcing;
