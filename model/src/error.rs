@@ -136,7 +136,10 @@ mod tests {
         // Classic textbook pair (common practice).
         assert_eq!(edit_distance("kitten", "sitting"), 3);
         assert_eq!(edit_distance("", "abc"), 3);
-        assert_eq!(closest_name("vcmax", ["vcmax25", "jmax25", "g1"]).as_deref(), Some("vcmax25"));
+        assert_eq!(
+            closest_name("vcmax", ["vcmax25", "jmax25", "g1"]).as_deref(),
+            Some("vcmax25")
+        );
         assert_eq!(closest_name("zzzzzz", ["g1", "g0"]), None);
     }
 

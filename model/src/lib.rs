@@ -23,6 +23,7 @@ pub mod discrimination;
 pub mod error;
 pub mod isotopes;
 pub mod leaf;
+mod numerics;
 pub mod observations;
 pub mod pools;
 pub mod temperature;

@@ -1,1 +1,387 @@
-//! (being written)
+//! Leaf gas exchange and 13C discrimination: one leaf, one set of conditions.
+//!
+//! - [`c3`]: Farquhar–von Caemmerer–Berry (1980) photosynthesis with Bernacchi et al. (2001) kinetics;
+//! - [`c4`]: Collatz, Ribas-Carbo & Berry (1992) photosynthesis;
+//! - [`stomata`]: Medlyn et al. (2011) stomatal conductance;
+//! - [`params`]: the validated parameter sets;
+//! - the coupled solution of A, gs, ci and cc, by a bracketing root search that cannot diverge.
+//!
+//! Units: leaf fluxes µmol m⁻² s⁻¹ (leaf area), conductances mol m⁻² s⁻¹ (gs for H2O), CO2 mole
+//! fractions µmol mol⁻¹, temperature °C, VPD and pressure kPa, δ and Δ in ‰.
+
+pub mod c3;
+pub mod c4;
+pub mod params;
+mod solve;
+pub mod stomata;
+
+use std::fmt;
+
+use crate::discrimination::{
+    C3Fractionations, C3Gradient, C4Fractionations, c3_comprehensive_permil, c3_simple_permil,
+    c4_permil,
+};
+use crate::error::{Result, check_input};
+use crate::isotopes::product_delta_permil;
+pub use params::{C3Params, C4Params, ParamSpec};
+use stomata::Medlyn;
+
+/// Photosynthetic pathway.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Pathway {
+    /// C3 (Farquhar–von Caemmerer–Berry).
+    C3,
+    /// C4 (Collatz et al. 1992).
+    C4,
+}
+
+impl Pathway {
+    /// `c3` or `c4`.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Pathway::C3 => "c3",
+            Pathway::C4 => "c4",
+        }
+    }
+
+    /// The parameter table of this pathway.
+    pub fn specs(self) -> &'static [ParamSpec] {
+        match self {
+            Pathway::C3 => C3Params::SPECS,
+            Pathway::C4 => C4Params::SPECS,
+        }
+    }
+}
+
+/// Which rate limits net assimilation.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Limitation {
+    /// Rubisco (C3 Wc, or C4 Vmax).
+    Rubisco,
+    /// Electron transport (C3 Wj).
+    ElectronTransport,
+    /// Triose-phosphate use (C3 Wp).
+    TriosePhosphate,
+    /// Light (C4 αI).
+    Light,
+    /// CO2 supply (C4 k·ci).
+    Co2,
+    /// No light: the leaf only respires.
+    Dark,
+}
+
+impl Limitation {
+    /// Name used in output files.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Limitation::Rubisco => "rubisco",
+            Limitation::ElectronTransport => "electron-transport",
+            Limitation::TriosePhosphate => "tpu",
+            Limitation::Light => "light",
+            Limitation::Co2 => "co2",
+            Limitation::Dark => "dark",
+        }
+    }
+}
+
+impl fmt::Display for Limitation {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(self.as_str())
+    }
+}
+
+/// The C3 electron-transport limit: NADPH-limited J/(4cc + 8Γ*) (default) or ATP-limited
+/// J/(4.5cc + 10.5Γ*).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum ElectronLimit {
+    /// 4/8 form (Farquhar et al. 1980; von Caemmerer 2000).
+    #[default]
+    Nadph,
+    /// 4.5/10.5 form.
+    Atp,
+}
+
+/// What the soil-water factor β scales.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum BetaTarget {
+    /// Photosynthetic capacity (C3 Vcmax, Jmax and TPU; C4 Vmax and k).
+    Capacity,
+    /// The stomatal slope g1 (default).
+    #[default]
+    G1,
+    /// Both.
+    Both,
+}
+
+/// The C3 discrimination form.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum C3Form {
+    /// Δ = a + (b − a)·ci/ca.
+    Simple,
+    /// With boundary layer, mesophyll, respiration and photorespiration terms (default).
+    #[default]
+    Comprehensive,
+}
+
+/// Settings of the leaf model that are choices rather than numbers.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct LeafOptions {
+    /// C3 electron-transport form.
+    pub electron_limit: ElectronLimit,
+    /// What soil-water stress scales.
+    pub beta_target: BetaTarget,
+    /// C3 discrimination form.
+    pub c3_form: C3Form,
+}
+
+/// The environment of one leaf.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LeafConditions {
+    /// Leaf temperature (°C), −30 to 60.
+    pub t_leaf_c: f64,
+    /// Incident PPFD (µmol photons m⁻² s⁻¹), 0 to 3000.
+    pub ppfd_umol_m2_s: f64,
+    /// Leaf-to-air vapour pressure deficit (kPa), 0 to 10.
+    pub vpd_kpa: f64,
+    /// CO2 of the ambient air (µmol mol⁻¹), 1 to 5000.
+    pub ca_umol_mol: f64,
+    /// Air pressure (kPa), 30 to 110.
+    pub pressure_kpa: f64,
+    /// O2 (mmol mol⁻¹), 0 to 1000.
+    pub o2_mmol_mol: f64,
+    /// δ13C of the ambient CO2 (‰ vs VPDB), −50 to 50.
+    pub d13c_air_permil: f64,
+    /// Soil-water factor β (0–1; 1 = no stress).
+    pub soil_beta: f64,
+}
+
+impl Default for LeafConditions {
+    fn default() -> Self {
+        Self {
+            t_leaf_c: 25.0,
+            ppfd_umol_m2_s: 1500.0,
+            vpd_kpa: 1.0,
+            ca_umol_mol: 420.0,
+            pressure_kpa: 101.325,
+            o2_mmol_mol: 210.0,
+            d13c_air_permil: -8.5,
+            soil_beta: 1.0,
+        }
+    }
+}
+
+impl LeafConditions {
+    /// Valid ranges of the conditions, by the names `isodisc leaf` uses, with units.
+    pub const RANGES: &'static [(&'static str, &'static str, f64, f64)] = &[
+        ("t_leaf", "degC", -30.0, 60.0),
+        ("ppfd", "umol m-2 s-1", 0.0, 3000.0),
+        ("vpd", "kPa", 0.0, 10.0),
+        ("ca", "umol mol-1", 1.0, 5000.0),
+        ("pressure", "kPa", 30.0, 110.0),
+        ("o2", "mmol mol-1", 0.0, 1000.0),
+        ("d13c_air", "permil", -50.0, 50.0),
+        ("soil_beta", "-", 0.0, 1.0),
+    ];
+
+    /// Checks every condition against [`Self::RANGES`]; the error names the condition.
+    pub fn validate(&self) -> Result<()> {
+        let values = [
+            self.t_leaf_c,
+            self.ppfd_umol_m2_s,
+            self.vpd_kpa,
+            self.ca_umol_mol,
+            self.pressure_kpa,
+            self.o2_mmol_mol,
+            self.d13c_air_permil,
+            self.soil_beta,
+        ];
+        for ((name, _, min, max), v) in Self::RANGES.iter().zip(values) {
+            check_input(name, v, *min, *max)?;
+        }
+        Ok(())
+    }
+}
+
+/// The solved state of one leaf with its 13C discrimination.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LeafState {
+    /// Net assimilation A (µmol m⁻² s⁻¹).
+    pub a_net: f64,
+    /// Day respiration Rd (µmol m⁻² s⁻¹).
+    pub rd: f64,
+    /// Stomatal conductance to H2O (mol m⁻² s⁻¹).
+    pub g_s: f64,
+    /// CO2 at the leaf surface (µmol mol⁻¹).
+    pub c_s: f64,
+    /// Intercellular CO2 (µmol mol⁻¹).
+    pub c_i: f64,
+    /// CO2 at the site of carboxylation (µmol mol⁻¹; C4: equals c_i).
+    pub c_c: f64,
+    /// ci/ca (dimensionless).
+    pub ci_ca: f64,
+    /// Which rate limits A.
+    pub limitation: Limitation,
+    /// 13C discrimination Δ (‰); NaN when the leaf does not fix carbon (A + Rd ≤ 0 or A ≤ 0).
+    pub discrimination: f64,
+    /// δ13C of the assimilate (‰ vs VPDB); NaN where Δ is.
+    pub d13c_assimilate: f64,
+}
+
+fn g1_and_capacity(g1: f64, beta: f64, target: BetaTarget) -> (f64, f64) {
+    match target {
+        BetaTarget::Capacity => (g1, beta),
+        BetaTarget::G1 => (g1 * beta, 1.0),
+        BetaTarget::Both => (g1 * beta, beta),
+    }
+}
+
+/// Solves a C3 leaf: FvCB photosynthesis, Medlyn stomata, optional boundary-layer and mesophyll
+/// conductances, and the discrimination form chosen in `options`.
+pub fn solve_c3(p: &C3Params, options: &LeafOptions, c: &LeafConditions) -> Result<LeafState> {
+    c.validate()?;
+    let (g1, capacity) = g1_and_capacity(p.g1(), c.soil_beta, options.beta_target);
+    let kin = c3::C3Kinetics::new(
+        p,
+        c.t_leaf_c,
+        c.ppfd_umol_m2_s,
+        c.pressure_kpa,
+        c.o2_mmol_mol,
+        capacity,
+        options.electron_limit,
+    );
+    let stomata = Medlyn::new(p.g0(), g1, c.vpd_kpa);
+    let gm = p.gm();
+    let s = solve::solve(|ci| kin.demand(ci, gm), &stomata, c.ca_umol_mol, p.gb())?;
+    let ca = c.ca_umol_mol;
+    let discrimination = if s.a_net <= 0.0 {
+        f64::NAN
+    } else {
+        match options.c3_form {
+            C3Form::Simple => c3_simple_permil(s.ci / ca, p.a(), p.b_for(false)),
+            C3Form::Comprehensive => c3_comprehensive_permil(
+                &C3Gradient {
+                    ca,
+                    cs: s.cs,
+                    ci: s.ci,
+                    cc: s.cc,
+                    a_net: s.a_net,
+                    rd: kin.rd,
+                    gamma_star: kin.gamma_star,
+                },
+                &C3Fractionations {
+                    ab: p.ab(),
+                    a: p.a(),
+                    es: p.es(),
+                    al: p.al(),
+                    b: p.b_for(true),
+                    e: p.e(),
+                    f: p.f(),
+                },
+            ),
+        }
+    };
+    Ok(finish(s, kin.rd, ca, c.d13c_air_permil, discrimination))
+}
+
+/// Solves a C4 leaf: Collatz photosynthesis, Medlyn stomata, optional boundary layer, and the
+/// Farquhar (1983) discrimination with leakiness.
+pub fn solve_c4(p: &C4Params, options: &LeafOptions, c: &LeafConditions) -> Result<LeafState> {
+    c.validate()?;
+    let (g1, capacity) = g1_and_capacity(p.g1(), c.soil_beta, options.beta_target);
+    let kin = c4::C4Kinetics::new(p, c.t_leaf_c, c.ppfd_umol_m2_s, capacity);
+    let stomata = Medlyn::new(p.g0(), g1, c.vpd_kpa);
+    let s = solve::solve(
+        |ci| {
+            let (a, lim) = kin.demand(ci);
+            (a, ci, lim)
+        },
+        &stomata,
+        c.ca_umol_mol,
+        p.gb(),
+    )?;
+    let ca = c.ca_umol_mol;
+    let discrimination = if s.a_net <= 0.0 {
+        f64::NAN
+    } else {
+        c4_permil(
+            ca,
+            s.cs,
+            s.ci,
+            c.t_leaf_c,
+            &C4Fractionations {
+                ab: p.ab(),
+                a: p.a(),
+                b3: p.b3(),
+                s: p.s(),
+                leakiness: p.leakiness(),
+            },
+        )
+    };
+    Ok(finish(s, kin.rd, ca, c.d13c_air_permil, discrimination))
+}
+
+fn finish(s: solve::Coupled, rd: f64, ca: f64, d13c_air: f64, discrimination: f64) -> LeafState {
+    LeafState {
+        a_net: s.a_net,
+        rd,
+        g_s: s.gs,
+        c_s: s.cs,
+        c_i: s.ci,
+        c_c: s.cc,
+        ci_ca: s.ci / ca,
+        limitation: s.limitation,
+        discrimination,
+        d13c_assimilate: product_delta_permil(d13c_air, discrimination),
+    }
+}
+
+/// A leaf of either pathway with its parameters: what the runner and the canopy hold.
+#[derive(Debug, Clone, PartialEq)]
+pub enum LeafModel {
+    /// A C3 leaf.
+    C3(C3Params),
+    /// A C4 leaf.
+    C4(C4Params),
+}
+
+impl LeafModel {
+    /// Default parameters of the pathway.
+    pub fn default_for(pathway: Pathway) -> Self {
+        match pathway {
+            Pathway::C3 => LeafModel::C3(C3Params::default()),
+            Pathway::C4 => LeafModel::C4(C4Params::default()),
+        }
+    }
+
+    /// The pathway.
+    pub fn pathway(&self) -> Pathway {
+        match self {
+            LeafModel::C3(_) => Pathway::C3,
+            LeafModel::C4(_) => Pathway::C4,
+        }
+    }
+
+    /// Sets a parameter by name (validated).
+    pub fn set(&mut self, name: &str, value: f64) -> Result<()> {
+        match self {
+            LeafModel::C3(p) => p.set(name, value),
+            LeafModel::C4(p) => p.set(name, value),
+        }
+    }
+
+    /// A parameter by name.
+    pub fn get(&self, name: &str) -> Option<f64> {
+        match self {
+            LeafModel::C3(p) => p.get(name),
+            LeafModel::C4(p) => p.get(name),
+        }
+    }
+
+    /// Solves the leaf.
+    pub fn solve(&self, options: &LeafOptions, c: &LeafConditions) -> Result<LeafState> {
+        match self {
+            LeafModel::C3(p) => solve_c3(p, options, c),
+            LeafModel::C4(p) => solve_c4(p, options, c),
+        }
+    }
+}

@@ -1,0 +1,68 @@
+//! C4 photosynthesis after Collatz, Ribas-Carbo & Berry (1992, Aust. J. Plant Physiol.).
+//!
+//! Three rates: Rubisco capacity Vmax(T) = Vmax25·2^((T−25)/10)/((1 + e^{0.3(13−T)})(1 + e^{0.3(T−36)})),
+//! the light-limited rate α·I (α on incident PPFD) and the CO2-limited rate k(T)·ci (k in mol m⁻² s⁻¹,
+//! ci as a mole fraction, Q10 of k = 2). They are combined by two non-rectangular hyperbolae:
+//! θM² − M(Vmax + αI) + Vmax·αI = 0 and βA² − A(M + k·ci) + M·k·ci = 0 (smaller roots), then
+//! A_net = A − Rd with Rd(T) = Rd25·2^((T−25)/10)/(1 + e^{1.3(T−55)}).
+//! Constants as in Collatz et al. (1992), recalled from memory.
+
+use super::Limitation;
+use super::params::C4Params;
+use crate::numerics::smaller_root;
+use crate::temperature::q10_factor;
+
+/// Vmax (µmol m⁻² s⁻¹) at `t_leaf_c` (°C) for `vmax25` at 25 °C, Collatz et al. (1992).
+pub fn vmax_at(vmax25: f64, t_leaf_c: f64) -> f64 {
+    vmax25 * q10_factor(2.0, t_leaf_c, 25.0)
+        / ((1.0 + (0.3 * (13.0 - t_leaf_c)).exp()) * (1.0 + (0.3 * (t_leaf_c - 36.0)).exp()))
+}
+
+/// Day respiration (µmol m⁻² s⁻¹) at `t_leaf_c` (°C) for `rd25` at 25 °C, Collatz et al. (1992).
+pub fn rd_at(rd25: f64, t_leaf_c: f64) -> f64 {
+    rd25 * q10_factor(2.0, t_leaf_c, 25.0) / (1.0 + (1.3 * (t_leaf_c - 55.0)).exp())
+}
+
+/// A C4 leaf at one temperature and light: everything that does not depend on CO2.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct C4Kinetics {
+    pub vmax: f64,
+    pub light: f64,
+    /// k in µmol m⁻² s⁻¹ per µmol mol⁻¹ (numerically equal to mol m⁻² s⁻¹ per mol mol⁻¹).
+    pub k: f64,
+    pub m: f64,
+    pub beta_c: f64,
+    pub rd: f64,
+}
+
+impl C4Kinetics {
+    pub fn new(p: &C4Params, t_leaf_c: f64, ppfd: f64, capacity_scale: f64) -> Self {
+        let vmax = capacity_scale * vmax_at(p.vmax25(), t_leaf_c);
+        let light = p.alpha() * ppfd.max(0.0);
+        let m = smaller_root(p.theta(), -(vmax + light), vmax * light);
+        Self {
+            vmax,
+            light,
+            k: capacity_scale * p.k25() * q10_factor(p.q10_k(), t_leaf_c, 25.0),
+            m,
+            beta_c: p.beta_c(),
+            rd: rd_at(p.rd25(), t_leaf_c),
+        }
+    }
+
+    /// Net assimilation (µmol m⁻² s⁻¹) and the limiting rate at intercellular CO2 `ci` (µmol mol⁻¹).
+    pub fn demand(&self, ci: f64) -> (f64, Limitation) {
+        let kc = self.k * ci.max(0.0);
+        let gross = smaller_root(self.beta_c, -(self.m + kc), self.m * kc);
+        let lim = if self.light <= 0.0 {
+            Limitation::Dark
+        } else if kc <= self.light.min(self.vmax) {
+            Limitation::Co2
+        } else if self.light <= self.vmax {
+            Limitation::Light
+        } else {
+            Limitation::Rubisco
+        };
+        (gross - self.rd, lim)
+    }
+}

@@ -1,0 +1,80 @@
+//! The coupled solution of demand (photosynthesis) and supply (diffusion through the boundary layer
+//! and stomata, with Medlyn stomata) for one leaf.
+//!
+//! Supply: A = gb_c(ca − cs) = (gs/1.6)(cs − ci). The solver searches ci in a bracket with Brent's
+//! method on r(ci) = A(ci) − (gs/1.6)(cs − ci), where A(ci) is the demand (with mesophyll conductance
+//! inside it), cs = ca − A/gb_c and gs from Medlyn at (A, cs). r < 0 at ci = 0 (A < 0 there) and
+//! r ≥ A > 0 at ci = ca when the leaf can fix carbon, so the bracket always holds and the search
+//! cannot diverge. A leaf that cannot fix carbon even at ci = ca respires through g0: the bracket
+//! then lies above ca and is widened until it holds; with g0 = 0 its stomata are shut and ci = ca.
+
+use super::Limitation;
+use super::stomata::{GB_H2O_PER_CO2, GS_H2O_PER_CO2, Medlyn};
+use crate::error::{ModelError, Result};
+use crate::numerics::brent;
+
+/// The solved state of a leaf (before discrimination).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) struct Coupled {
+    pub a_net: f64,
+    pub gs: f64,
+    pub cs: f64,
+    pub ci: f64,
+    pub cc: f64,
+    pub limitation: Limitation,
+}
+
+/// Tolerance on ci (µmol mol⁻¹) of the root search.
+const CI_TOL: f64 = 1e-9;
+
+pub(crate) fn solve(
+    demand: impl Fn(f64) -> (f64, f64, Limitation),
+    stomata: &Medlyn,
+    ca: f64,
+    gb_h2o: f64,
+) -> Result<Coupled> {
+    let gbc = gb_h2o / GB_H2O_PER_CO2;
+    let state = |ci: f64| {
+        let (a, cc, lim) = demand(ci);
+        let cs = ca - a / gbc;
+        let gs = stomata.conductance(a, cs);
+        let r = a - gs / GS_H2O_PER_CO2 * (cs - ci);
+        (
+            r,
+            Coupled {
+                a_net: a,
+                gs,
+                cs,
+                ci,
+                cc,
+                limitation: lim,
+            },
+        )
+    };
+    let (r_hi, at_ca) = state(ca);
+    if at_ca.a_net <= 0.0 && stomata.g0 <= 0.0 {
+        // Stomata shut: no exchange through them; the leaf sits at ambient CO2.
+        return Ok(Coupled {
+            gs: 0.0,
+            cs: ca,
+            ..at_ca
+        });
+    }
+    let (r_lo, _) = state(0.0);
+    let (mut hi, mut rh) = (ca, r_hi);
+    let mut widen = 0;
+    while rh < 0.0 {
+        hi *= 2.0;
+        rh = state(hi).0;
+        widen += 1;
+        if widen > 60 {
+            return Err(ModelError::Numerical(format!(
+                "no bracket for the leaf's intercellular CO2 above ca = {ca}"
+            )));
+        }
+    }
+    let ci = brent(|x| state(x).0, 0.0, hi, r_lo, rh, CI_TOL, 200).ok_or_else(|| {
+        ModelError::Numerical(format!("leaf CO2 root search failed at ca = {ca}"))
+    })?;
+    Ok(state(ci).1)
+}
