@@ -60,10 +60,26 @@ pub(crate) fn solve(
             ..at_ca
         });
     }
-    let (r_lo, _) = state(0.0);
+    // Without g0 and boundary layer Medlyn gives ci = ca(1 − 1/slope) exactly; with them the root lies
+    // close by. Splitting the bracket there saves most of the search.
+    let guess = ca * (1.0 - 1.0 / stomata.slope);
+    let (r_guess, at_guess) = state(guess);
+    if r_guess == 0.0 {
+        return Ok(at_guess);
+    }
+    let (mut lo, mut rl) = (0.0, f64::NAN);
     let (mut hi, mut rh) = (ca, r_hi);
+    if r_guess < 0.0 {
+        (lo, rl) = (guess, r_guess);
+    } else {
+        (hi, rh) = (guess, r_guess);
+    }
+    if rl.is_nan() {
+        rl = state(lo).0;
+    }
     let mut widen = 0;
     while rh < 0.0 {
+        (lo, rl) = (hi, rh);
         hi *= 2.0;
         rh = state(hi).0;
         widen += 1;
@@ -73,7 +89,7 @@ pub(crate) fn solve(
             )));
         }
     }
-    let ci = brent(|x| state(x).0, 0.0, hi, r_lo, rh, CI_TOL, 200).ok_or_else(|| {
+    let ci = brent(|x| state(x).0, lo, hi, rl, rh, CI_TOL, 200).ok_or_else(|| {
         ModelError::Numerical(format!("leaf CO2 root search failed at ca = {ca}"))
     })?;
     Ok(state(ci).1)
