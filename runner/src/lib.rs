@@ -1,5 +1,35 @@
 //! # isodisc-runner
 //!
-//! Drives the model with weather files and writes results: the `isodisc` command.
+//! Drives the model with weather files and writes results: the `isodisc` command. Arguments are turned
+//! into a validated plan before any work starts; the plan runs; errors are printed with their chain.
 
+pub mod cli;
+pub mod commands;
+pub mod error;
 pub mod forcing;
+pub mod output;
+
+use std::process::ExitCode;
+
+use clap::Parser;
+
+use cli::{Cli, Command};
+use error::Result;
+
+/// Parses the command line, runs it and turns the outcome into an exit code (2 on error).
+pub fn main_entry() -> ExitCode {
+    match run(Cli::parse()) {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("isodisc: error: {}", e.chain());
+            ExitCode::from(2)
+        }
+    }
+}
+
+/// Runs a parsed command line.
+pub fn run(cli: Cli) -> Result<()> {
+    match cli.command {
+        Command::Leaf(args) => commands::leaf::LeafPlan::from_args(&args)?.run(),
+    }
+}

@@ -1,1 +1,5 @@
-fn main() {}
+//! The `isodisc` command.
+
+fn main() -> std::process::ExitCode {
+    isodisc_runner::main_entry()
+}

@@ -6,3 +6,4 @@ mod isotopes_leaf;
 mod observations;
 mod pools;
 mod runner_forcing;
+mod runner_leaf;

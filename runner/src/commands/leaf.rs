@@ -1,0 +1,555 @@
+//! `isodisc leaf`: one leaf under one set of conditions, or one row of output per row of an input CSV
+//! (streamed, so response curves and million-row sweeps are practical).
+
+use std::fs::File;
+use std::io::{self, BufReader, BufWriter, Write};
+use std::path::{Path, PathBuf};
+
+use isodisc_model::ModelError;
+use isodisc_model::error::closest_name;
+use isodisc_model::leaf::{
+    BetaTarget, C3Form, ElectronLimit, LeafConditions, LeafModel, LeafOptions, LeafState, Pathway,
+};
+use isodisc_model::water::vpd_from_rh_kpa;
+
+use crate::cli::{BetaTargetArg, ElectronArg, Format, FormArg, LeafArgs, PathwayArg};
+use crate::error::{Context, Error, Result};
+use crate::output::{AtomicFile, fmt_num, json_num};
+
+/// Valid RH range (%): a little above 100 is sensor overshoot and means saturated air.
+const RH_RANGE: (f64, f64) = (0.0, 105.0);
+
+/// A validated `isodisc leaf` invocation.
+#[derive(Debug, Clone)]
+pub struct LeafPlan {
+    model: LeafModel,
+    options: LeafOptions,
+    base: LeafConditions,
+    /// RH (%) given instead of VPD: VPD is computed per row at leaf temperature.
+    base_rh: Option<f64>,
+    format: Format,
+    input: Option<PathBuf>,
+    output: Option<PathBuf>,
+    list_params: bool,
+}
+
+/// Parses `NAME=VALUE` (VALUE may be `inf`).
+pub fn parse_assignment(text: &str) -> Result<(String, f64)> {
+    let (name, value) = text
+        .split_once('=')
+        .ok_or_else(|| Error::msg(format!("--set `{text}`: expected NAME=VALUE")))?;
+    let v: f64 = value.trim().parse().map_err(|_| {
+        Error::msg(format!(
+            "--set {name}: `{value}` is not a number (use `inf` for an infinite conductance)"
+        ))
+    })?;
+    Ok((name.trim().to_string(), v))
+}
+
+impl LeafPlan {
+    /// Validates the arguments: every flag against its range, every `--set` against the parameter
+    /// table, before any work starts.
+    pub fn from_args(args: &LeafArgs) -> Result<Self> {
+        let pathway = match args.pathway {
+            PathwayArg::C3 => Pathway::C3,
+            PathwayArg::C4 => Pathway::C4,
+        };
+        let mut model = LeafModel::default_for(pathway);
+        for s in &args.set {
+            let (name, value) = parse_assignment(s)?;
+            model
+                .set(&name, value)
+                .with_context(|| format!("--set {name}={value} for the {} leaf", pathway.as_str()))?;
+        }
+        let base = LeafConditions {
+            t_leaf_c: args.t_leaf,
+            ppfd_umol_m2_s: args.ppfd,
+            vpd_kpa: args.vpd.unwrap_or(1.0),
+            ca_umol_mol: args.ca,
+            pressure_kpa: args.pressure,
+            o2_mmol_mol: args.o2,
+            d13c_air_permil: args.d13c_air,
+            soil_beta: args.soil_beta,
+        };
+        if let Some(rh) = args.rh {
+            check_flag("rh", rh, RH_RANGE.0, RH_RANGE.1, "%")?;
+        }
+        let with_vpd = LeafConditions {
+            vpd_kpa: match args.rh {
+                Some(rh) => vpd_from_rh_kpa(base.t_leaf_c, rh),
+                None => base.vpd_kpa,
+            },
+            ..base
+        };
+        for ((name, unit, min, max), v) in LeafConditions::RANGES.iter().zip(values(&with_vpd)) {
+            check_flag(name, v, *min, *max, unit)?;
+        }
+        Ok(Self {
+            model,
+            options: LeafOptions {
+                electron_limit: match args.electron_limit {
+                    ElectronArg::Nadph => ElectronLimit::Nadph,
+                    ElectronArg::Atp => ElectronLimit::Atp,
+                },
+                beta_target: match args.beta_target {
+                    BetaTargetArg::Capacity => BetaTarget::Capacity,
+                    BetaTargetArg::G1 => BetaTarget::G1,
+                    BetaTargetArg::Both => BetaTarget::Both,
+                },
+                c3_form: match args.discrimination {
+                    FormArg::Simple => C3Form::Simple,
+                    FormArg::Comprehensive => C3Form::Comprehensive,
+                },
+            },
+            base,
+            base_rh: args.rh,
+            format: args.format,
+            input: args.input.clone(),
+            output: args.output.clone(),
+            list_params: args.list_params,
+        })
+    }
+
+    /// Runs the plan, writing to the output file or standard output.
+    pub fn run(&self) -> Result<()> {
+        match &self.output {
+            Some(path) => {
+                let mut f = AtomicFile::create(path)?;
+                self.write_to(f.writer())?;
+                f.commit()
+            }
+            None => {
+                let stdout = io::stdout();
+                let mut w = BufWriter::with_capacity(1 << 16, stdout.lock());
+                self.write_to(&mut w)?;
+                w.flush()?;
+                Ok(())
+            }
+        }
+    }
+
+    fn write_to(&self, w: &mut dyn Write) -> Result<()> {
+        if self.list_params {
+            return write_params(self.model.pathway(), self.format, w);
+        }
+        match &self.input {
+            Some(path) => self.run_file(path, w),
+            None => {
+                let mut c = self.base;
+                if let Some(rh) = self.base_rh {
+                    c.vpd_kpa = vpd_from_rh_kpa(c.t_leaf_c, rh);
+                }
+                let s = self.model.solve(&self.options, &c)?;
+                write_single(&c, &s, self.format, w)
+            }
+        }
+    }
+
+    fn run_file(&self, path: &Path, w: &mut dyn Write) -> Result<()> {
+        let file = File::open(path).with_context(|| format!("cannot open {}", path.display()))?;
+        let mut rdr = csv::ReaderBuilder::new()
+            .trim(csv::Trim::All)
+            .from_reader(BufReader::with_capacity(1 << 16, file));
+        let header = rdr
+            .headers()
+            .with_context(|| format!("cannot read the header of {}", path.display()))?
+            .clone();
+        let columns = map_columns(&header, self.model.pathway(), path)?;
+        let has_vpd = columns.iter().any(|c| matches!(c, Column::Condition(2)));
+        let has_rh = columns.iter().any(|c| matches!(c, Column::Rh));
+        if has_vpd && has_rh {
+            return Err(Error::msg(format!(
+                "{}: give either a `vpd` or an `rh` column, not both",
+                path.display()
+            )));
+        }
+        let param_cols: Vec<(usize, &str)> = columns
+            .iter()
+            .enumerate()
+            .filter_map(|(i, c)| match c {
+                Column::Param(n) => Some((i, *n)),
+                _ => None,
+            })
+            .collect();
+        let mut out = RowWriter::new(self.format, &param_cols);
+        out.header(w)?;
+        let mut record = csv::StringRecord::new();
+        let mut model = self.model.clone();
+        let mut params = Vec::with_capacity(param_cols.len());
+        while rdr
+            .read_record(&mut record)
+            .with_context(|| format!("cannot read {}", path.display()))?
+        {
+            let line = record.position().map_or(0, |p| p.line());
+            let mut vals = values(&self.base);
+            let mut rh = self.base_rh;
+            for (i, (field, col)) in record.iter().zip(&columns).enumerate() {
+                if field.is_empty() {
+                    continue;
+                }
+                let v: f64 = field.parse().map_err(|_| {
+                    Error::msg(format!(
+                        "{}: line {line}, column {} (`{}`): `{field}` is not a number",
+                        path.display(),
+                        i + 1,
+                        &header[i]
+                    ))
+                })?;
+                match col {
+                    Column::Condition(k) => {
+                        vals[*k] = v;
+                        if *k == 2 {
+                            rh = None;
+                        }
+                    }
+                    Column::Rh => {
+                        check_cell(path, line, i, &header[i], v, RH_RANGE.0, RH_RANGE.1, "%")?;
+                        rh = Some(v);
+                    }
+                    Column::Param(name) => {
+                        model.set(name, v).map_err(|e| cell_error(path, line, i, &header[i], e))?;
+                    }
+                }
+            }
+            params.clear();
+            params.extend(param_cols.iter().map(|(_, n)| model.get(n).unwrap_or(f64::NAN)));
+            let mut c = from_values(vals);
+            if let Some(rh) = rh {
+                c.vpd_kpa = vpd_from_rh_kpa(c.t_leaf_c, rh);
+            }
+            let state = model.solve(&self.options, &c).map_err(|e| {
+                let col = match &e {
+                    ModelError::InvalidInput { name, .. } => header
+                        .iter()
+                        .position(|h| h == name || (name == "vpd" && h == "rh")),
+                    _ => None,
+                };
+                match col {
+                    Some(i) => cell_error(path, line, i, &header[i], e),
+                    None => Error::msg(format!("{}: line {line}: {e}", path.display())),
+                }
+            })?;
+            if !param_cols.is_empty() {
+                model = self.model.clone();
+            }
+            out.row(w, &c, &params, &state)?;
+        }
+        out.finish(w)
+    }
+}
+
+fn values(c: &LeafConditions) -> [f64; 8] {
+    [
+        c.t_leaf_c,
+        c.ppfd_umol_m2_s,
+        c.vpd_kpa,
+        c.ca_umol_mol,
+        c.pressure_kpa,
+        c.o2_mmol_mol,
+        c.d13c_air_permil,
+        c.soil_beta,
+    ]
+}
+
+fn from_values(v: [f64; 8]) -> LeafConditions {
+    LeafConditions {
+        t_leaf_c: v[0],
+        ppfd_umol_m2_s: v[1],
+        vpd_kpa: v[2],
+        ca_umol_mol: v[3],
+        pressure_kpa: v[4],
+        o2_mmol_mol: v[5],
+        d13c_air_permil: v[6],
+        soil_beta: v[7],
+    }
+}
+
+fn check_flag(name: &str, v: f64, min: f64, max: f64, unit: &str) -> Result<()> {
+    if v.is_finite() && v >= min && v <= max {
+        Ok(())
+    } else {
+        Err(Error::msg(format!(
+            "--{} = {v}: valid range is {min} to {max} {unit}",
+            name.replace('_', "-")
+        )))
+    }
+}
+
+#[allow(clippy::too_many_arguments)]
+fn check_cell(
+    path: &Path,
+    line: u64,
+    col: usize,
+    name: &str,
+    v: f64,
+    min: f64,
+    max: f64,
+    unit: &str,
+) -> Result<()> {
+    if v.is_finite() && v >= min && v <= max {
+        Ok(())
+    } else {
+        Err(Error::msg(format!(
+            "{}: line {line}, column {} (`{name}`): {v} is outside the valid range {min} to {max} {unit}",
+            path.display(),
+            col + 1
+        )))
+    }
+}
+
+fn cell_error(path: &Path, line: u64, col: usize, name: &str, e: ModelError) -> Error {
+    Error::msg(format!(
+        "{}: line {line}, column {} (`{name}`): {e}",
+        path.display(),
+        col + 1
+    ))
+}
+
+/// What an input column sets.
+#[derive(Debug, Clone, Copy)]
+enum Column {
+    /// A condition, by its index in `LeafConditions::RANGES`.
+    Condition(usize),
+    /// Relative humidity (%).
+    Rh,
+    /// A leaf parameter.
+    Param(&'static str),
+}
+
+fn map_columns(header: &csv::StringRecord, pathway: Pathway, path: &Path) -> Result<Vec<Column>> {
+    let specs = pathway.specs();
+    header
+        .iter()
+        .enumerate()
+        .map(|(i, h)| {
+            if let Some(k) = LeafConditions::RANGES.iter().position(|r| r.0 == h) {
+                Ok(Column::Condition(k))
+            } else if h == "rh" {
+                Ok(Column::Rh)
+            } else if let Some(s) = specs.iter().find(|s| s.name == h) {
+                Ok(Column::Param(s.name))
+            } else {
+                let known = LeafConditions::RANGES
+                    .iter()
+                    .map(|r| r.0)
+                    .chain(["rh"])
+                    .chain(specs.iter().map(|s| s.name));
+                let hint = closest_name(h, known)
+                    .map(|k| format!(" (did you mean `{k}`?)"))
+                    .unwrap_or_default();
+                Err(Error::msg(format!(
+                    "{}: line 1, column {} (`{h}`): not a condition or {} parameter{hint}",
+                    path.display(),
+                    i + 1,
+                    pathway.as_str()
+                )))
+            }
+        })
+        .collect()
+}
+
+/// Output columns after the conditions: (name, unit).
+const RESULT_COLUMNS: &[(&str, &str)] = &[
+    ("a_net", "umol m-2 s-1"),
+    ("rd", "umol m-2 s-1"),
+    ("g_s", "mol m-2 s-1"),
+    ("c_s", "umol mol-1"),
+    ("c_i", "umol mol-1"),
+    ("c_c", "umol mol-1"),
+    ("ci_ca", "-"),
+    ("discrimination", "permil"),
+    ("d13c_assimilate", "permil"),
+    ("limitation", "-"),
+];
+
+fn result_values(s: &LeafState) -> [f64; 9] {
+    [
+        s.a_net,
+        s.rd,
+        s.g_s,
+        s.c_s,
+        s.c_i,
+        s.c_c,
+        s.ci_ca,
+        s.discrimination,
+        s.d13c_assimilate,
+    ]
+}
+
+fn write_single(c: &LeafConditions, s: &LeafState, format: Format, w: &mut dyn Write) -> Result<()> {
+    let inputs = LeafConditions::RANGES.iter().map(|r| (r.0, r.1)).zip(values(c));
+    let results = RESULT_COLUMNS.iter().copied().zip(result_values(s));
+    match format {
+        Format::Table => {
+            writeln!(w, "{:<16} {:>12}  unit", "quantity", "value")?;
+            for ((name, unit), v) in inputs.chain(results) {
+                let mut b = String::new();
+                fmt_num(&mut b, v);
+                if b.is_empty() {
+                    b.push('-');
+                }
+                writeln!(w, "{name:<16} {b:>12}  {unit}")?;
+            }
+            writeln!(w, "{:<16} {:>12}", "limitation", s.limitation.as_str())?;
+        }
+        Format::Csv | Format::Json => {
+            let mut out = RowWriter::new(format, &[]);
+            out.header(w)?;
+            out.row(w, c, &[], s)?;
+            out.finish(w)?;
+        }
+    }
+    Ok(())
+}
+
+/// Streams output rows in one of the formats.
+struct RowWriter {
+    format: Format,
+    names: Vec<String>,
+    buf: String,
+}
+
+impl RowWriter {
+    fn new(format: Format, params: &[(usize, &str)]) -> Self {
+        let names = LeafConditions::RANGES
+            .iter()
+            .map(|r| r.0.to_string())
+            .chain(params.iter().map(|(_, n)| n.to_string()))
+            .chain(RESULT_COLUMNS.iter().map(|r| r.0.to_string()))
+            .collect();
+        Self {
+            format,
+            names,
+            buf: String::with_capacity(256),
+        }
+    }
+
+    fn header(&mut self, w: &mut dyn Write) -> Result<()> {
+        match self.format {
+            Format::Csv => writeln!(w, "{}", self.names.join(","))?,
+            Format::Table => {
+                for n in &self.names {
+                    write!(w, "{n:>16}")?;
+                }
+                writeln!(w)?;
+            }
+            Format::Json => {}
+        }
+        Ok(())
+    }
+
+    fn row(&mut self, w: &mut dyn Write, c: &LeafConditions, params: &[f64], s: &LeafState) -> Result<()> {
+        let nums = values(c)
+            .into_iter()
+            .chain(params.iter().copied())
+            .chain(result_values(s));
+        self.buf.clear();
+        match self.format {
+            Format::Csv | Format::Table => {
+                let table = self.format == Format::Table;
+                for (i, v) in nums.enumerate() {
+                    let start = self.buf.len();
+                    if i > 0 && !table {
+                        self.buf.push(',');
+                    }
+                    fmt_num(&mut self.buf, v);
+                    if table {
+                        let width = self.buf.len() - start;
+                        let pad = 16usize.saturating_sub(width.max(1));
+                        if width == 0 {
+                            self.buf.push('-');
+                        }
+                        self.buf.insert_str(start, &" ".repeat(pad));
+                    }
+                }
+                if table {
+                    self.buf.push_str(&format!("{:>16}", s.limitation.as_str()));
+                } else {
+                    self.buf.push(',');
+                    self.buf.push_str(s.limitation.as_str());
+                }
+                self.buf.push('\n');
+            }
+            Format::Json => {
+                let mut obj = serde_json::Map::new();
+                for (name, v) in self.names.iter().zip(nums) {
+                    obj.insert(name.clone(), json_num(v));
+                }
+                obj.insert("limitation".into(), s.limitation.as_str().into());
+                self.buf = serde_json::to_string(&obj)?;
+                self.buf.push('\n');
+            }
+        }
+        w.write_all(self.buf.as_bytes())?;
+        Ok(())
+    }
+
+    fn finish(&mut self, w: &mut dyn Write) -> Result<()> {
+        w.flush()?;
+        Ok(())
+    }
+}
+
+fn write_params(pathway: Pathway, format: Format, w: &mut dyn Write) -> Result<()> {
+    let specs = pathway.specs();
+    let show = |v: f64| -> String {
+        if v.is_nan() {
+            "auto".into()
+        } else {
+            v.to_string()
+        }
+    };
+    match format {
+        Format::Table => {
+            writeln!(w, "{} leaf parameters", pathway.as_str().to_uppercase())?;
+            writeln!(
+                w,
+                "{:<14} {:>10} {:<24} {:>10} {:>10}  description; source",
+                "name", "default", "unit", "min", "max"
+            )?;
+            for s in specs {
+                writeln!(
+                    w,
+                    "{:<14} {:>10} {:<24} {:>10} {:>10}  {}; {}",
+                    s.name,
+                    show(s.default),
+                    s.unit,
+                    s.min,
+                    s.max,
+                    s.description,
+                    s.source
+                )?;
+            }
+        }
+        Format::Csv => {
+            let mut cw = csv::Writer::from_writer(w);
+            cw.write_record(["name", "default", "unit", "min", "max", "description", "source"])?;
+            for s in specs {
+                cw.write_record([
+                    s.name,
+                    &show(s.default),
+                    s.unit,
+                    &s.min.to_string(),
+                    &s.max.to_string(),
+                    s.description,
+                    s.source,
+                ])?;
+            }
+            cw.flush()?;
+        }
+        Format::Json => {
+            let list: Vec<_> = specs
+                .iter()
+                .map(|s| {
+                    serde_json::json!({
+                        "name": s.name, "default": json_num(s.default), "unit": s.unit,
+                        "min": json_num(s.min), "max": if s.max.is_infinite() { "inf".into() } else { json_num(s.max) },
+                        "description": s.description, "source": s.source,
+                    })
+                })
+                .collect();
+            writeln!(w, "{}", serde_json::to_string_pretty(&list)?)?;
+        }
+    }
+    Ok(())
+}

@@ -1,0 +1,3 @@
+//! One module per subcommand: each turns its arguments into a validated plan, then runs it.
+
+pub mod leaf;

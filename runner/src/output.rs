@@ -1,0 +1,96 @@
+//! Writing results: files appear whole or not at all (written to a temporary file beside the target,
+//! then renamed), and numbers are formatted the same way everywhere.
+
+use std::fs::{self, File};
+use std::io::{BufWriter, Write};
+use std::path::{Path, PathBuf};
+
+use crate::error::{Context, Result};
+
+/// A file being written: a temporary file in the target's folder until [`AtomicFile::commit`]
+/// renames it into place. Dropped without commit, the temporary file is removed.
+pub struct AtomicFile {
+    tmp: PathBuf,
+    target: PathBuf,
+    writer: Option<BufWriter<File>>,
+}
+
+impl AtomicFile {
+    /// Starts writing `target` (through `target` + `.tmp-<pid>`).
+    pub fn create(target: &Path) -> Result<Self> {
+        let name = target
+            .file_name()
+            .map(|n| n.to_string_lossy().into_owned())
+            .unwrap_or_default();
+        let tmp = target.with_file_name(format!(".{name}.tmp-{}", std::process::id()));
+        let file = File::create(&tmp)
+            .with_context(|| format!("cannot create a temporary file {}", tmp.display()))?;
+        Ok(Self {
+            tmp,
+            target: target.to_path_buf(),
+            writer: Some(BufWriter::with_capacity(1 << 16, file)),
+        })
+    }
+
+    /// The buffered writer.
+    pub fn writer(&mut self) -> &mut BufWriter<File> {
+        self.writer.as_mut().expect("writer present until commit")
+    }
+
+    /// Flushes, syncs and renames the temporary file onto the target.
+    pub fn commit(mut self) -> Result<()> {
+        let w = self.writer.take().expect("writer present until commit");
+        let file = w
+            .into_inner()
+            .map_err(|e| e.into_error())
+            .with_context(|| format!("cannot write {}", self.target.display()))?;
+        file.sync_all()
+            .with_context(|| format!("cannot write {}", self.target.display()))?;
+        fs::rename(&self.tmp, &self.target)
+            .with_context(|| format!("cannot move the result into {}", self.target.display()))?;
+        Ok(())
+    }
+}
+
+impl Drop for AtomicFile {
+    fn drop(&mut self) {
+        if self.writer.is_some() {
+            self.writer = None;
+            let _ = fs::remove_file(&self.tmp);
+        }
+    }
+}
+
+/// Writes `contents` to `target` atomically.
+pub fn write_atomic(target: &Path, contents: &[u8]) -> Result<()> {
+    let mut f = AtomicFile::create(target)?;
+    f.writer()
+        .write_all(contents)
+        .with_context(|| format!("cannot write {}", target.display()))?;
+    f.commit()
+}
+
+/// Formats a number for CSV: empty when NaN (a missing value, never a made-up number), otherwise
+/// the shortest representation that round-trips, rounded to `sig` significant digits.
+pub fn fmt_num(buf: &mut String, value: f64) {
+    use std::fmt::Write as _;
+    if value.is_nan() {
+        return;
+    }
+    if value.is_infinite() {
+        buf.push_str(if value > 0.0 { "inf" } else { "-inf" });
+        return;
+    }
+    // Six decimals are finer than any input or output here needs (µmol, ‰, gC m⁻²).
+    let rounded = (value * 1e6).round() / 1e6;
+    let _ = write!(buf, "{}", if rounded == 0.0 { 0.0 } else { rounded });
+}
+
+/// A number for JSON: null when NaN or infinite.
+pub fn json_num(value: f64) -> serde_json::Value {
+    if value.is_finite() {
+        serde_json::Value::from((value * 1e6).round() / 1e6)
+    } else {
+        serde_json::Value::Null
+    }
+}
