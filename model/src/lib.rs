@@ -26,6 +26,7 @@ pub mod leaf;
 mod numerics;
 pub mod observations;
 pub mod pools;
+pub mod site;
 pub mod temperature;
 pub mod water;
 

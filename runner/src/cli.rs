@@ -19,6 +19,30 @@ pub struct Cli {
 pub enum Command {
     /// One leaf: net assimilation, stomatal conductance, ci, cc and 13C discrimination.
     Leaf(LeafArgs),
+    /// A site from its weather file: flux-weighted discrimination step by step and aggregated.
+    Run(RunArgs),
+}
+
+/// `isodisc run`.
+#[derive(Debug, clap::Args)]
+pub struct RunArgs {
+    /// The site file (TOML).
+    pub site: PathBuf,
+    /// Folder for the results (created; an existing non-empty folder needs --overwrite).
+    #[arg(long)]
+    pub out: PathBuf,
+    /// First day to run, YYYY-MM-DD (local standard time).
+    #[arg(long)]
+    pub from: Option<String>,
+    /// Last day to run, YYYY-MM-DD, inclusive.
+    #[arg(long)]
+    pub to: Option<String>,
+    /// Replace the results folder if it exists.
+    #[arg(long)]
+    pub overwrite: bool,
+    /// Print nothing on success.
+    #[arg(long)]
+    pub quiet: bool,
 }
 
 /// Output format of tables.

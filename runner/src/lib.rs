@@ -8,6 +8,7 @@ pub mod commands;
 pub mod error;
 pub mod forcing;
 pub mod output;
+pub mod site;
 
 use std::process::ExitCode;
 
@@ -31,5 +32,6 @@ pub fn main_entry() -> ExitCode {
 pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Leaf(args) => commands::leaf::LeafPlan::from_args(&args)?.run(),
+        Command::Run(args) => commands::run::RunPlan::from_args(&args)?.run(),
     }
 }

@@ -95,8 +95,8 @@ impl SunTerms {
         // Nutation and aberration, through the longitude of the Moon's ascending node.
         let omega = (125.04 - 1934.136 * t).to_radians();
         let apparent_long = (true_long_deg - 0.00569 - 0.00478 * omega.sin()).to_radians();
-        let mean_obliq_deg = 23.0
-            + (26.0 + (21.448 - t * (46.815 + t * (0.00059 - t * 0.001813))) / 60.0) / 60.0;
+        let mean_obliq_deg =
+            23.0 + (26.0 + (21.448 - t * (46.815 + t * (0.00059 - t * 0.001813))) / 60.0) / 60.0;
         let obliq = (mean_obliq_deg + 0.00256 * omega.cos()).to_radians();
         let declination_rad = (obliq.sin() * apparent_long.sin()).asin();
         let y = (obliq / 2.0).tan().powi(2);

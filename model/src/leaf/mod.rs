@@ -377,6 +377,15 @@ impl LeafModel {
         }
     }
 
+    /// The same leaf with capacity and day respiration scaled by `factor` (see
+    /// [`C3Params::with_capacity_scaled`]).
+    pub fn with_capacity_scaled(&self, factor: f64) -> Self {
+        match self {
+            LeafModel::C3(p) => LeafModel::C3(p.with_capacity_scaled(factor)),
+            LeafModel::C4(p) => LeafModel::C4(p.with_capacity_scaled(factor)),
+        }
+    }
+
     /// Solves the leaf.
     pub fn solve(&self, options: &LeafOptions, c: &LeafConditions) -> Result<LeafState> {
         match self {

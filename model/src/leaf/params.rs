@@ -208,6 +208,18 @@ parameter_set! {
 }
 
 impl C3Params {
+    /// These parameters with photosynthetic capacity (vcmax25, jmax25, tpu25) and day respiration
+    /// (rd25) multiplied by `factor` (> 0): a leaf deeper in the canopy, with less nitrogen.
+    pub fn with_capacity_scaled(&self, factor: f64) -> Self {
+        Self {
+            vcmax25: self.vcmax25 * factor,
+            jmax25: self.jmax25 * factor,
+            tpu25: self.tpu25 * factor,
+            rd25: self.rd25 * factor,
+            ..self.clone()
+        }
+    }
+
     /// Carboxylation fractionation b (‰) for the given discrimination form: the set value, or the
     /// form's default (27‰ simple, 29‰ comprehensive).
     pub fn b_for(&self, comprehensive: bool) -> f64 {
@@ -215,6 +227,19 @@ impl C3Params {
             if comprehensive { 29.0 } else { 27.0 }
         } else {
             self.b
+        }
+    }
+}
+
+impl C4Params {
+    /// These parameters with capacity (vmax25, k25) and day respiration (rd25) multiplied by
+    /// `factor` (> 0): a leaf deeper in the canopy. k scales with Vmax as in Collatz et al. (1992).
+    pub fn with_capacity_scaled(&self, factor: f64) -> Self {
+        Self {
+            vmax25: self.vmax25 * factor,
+            k25: self.k25 * factor,
+            rd25: self.rd25 * factor,
+            ..self.clone()
         }
     }
 }

@@ -12,7 +12,7 @@ use isodisc_model::leaf::{
 };
 use isodisc_model::water::vpd_from_rh_kpa;
 
-use crate::cli::{BetaTargetArg, ElectronArg, Format, FormArg, LeafArgs, PathwayArg};
+use crate::cli::{BetaTargetArg, ElectronArg, FormArg, Format, LeafArgs, PathwayArg};
 use crate::error::{Context, Error, Result};
 use crate::output::{AtomicFile, fmt_num, json_num};
 
@@ -57,9 +57,9 @@ impl LeafPlan {
         let mut model = LeafModel::default_for(pathway);
         for s in &args.set {
             let (name, value) = parse_assignment(s)?;
-            model
-                .set(&name, value)
-                .with_context(|| format!("--set {name}={value} for the {} leaf", pathway.as_str()))?;
+            model.set(&name, value).with_context(|| {
+                format!("--set {name}={value} for the {} leaf", pathway.as_str())
+            })?;
         }
         let base = LeafConditions {
             t_leaf_c: args.t_leaf,
@@ -207,12 +207,18 @@ impl LeafPlan {
                         rh = Some(v);
                     }
                     Column::Param(name) => {
-                        model.set(name, v).map_err(|e| cell_error(path, line, i, &header[i], e))?;
+                        model
+                            .set(name, v)
+                            .map_err(|e| cell_error(path, line, i, &header[i], e))?;
                     }
                 }
             }
             params.clear();
-            params.extend(param_cols.iter().map(|(_, n)| model.get(n).unwrap_or(f64::NAN)));
+            params.extend(
+                param_cols
+                    .iter()
+                    .map(|(_, n)| model.get(n).unwrap_or(f64::NAN)),
+            );
             let mut c = from_values(vals);
             if let Some(rh) = rh {
                 c.vpd_kpa = vpd_from_rh_kpa(c.t_leaf_c, rh);
@@ -376,8 +382,16 @@ fn result_values(s: &LeafState) -> [f64; 9] {
     ]
 }
 
-fn write_single(c: &LeafConditions, s: &LeafState, format: Format, w: &mut dyn Write) -> Result<()> {
-    let inputs = LeafConditions::RANGES.iter().map(|r| (r.0, r.1)).zip(values(c));
+fn write_single(
+    c: &LeafConditions,
+    s: &LeafState,
+    format: Format,
+    w: &mut dyn Write,
+) -> Result<()> {
+    let inputs = LeafConditions::RANGES
+        .iter()
+        .map(|r| (r.0, r.1))
+        .zip(values(c));
     let results = RESULT_COLUMNS.iter().copied().zip(result_values(s));
     match format {
         Format::Table => {
@@ -438,7 +452,13 @@ impl RowWriter {
         Ok(())
     }
 
-    fn row(&mut self, w: &mut dyn Write, c: &LeafConditions, params: &[f64], s: &LeafState) -> Result<()> {
+    fn row(
+        &mut self,
+        w: &mut dyn Write,
+        c: &LeafConditions,
+        params: &[f64],
+        s: &LeafState,
+    ) -> Result<()> {
         let nums = values(c)
             .into_iter()
             .chain(params.iter().copied())
@@ -523,7 +543,15 @@ fn write_params(pathway: Pathway, format: Format, w: &mut dyn Write) -> Result<(
         }
         Format::Csv => {
             let mut cw = csv::Writer::from_writer(w);
-            cw.write_record(["name", "default", "unit", "min", "max", "description", "source"])?;
+            cw.write_record([
+                "name",
+                "default",
+                "unit",
+                "min",
+                "max",
+                "description",
+                "source",
+            ])?;
             for s in specs {
                 cw.write_record([
                     s.name,

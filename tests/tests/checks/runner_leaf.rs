@@ -23,8 +23,18 @@ fn read_rows(path: &Path) -> Vec<csv::StringRecord> {
 fn single_leaf_json_matches_the_model() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("leaf.json");
-    run(&["leaf", "--t-leaf", "28", "--vpd", "1.8", "--format", "json", "--output", out.to_str().unwrap()])
-        .unwrap();
+    run(&[
+        "leaf",
+        "--t-leaf",
+        "28",
+        "--vpd",
+        "1.8",
+        "--format",
+        "json",
+        "--output",
+        out.to_str().unwrap(),
+    ])
+    .unwrap();
     let v: serde_json::Value = serde_json::from_str(&fs::read_to_string(&out).unwrap()).unwrap();
     let c = LeafConditions {
         t_leaf_c: 28.0,
@@ -32,7 +42,11 @@ fn single_leaf_json_matches_the_model() {
         ..LeafConditions::default()
     };
     let s = solve_c3(&C3Params::default(), &LeafOptions::default(), &c).unwrap();
-    for (key, want) in [("a_net", s.a_net), ("g_s", s.g_s), ("discrimination", s.discrimination)] {
+    for (key, want) in [
+        ("a_net", s.a_net),
+        ("g_s", s.g_s),
+        ("discrimination", s.discrimination),
+    ] {
         let got = v[key].as_f64().unwrap();
         assert!((got - want).abs() < 1e-5, "{key}: {got} vs {want}");
     }
@@ -45,8 +59,16 @@ fn sweep_file_gives_one_row_per_input_row_with_parameter_columns() {
     let input = dir.path().join("sweep.csv");
     fs::write(&input, "ca,vcmax25,rh\n200,40,50\n400,,\n800,90,80\n").unwrap();
     let out = dir.path().join("out.csv");
-    run(&["leaf", "--input", input.to_str().unwrap(), "--format", "csv", "--output", out.to_str().unwrap()])
-        .unwrap();
+    run(&[
+        "leaf",
+        "--input",
+        input.to_str().unwrap(),
+        "--format",
+        "csv",
+        "--output",
+        out.to_str().unwrap(),
+    ])
+    .unwrap();
     let rows = read_rows(&out);
     assert_eq!(rows.len(), 3);
     // Row 2 takes the flag defaults for empty cells (vcmax25 default 60, VPD default 1 kPa).
@@ -55,7 +77,11 @@ fn sweep_file_gives_one_row_per_input_row_with_parameter_columns() {
         ..LeafConditions::default()
     };
     let s = solve_c3(&C3Params::default(), &LeafOptions::default(), &c).unwrap();
-    let header = csv::Reader::from_path(&out).unwrap().headers().unwrap().clone();
+    let header = csv::Reader::from_path(&out)
+        .unwrap()
+        .headers()
+        .unwrap()
+        .clone();
     let col = |name: &str| header.iter().position(|h| h == name).unwrap();
     let a: f64 = rows[1][col("a_net")].parse().unwrap();
     assert!((a - s.a_net).abs() < 1e-5);
@@ -73,14 +99,40 @@ fn bad_cells_name_file_line_column_and_value() {
     let dir = tempfile::tempdir().unwrap();
     let input = dir.path().join("bad.csv");
     fs::write(&input, "t_leaf,vpd\n25,1\n25,abc\n").unwrap();
-    let err = run(&["leaf", "--input", input.to_str().unwrap(), "--format", "csv"]).unwrap_err();
-    assert!(err.contains("bad.csv") && err.contains("line 3") && err.contains("column 2") && err.contains("abc"), "{err}");
+    let err = run(&[
+        "leaf",
+        "--input",
+        input.to_str().unwrap(),
+        "--format",
+        "csv",
+    ])
+    .unwrap_err();
+    assert!(
+        err.contains("bad.csv")
+            && err.contains("line 3")
+            && err.contains("column 2")
+            && err.contains("abc"),
+        "{err}"
+    );
     fs::write(&input, "t_leaf,vpd\n25,1\n25,-3\n").unwrap();
-    let err = run(&["leaf", "--input", input.to_str().unwrap(), "--format", "csv"]).unwrap_err();
-    assert!(err.contains("line 3") && err.contains("column 2") && err.contains("-3"), "{err}");
+    let err = run(&[
+        "leaf",
+        "--input",
+        input.to_str().unwrap(),
+        "--format",
+        "csv",
+    ])
+    .unwrap_err();
+    assert!(
+        err.contains("line 3") && err.contains("column 2") && err.contains("-3"),
+        "{err}"
+    );
     fs::write(&input, "t_leaf,vpdd\n25,1\n").unwrap();
     let err = run(&["leaf", "--input", input.to_str().unwrap()]).unwrap_err();
-    assert!(err.contains("vpdd") && err.contains("did you mean `vpd`"), "{err}");
+    assert!(
+        err.contains("vpdd") && err.contains("did you mean `vpd`"),
+        "{err}"
+    );
 }
 
 #[test]
@@ -92,21 +144,45 @@ fn bad_flags_name_the_flag_and_range_and_write_nothing() {
     let err = run(&["leaf", "--set", "g1=99"]).unwrap_err();
     assert!(err.contains("g1") && err.contains("20"), "{err}");
     assert!(!out.exists());
-    assert_eq!(fs::read_dir(dir.path()).unwrap().count(), 0, "no temporary file left");
+    assert_eq!(
+        fs::read_dir(dir.path()).unwrap().count(),
+        0,
+        "no temporary file left"
+    );
 }
 
 #[test]
 fn list_params_names_every_parameter_the_issue_requires() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("p.csv");
-    run(&["leaf", "--list-params", "--format", "csv", "--output", out.to_str().unwrap()]).unwrap();
+    run(&[
+        "leaf",
+        "--list-params",
+        "--format",
+        "csv",
+        "--output",
+        out.to_str().unwrap(),
+    ])
+    .unwrap();
     let names: Vec<String> = read_rows(&out).iter().map(|r| r[0].to_string()).collect();
-    for n in ["vcmax25", "jmax25", "rd25", "theta", "alpha", "g0", "g1", "gm", "a", "b", "ab", "es", "al", "e", "f"] {
+    for n in [
+        "vcmax25", "jmax25", "rd25", "theta", "alpha", "g0", "g1", "gm", "a", "b", "ab", "es",
+        "al", "e", "f",
+    ] {
         assert!(names.iter().any(|x| x == n), "C3 lacks {n}");
     }
     let out4 = dir.path().join("p4.csv");
-    run(&["leaf", "--pathway", "c4", "--list-params", "--format", "csv", "--output", out4.to_str().unwrap()])
-        .unwrap();
+    run(&[
+        "leaf",
+        "--pathway",
+        "c4",
+        "--list-params",
+        "--format",
+        "csv",
+        "--output",
+        out4.to_str().unwrap(),
+    ])
+    .unwrap();
     let names: Vec<String> = read_rows(&out4).iter().map(|r| r[0].to_string()).collect();
     for n in ["leakiness", "b3", "s", "vmax25", "k25", "g1"] {
         assert!(names.iter().any(|x| x == n), "C4 lacks {n}");

@@ -1,0 +1,325 @@
+//! One site, one step: solar geometry, diffuse fraction, the two-leaf canopy of each pathway on its
+//! cover fraction, the C3/C4 mixture and the soil-water bucket.
+//!
+//! - Solar position and the interval-mean cos Z: NOAA solar equations ([`crate::canopy::solar`]).
+//! - Diffuse fraction from the clearness index: Erbs et al. (1982).
+//! - Each pathway is its own canopy on its cover fraction; ground-area fluxes are cover × canopy.
+//! - Ecosystem Δ = Σ GPPₚ·Δₚ / Σ GPPₚ over pathways: weighted by each pathway's assimilation, not
+//!   by cover. The C4 share is GPP_C4/GPP.
+//! - Soil water: a bucket fed by precipitation and drained by transpiration (from canopy gs and
+//!   VPD) and soil evaporation (Priestley & Taylor 1972 under the canopy); β from its relative
+//!   available water — or β from an observed soil-water content.
+//! - Net radiation for soil evaporation is approximated as 0.7 × shortwave by day (common practice,
+//!   from memory; no longwave data are required).
+//! - With wind, the leaf boundary-layer conductance to H2O is gb = 0.147·√(u/d) mol m⁻² s⁻¹ for leaf
+//!   width d (Campbell & Norman 1998, from memory).
+
+use crate::canopy::assimilation::{CanopyDrivers, CanopyFlux, CanopySettings, canopy_step};
+use crate::canopy::radiation::diffuse_fraction_erbs;
+use crate::canopy::solar::Location;
+use crate::error::{Result, check_input, check_range};
+use crate::isotopes::product_delta_permil;
+use crate::leaf::{LeafConditions, LeafModel, LeafOptions, Pathway};
+use crate::water::bucket::{Bucket, BucketParams};
+use crate::water::evaporation::{PriestleyTaylor, soil_evaporation_demand_mm, transpiration_mm};
+
+/// Fraction of shortwave taken as net radiation by day (common practice, from memory).
+pub const NET_RADIATION_PER_SW: f64 = 0.7;
+
+/// One pathway's vegetation at a site.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Vegetation {
+    /// The leaf model with its parameters.
+    pub leaf: LeafModel,
+    /// Leaf model choices.
+    pub options: LeafOptions,
+    /// Canopy settings.
+    pub canopy: CanopySettings,
+    /// Fraction of the ground this pathway covers ((0, 1]).
+    pub cover: f64,
+    /// Leaf area index where it grows (m² m⁻²), unless the step gives one.
+    pub lai_m2_m2: f64,
+    /// Leaf width (m) for the boundary layer when wind is known.
+    pub leaf_width_m: f64,
+}
+
+impl Vegetation {
+    /// The pathway.
+    pub fn pathway(&self) -> Pathway {
+        self.leaf.pathway()
+    }
+}
+
+/// Where β comes from.
+#[derive(Debug, Clone, PartialEq)]
+pub enum SoilWater {
+    /// A bucket simulated from precipitation and evaporation.
+    Bucket(Bucket),
+    /// β from an observed volumetric soil-water content each step, mapped with these parameters.
+    Observed(BucketParams),
+}
+
+/// Everything a site needs besides its weather.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SiteSettings {
+    /// Where the site is.
+    pub location: Location,
+    /// One entry per pathway present (at most one C3 and one C4).
+    pub vegetation: Vec<Vegetation>,
+    /// Soil water.
+    pub soil: SoilWater,
+    /// Priestley–Taylor for soil evaporation.
+    pub priestley_taylor: PriestleyTaylor,
+    /// Extinction of net radiation to the soil (per unit LAI).
+    pub soil_radiation_extinction: f64,
+}
+
+/// The weather and atmosphere of one step, in the project's units.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SiteDrivers {
+    /// Calendar year (local standard time).
+    pub year: i32,
+    /// Day of year (1–366).
+    pub day_of_year: u32,
+    /// Start and end of the step, hours of the local standard day (0–24).
+    pub hour_start: f64,
+    /// End of the step (hours, > start, ≤ 24).
+    pub hour_end: f64,
+    /// Air temperature (°C).
+    pub t_air_c: f64,
+    /// Vapour pressure deficit (kPa).
+    pub vpd_kpa: f64,
+    /// Incoming shortwave (W m⁻²).
+    pub sw_w_m2: f64,
+    /// Incoming PPFD (µmol m⁻² s⁻¹).
+    pub ppfd_umol_m2_s: f64,
+    /// CO2 (µmol mol⁻¹).
+    pub co2_umol_mol: f64,
+    /// δ13C of CO2 (‰).
+    pub d13c_co2_permil: f64,
+    /// O2 (mmol mol⁻¹).
+    pub o2_mmol_mol: f64,
+    /// Air pressure (kPa).
+    pub pressure_kpa: f64,
+    /// Precipitation over the step (mm).
+    pub precip_mm: f64,
+    /// Observed volumetric soil water (m³ m⁻³), if any.
+    pub swc_m3_m3: Option<f64>,
+    /// Leaf area index for every pathway this step (m² m⁻²), if the forcing gives one.
+    pub lai_m2_m2: Option<f64>,
+    /// Wind speed (m s⁻¹), if known.
+    pub wind_m_s: Option<f64>,
+}
+
+/// One pathway's part of a site step, per m² of ground (cover applied).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PathwayStep {
+    /// The pathway.
+    pub pathway: Pathway,
+    /// The canopy's fluxes per m² of ground it covers (cover not applied).
+    pub canopy: CanopyFlux,
+    /// GPP per m² of site ground (µmol m⁻² s⁻¹): cover × canopy GPP.
+    pub gpp_umol_m2_s: f64,
+    /// Leaf area index used (m² m⁻²).
+    pub lai_m2_m2: f64,
+}
+
+/// The site over one step.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SiteStep {
+    /// Each pathway present, in the order of the settings.
+    pub pathways: Vec<PathwayStep>,
+    /// Site GPP (µmol m⁻² s⁻¹, ground).
+    pub gpp_umol_m2_s: f64,
+    /// GPP-weighted ecosystem discrimination (‰); NaN when nothing is fixed.
+    pub discrimination_permil: f64,
+    /// δ13C of the assimilate (‰); NaN when nothing is fixed.
+    pub d13c_assimilate_permil: f64,
+    /// GPP_C4 / GPP (dimensionless); NaN when GPP is 0.
+    pub c4_share: f64,
+    /// β used this step (0–1).
+    pub beta: f64,
+    /// Transpiration over the step (mm).
+    pub transpiration_mm: f64,
+    /// Soil evaporation over the step (mm).
+    pub soil_evaporation_mm: f64,
+    /// Bucket water after the step (mm), NaN with observed soil water.
+    pub soil_water_mm: f64,
+    /// Mean cos Z over the step.
+    pub cos_zenith: f64,
+    /// Diffuse fraction of shortwave (0–1).
+    pub diffuse_fraction: f64,
+}
+
+/// A site being simulated: settings and the soil-water state.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SiteModel {
+    settings: SiteSettings,
+}
+
+impl SiteModel {
+    /// Validates the settings: covers in (0, 1] summing to at most 1, at most one vegetation per
+    /// pathway, LAI in [0, 20], leaf width in (0, 1] m.
+    pub fn new(settings: SiteSettings) -> Result<Self> {
+        let mut total = 0.0;
+        for (i, v) in settings.vegetation.iter().enumerate() {
+            let name = v.pathway().as_str();
+            check_range(&format!("vegetation.{name}.cover"), v.cover, 1e-6, 1.0)?;
+            check_range(&format!("vegetation.{name}.lai"), v.lai_m2_m2, 0.0, 20.0)?;
+            check_range(
+                &format!("vegetation.{name}.leaf_width_m"),
+                v.leaf_width_m,
+                1e-4,
+                1.0,
+            )?;
+            if settings.vegetation[..i]
+                .iter()
+                .any(|w| w.pathway() == v.pathway())
+            {
+                return Err(crate::ModelError::InvalidConfig(format!(
+                    "two vegetation blocks for {name}"
+                )));
+            }
+            total += v.cover;
+        }
+        check_range("sum of vegetation covers", total, 0.0, 1.0 + 1e-9)?;
+        check_range(
+            "soil_radiation_extinction",
+            settings.soil_radiation_extinction,
+            0.0,
+            2.0,
+        )?;
+        Ok(Self { settings })
+    }
+
+    /// The settings.
+    pub fn settings(&self) -> &SiteSettings {
+        &self.settings
+    }
+
+    /// Current β (0–1) before the next step (1 with observed soil water until a step is run).
+    pub fn beta(&self) -> f64 {
+        match &self.settings.soil {
+            SoilWater::Bucket(b) => b.beta(),
+            SoilWater::Observed(_) => 1.0,
+        }
+    }
+
+    /// Advances the site by one step.
+    pub fn step(&mut self, d: &SiteDrivers) -> Result<SiteStep> {
+        let step_s = (d.hour_end - d.hour_start) * 3600.0;
+        let loc = &self.settings.location;
+        let cos_zenith = loc.mean_cos_zenith(d.year, d.day_of_year, d.hour_start, d.hour_end)?;
+        let et = loc.mean_extraterrestrial_horizontal_w_m2(
+            d.year,
+            d.day_of_year,
+            d.hour_start,
+            d.hour_end,
+        )?;
+        let sw = d.sw_w_m2.max(0.0);
+        let diffuse_fraction = if cos_zenith > 0.0 && et > 0.0 {
+            diffuse_fraction_erbs(sw, et)?
+        } else {
+            1.0
+        };
+        let ppfd = check_input("ppfd_umol_m2_s", d.ppfd_umol_m2_s, 0.0, 5000.0)?;
+        let beta = match &self.settings.soil {
+            SoilWater::Bucket(b) => b.beta(),
+            SoilWater::Observed(p) => match d.swc_m3_m3 {
+                Some(theta) if theta.is_finite() => p.beta_from_volumetric(theta)?,
+                _ => 1.0,
+            },
+        };
+        let leaf_base = LeafConditions {
+            t_leaf_c: d.t_air_c,
+            ppfd_umol_m2_s: 0.0,
+            vpd_kpa: d.vpd_kpa,
+            ca_umol_mol: d.co2_umol_mol,
+            pressure_kpa: d.pressure_kpa,
+            o2_mmol_mol: d.o2_mmol_mol,
+            d13c_air_permil: d.d13c_co2_permil,
+            soil_beta: beta,
+        };
+        let mut pathways = Vec::with_capacity(self.settings.vegetation.len());
+        let (mut gpp, mut gpp_c4, mut wd) = (0.0, 0.0, 0.0);
+        let mut transpiration = 0.0;
+        let mut lai_total = 0.0;
+        for v in &self.settings.vegetation {
+            let lai = d.lai_m2_m2.unwrap_or(v.lai_m2_m2);
+            let leaf = match d.wind_m_s {
+                Some(u) if u.is_finite() => {
+                    let mut l = v.leaf.clone();
+                    let gb = 0.147 * (u.max(0.1) / v.leaf_width_m).sqrt();
+                    l.set("gb", gb.clamp(0.01, 1e6))?;
+                    std::borrow::Cow::Owned(l)
+                }
+                _ => std::borrow::Cow::Borrowed(&v.leaf),
+            };
+            let flux = canopy_step(
+                &leaf,
+                &v.options,
+                &v.canopy,
+                &CanopyDrivers {
+                    leaf: leaf_base,
+                    ppfd_beam_umol_m2_s: ppfd * (1.0 - diffuse_fraction),
+                    ppfd_diffuse_umol_m2_s: ppfd * diffuse_fraction,
+                    cos_zenith,
+                    lai_m2_m2: lai,
+                },
+            )?;
+            let g = v.cover * flux.gpp_umol_m2_s;
+            gpp += g;
+            if v.pathway() == Pathway::C4 {
+                gpp_c4 += g;
+            }
+            if g > 0.0 {
+                wd += g * flux.discrimination_permil;
+            }
+            transpiration += v.cover
+                * transpiration_mm(
+                    flux.gs_canopy_mol_m2_s,
+                    d.vpd_kpa,
+                    d.pressure_kpa,
+                    1.0,
+                    step_s,
+                )?;
+            lai_total += v.cover * lai;
+            pathways.push(PathwayStep {
+                pathway: v.pathway(),
+                canopy: flux,
+                gpp_umol_m2_s: g,
+                lai_m2_m2: lai,
+            });
+        }
+        let discrimination = if gpp > 0.0 { wd / gpp } else { f64::NAN };
+        let pe = self.settings.priestley_taylor.potential_evaporation_mm(
+            d.t_air_c,
+            d.pressure_kpa,
+            NET_RADIATION_PER_SW * sw,
+            None,
+            step_s,
+        )?;
+        let soil_demand =
+            soil_evaporation_demand_mm(pe, lai_total, self.settings.soil_radiation_extinction)?;
+        let (transpiration_mm, soil_evaporation_mm, soil_water_mm) = match &mut self.settings.soil {
+            SoilWater::Bucket(b) => {
+                let s = b.step(d.precip_mm.max(0.0), transpiration, soil_demand)?;
+                (s.transpiration_mm, s.soil_evaporation_mm, s.water_mm)
+            }
+            SoilWater::Observed(_) => (transpiration, soil_demand, f64::NAN),
+        };
+        Ok(SiteStep {
+            pathways,
+            gpp_umol_m2_s: gpp,
+            discrimination_permil: discrimination,
+            d13c_assimilate_permil: product_delta_permil(d.d13c_co2_permil, discrimination),
+            c4_share: if gpp > 0.0 { gpp_c4 / gpp } else { f64::NAN },
+            beta,
+            transpiration_mm,
+            soil_evaporation_mm,
+            soil_water_mm,
+            cos_zenith,
+            diffuse_fraction,
+        })
+    }
+}

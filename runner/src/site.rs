@@ -1,0 +1,516 @@
+//! The site file (TOML): where the site is, what grows there, its soil, its atmosphere, its weather
+//! file and what to write. Parsed strictly: unknown keys are errors that name the key, the file and
+//! line, and the closest known key; values are validated by the model's constructors and errors
+//! name the key and line.
+
+use std::collections::BTreeMap;
+use std::fmt;
+use std::path::{Path, PathBuf};
+
+use isodisc_model::canopy::assimilation::CanopySettings;
+use isodisc_model::canopy::radiation::TwoLeafCanopy;
+use isodisc_model::canopy::solar::Location;
+use isodisc_model::error::closest_name;
+use isodisc_model::leaf::{BetaTarget, C3Form, ElectronLimit, LeafModel, LeafOptions, Pathway};
+use isodisc_model::site::{SiteSettings, SoilWater, Vegetation};
+use isodisc_model::water::bucket::{Bucket, BucketParams, InitialWater};
+use isodisc_model::water::evaporation::PriestleyTaylor;
+use serde::Deserialize;
+use toml::Spanned;
+
+use crate::error::{Error, Result};
+use crate::forcing::ForcingConfig;
+
+/// A constant, or `"forcing"`: the value comes from the weather file's column.
+#[derive(Debug, Clone, Copy, PartialEq, Deserialize)]
+#[serde(untagged)]
+pub enum ValueOrForcing {
+    /// A constant value.
+    Value(f64),
+    /// The word `"forcing"`.
+    Forcing(FromForcing),
+}
+
+/// The word `"forcing"`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+pub enum FromForcing {
+    /// The value comes from the weather file.
+    #[serde(rename = "forcing")]
+    Forcing,
+}
+
+/// `[site]`.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SiteBlock {
+    /// Site name.
+    pub name: String,
+    /// Latitude (°, north positive).
+    pub latitude: f64,
+    /// Longitude (°, east positive).
+    pub longitude: f64,
+    /// Elevation above sea level (m); gives pressure when the weather has none.
+    pub elevation_m: f64,
+    /// UTC offset of the timestamps, local standard time (hours).
+    pub utc_offset_h: f64,
+}
+
+/// `[vegetation.c3]` or `[vegetation.c4]`.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct VegetationBlock {
+    /// Fraction of the ground covered by this pathway (0–1).
+    pub cover: f64,
+    /// Leaf area index where it grows (m² m⁻²), or "forcing".
+    pub lai: ValueOrForcing,
+    /// Leaf parameters by the names of `isodisc leaf --set`.
+    #[serde(default)]
+    pub params: BTreeMap<String, Spanned<f64>>,
+    /// C3 discrimination form: "comprehensive" (default) or "simple".
+    #[serde(default)]
+    pub discrimination: Option<String>,
+    /// C3 electron-transport limit: "nadph" (default) or "atp".
+    #[serde(default)]
+    pub electron_limit: Option<String>,
+    /// Extinction of leaf capacity with canopy depth (per unit LAI). Default 0.3.
+    #[serde(default)]
+    pub kn: Option<f64>,
+    /// Clumping index Ω (0–1). Default 1.
+    #[serde(default)]
+    pub clumping: Option<f64>,
+    /// Leaf width for the boundary layer when wind is given (m). Default 0.05 (C3), 0.01 (C4).
+    #[serde(default)]
+    pub leaf_width_m: Option<f64>,
+}
+
+/// `[vegetation]`.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct VegetationBlocks {
+    /// C3 vegetation, if present.
+    pub c3: Option<VegetationBlock>,
+    /// C4 vegetation, if present.
+    pub c4: Option<VegetationBlock>,
+}
+
+/// `[soil]`.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SoilBlock {
+    /// Volumetric water content at field capacity (m³ m⁻³).
+    pub field_capacity: f64,
+    /// Volumetric water content at the wilting point (m³ m⁻³).
+    pub wilting_point: f64,
+    /// Rooting depth (m).
+    pub root_depth_m: f64,
+    /// Initial plant-available water as a fraction of capacity (0–1), or "forcing": β from the
+    /// weather file's observed soil-water column every step (no bucket).
+    pub initial_water: ValueOrForcing,
+    /// Relative available water above which β = 1 (0–1). Default 0.5.
+    #[serde(default)]
+    pub beta_threshold: Option<f64>,
+    /// What β scales: "g1" (default), "capacity" or "both".
+    #[serde(default)]
+    pub beta_target: Option<String>,
+    /// Priestley–Taylor α for soil evaporation. Default 1.26.
+    #[serde(default)]
+    pub priestley_taylor_alpha: Option<f64>,
+}
+
+/// `[atmosphere]`.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct AtmosphereBlock {
+    /// CO2 (µmol mol⁻¹), or "forcing".
+    pub co2: ValueOrForcing,
+    /// δ13C of CO2 (‰ vs VPDB), or "forcing".
+    pub d13c_co2: ValueOrForcing,
+    /// O2 (mmol mol⁻¹). Default 210.
+    #[serde(default)]
+    pub o2: Option<f64>,
+}
+
+/// `[output]`.
+#[derive(Debug, Clone, Deserialize, Default)]
+#[serde(deny_unknown_fields)]
+pub struct OutputBlock {
+    /// Write `daily.csv`. Default true.
+    #[serde(default)]
+    pub daily: Option<bool>,
+    /// Write `monthly.csv`. Default true.
+    #[serde(default)]
+    pub monthly: Option<bool>,
+    /// Write `annual.csv`. Default true.
+    #[serde(default)]
+    pub annual: Option<bool>,
+}
+
+/// The whole site file.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SiteFile {
+    /// `[site]`.
+    pub site: SiteBlock,
+    /// `[vegetation]`.
+    pub vegetation: VegetationBlocks,
+    /// `[soil]`.
+    pub soil: SoilBlock,
+    /// `[atmosphere]`.
+    pub atmosphere: AtmosphereBlock,
+    /// `[forcing]`.
+    pub forcing: ForcingConfig,
+    /// `[output]`.
+    #[serde(default)]
+    pub output: OutputBlock,
+}
+
+/// A site file read and validated: the model's settings and what the runner needs.
+#[derive(Debug, Clone)]
+pub struct Site {
+    /// Path of the site file.
+    pub path: PathBuf,
+    /// The file's text (for checksums and line numbers).
+    pub text: String,
+    /// The parsed file.
+    pub file: SiteFile,
+    /// The model's settings.
+    pub settings: SiteSettings,
+    /// Constant CO2 (µmol mol⁻¹), or None: from the weather file.
+    pub co2: Option<f64>,
+    /// Constant δ13C of CO2 (‰), or None: from the weather file.
+    pub d13c_co2: Option<f64>,
+    /// O2 (mmol mol⁻¹).
+    pub o2: f64,
+    /// LAI from the weather file.
+    pub lai_from_forcing: bool,
+    /// Outputs to write: daily, monthly, annual.
+    pub aggregates: [bool; 3],
+}
+
+/// An error located in the site file.
+#[derive(Debug)]
+pub struct SiteError {
+    path: PathBuf,
+    line: Option<usize>,
+    message: String,
+}
+
+impl fmt::Display for SiteError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self.line {
+            Some(l) => write!(f, "{}: line {l}: {}", self.path.display(), self.message),
+            None => write!(f, "{}: {}", self.path.display(), self.message),
+        }
+    }
+}
+
+impl std::error::Error for SiteError {}
+
+fn line_of(text: &str, offset: usize) -> usize {
+    text[..offset.min(text.len())]
+        .bytes()
+        .filter(|b| *b == b'\n')
+        .count()
+        + 1
+}
+
+/// Line (1-based) of the first `key =` or `[key]` at or after the start of `section` in the text;
+/// a best effort for values serde does not locate.
+fn line_of_key(text: &str, section: &str, key: &str) -> Option<usize> {
+    let start = text
+        .find(&format!("[{section}]"))
+        .map(|o| line_of(text, o))
+        .unwrap_or(1);
+    text.lines()
+        .enumerate()
+        .skip(start - 1)
+        .find(|(_, l)| {
+            let t = l.trim_start();
+            t.starts_with(key) && t[key.len()..].trim_start().starts_with('=')
+        })
+        .map(|(i, _)| i + 1)
+}
+
+/// Turns a toml error into one that names the line and, for unknown keys, the closest known key.
+fn toml_error(path: &Path, text: &str, e: toml::de::Error) -> SiteError {
+    let line = e.span().map(|s| line_of(text, s.start));
+    let msg = e.message().trim().to_string();
+    let message = if let Some(rest) = msg.strip_prefix("unknown field `") {
+        let (key, expected) = rest.split_once('`').unwrap_or((rest, ""));
+        let known: Vec<&str> = expected.split('`').skip(1).step_by(2).collect();
+        match closest_name(key, known.iter().copied()) {
+            Some(k) => format!(
+                "unknown key `{key}` (did you mean `{k}`?); known keys: {}",
+                known.join(", ")
+            ),
+            None => format!("unknown key `{key}`; known keys: {}", known.join(", ")),
+        }
+    } else {
+        msg
+    };
+    SiteError {
+        path: path.to_path_buf(),
+        line,
+        message,
+    }
+}
+
+impl Site {
+    /// Reads and validates a site file.
+    pub fn load(path: &Path) -> Result<Self> {
+        let text = std::fs::read_to_string(path).map_err(|e| {
+            Error::msg(format!("cannot read the site file {}: {e}", path.display()))
+        })?;
+        let file: SiteFile = toml::from_str(&text)
+            .map_err(|e| toml_error(path, &text, e))
+            .map_err(site_err)?;
+        let err = |line: Option<usize>, message: String| {
+            site_err(SiteError {
+                path: path.to_path_buf(),
+                line,
+                message,
+            })
+        };
+        let s = &file.site;
+        let location = Location::new(s.latitude, s.longitude, s.utc_offset_h).map_err(|e| {
+            err(
+                line_of_key(&text, "site", "latitude"),
+                format!("[site]: {e}"),
+            )
+        })?;
+        if !(-500.0..=6000.0).contains(&s.elevation_m) {
+            return Err(err(
+                line_of_key(&text, "site", "elevation_m"),
+                format!(
+                    "[site] elevation_m = {}: valid range is -500 to 6000 m",
+                    s.elevation_m
+                ),
+            ));
+        }
+        let mut vegetation = Vec::new();
+        let mut lai_from_forcing = false;
+        for (pathway, block) in [
+            (Pathway::C3, &file.vegetation.c3),
+            (Pathway::C4, &file.vegetation.c4),
+        ] {
+            let Some(b) = block else { continue };
+            let name = pathway.as_str();
+            let section = format!("vegetation.{name}");
+            let mut leaf = LeafModel::default_for(pathway);
+            for (k, v) in &b.params {
+                leaf.set(k, *v.get_ref()).map_err(|e| {
+                    err(
+                        Some(line_of(&text, v.span().start)),
+                        format!("[{section}] params.{k}: {e}"),
+                    )
+                })?;
+            }
+            let c3_form = match b.discrimination.as_deref() {
+                None | Some("comprehensive") => C3Form::Comprehensive,
+                Some("simple") => C3Form::Simple,
+                Some(o) => {
+                    return Err(err(
+                        line_of_key(&text, &section, "discrimination"),
+                        format!(
+                            "[{section}] discrimination = \"{o}\": use \"comprehensive\" or \"simple\""
+                        ),
+                    ));
+                }
+            };
+            if pathway == Pathway::C4 && b.discrimination.is_some() {
+                return Err(err(
+                    line_of_key(&text, &section, "discrimination"),
+                    format!(
+                        "[{section}] discrimination: C4 has one form (Farquhar 1983); remove the key"
+                    ),
+                ));
+            }
+            let electron_limit = match b.electron_limit.as_deref() {
+                None | Some("nadph") => ElectronLimit::Nadph,
+                Some("atp") if pathway == Pathway::C3 => ElectronLimit::Atp,
+                Some(o) => {
+                    return Err(err(
+                        line_of_key(&text, &section, "electron_limit"),
+                        format!(
+                            "[{section}] electron_limit = \"{o}\": use \"nadph\" or \"atp\" (C3 only)"
+                        ),
+                    ));
+                }
+            };
+            let beta_target = match file.soil.beta_target.as_deref() {
+                None | Some("g1") => BetaTarget::G1,
+                Some("capacity") => BetaTarget::Capacity,
+                Some("both") => BetaTarget::Both,
+                Some(o) => {
+                    return Err(err(
+                        line_of_key(&text, "soil", "beta_target"),
+                        format!(
+                            "[soil] beta_target = \"{o}\": use \"g1\", \"capacity\" or \"both\""
+                        ),
+                    ));
+                }
+            };
+            let radiation = TwoLeafCanopy::new(0.15, 0.78, 0.036, b.clumping.unwrap_or(1.0), 0.05)
+                .map_err(|e| {
+                    err(
+                        line_of_key(&text, &section, "clumping"),
+                        format!("[{section}] {e}"),
+                    )
+                })?;
+            let canopy =
+                CanopySettings::new(radiation, b.kn.unwrap_or(0.3), 0.85).map_err(|e| {
+                    err(
+                        line_of_key(&text, &section, "kn"),
+                        format!("[{section}] {e}"),
+                    )
+                })?;
+            let lai = match b.lai {
+                ValueOrForcing::Value(v) => v,
+                ValueOrForcing::Forcing(_) => {
+                    lai_from_forcing = true;
+                    0.0
+                }
+            };
+            vegetation.push(Vegetation {
+                leaf,
+                options: LeafOptions {
+                    electron_limit,
+                    beta_target,
+                    c3_form,
+                },
+                canopy,
+                cover: b.cover,
+                lai_m2_m2: lai,
+                leaf_width_m: b.leaf_width_m.unwrap_or(match pathway {
+                    Pathway::C3 => 0.05,
+                    Pathway::C4 => 0.01,
+                }),
+            });
+        }
+        if vegetation.is_empty() {
+            return Err(err(
+                line_of_key(&text, "", "vegetation")
+                    .or_else(|| text.find("[vegetation").map(|o| line_of(&text, o))),
+                "[vegetation] needs a c3 or a c4 block (or both)".into(),
+            ));
+        }
+        if file
+            .vegetation
+            .c3
+            .as_ref()
+            .is_some_and(|b| matches!(b.lai, ValueOrForcing::Forcing(_)))
+            != file
+                .vegetation
+                .c4
+                .as_ref()
+                .is_some_and(|b| matches!(b.lai, ValueOrForcing::Forcing(_)))
+            && file.vegetation.c3.is_some()
+            && file.vegetation.c4.is_some()
+        {
+            return Err(err(
+                text.find("lai = \"forcing\"").map(|o| line_of(&text, o)),
+                "lai = \"forcing\" applies the weather file's one LAI column to every pathway: set it for both or neither".into(),
+            ));
+        }
+        let soil = &file.soil;
+        let bucket_params = BucketParams::new(
+            soil.field_capacity,
+            soil.wilting_point,
+            soil.root_depth_m,
+            soil.beta_threshold.unwrap_or(0.5),
+        )
+        .map_err(|e| {
+            err(
+                line_of_key(&text, "soil", "field_capacity"),
+                format!("[soil] {e}"),
+            )
+        })?;
+        let soil_water = match soil.initial_water {
+            ValueOrForcing::Value(f) => SoilWater::Bucket(
+                Bucket::new(bucket_params, InitialWater::FractionOfCapacity(f)).map_err(|e| {
+                    err(
+                        line_of_key(&text, "soil", "initial_water"),
+                        format!("[soil] initial_water: {e}"),
+                    )
+                })?,
+            ),
+            ValueOrForcing::Forcing(_) => SoilWater::Observed(bucket_params),
+        };
+        let priestley_taylor = PriestleyTaylor::new(soil.priestley_taylor_alpha.unwrap_or(1.26))
+            .map_err(|e| {
+                err(
+                    line_of_key(&text, "soil", "priestley_taylor_alpha"),
+                    format!("[soil] {e}"),
+                )
+            })?;
+        let settings = SiteSettings {
+            location,
+            vegetation,
+            soil: soil_water,
+            priestley_taylor,
+            soil_radiation_extinction: 0.5,
+        };
+        let settings = isodisc_model::site::SiteModel::new(settings)
+            .map_err(|e| {
+                err(
+                    line_of_key(&text, "vegetation.c3", "cover"),
+                    format!("[vegetation] {e}"),
+                )
+            })?
+            .settings()
+            .clone();
+        let atm = &file.atmosphere;
+        let constant =
+            |v: ValueOrForcing, key: &str, min: f64, max: f64, unit: &str| -> Result<Option<f64>> {
+                match v {
+                    ValueOrForcing::Value(x) if x.is_finite() && (min..=max).contains(&x) => {
+                        Ok(Some(x))
+                    }
+                    ValueOrForcing::Value(x) => Err(err(
+                        line_of_key(&text, "atmosphere", key),
+                        format!("[atmosphere] {key} = {x}: valid range is {min} to {max} {unit}"),
+                    )),
+                    ValueOrForcing::Forcing(_) => Ok(None),
+                }
+            };
+        let co2 = constant(atm.co2, "co2", 1.0, 5000.0, "umol mol-1")?;
+        let d13c_co2 = constant(atm.d13c_co2, "d13c_co2", -50.0, 50.0, "permil")?;
+        let o2 = constant(
+            ValueOrForcing::Value(atm.o2.unwrap_or(210.0)),
+            "o2",
+            0.0,
+            1000.0,
+            "mmol mol-1",
+        )?
+        .unwrap_or(210.0);
+        let out = &file.output;
+        let aggregates = [
+            out.daily.unwrap_or(true),
+            out.monthly.unwrap_or(true),
+            out.annual.unwrap_or(true),
+        ];
+        Ok(Self {
+            path: path.to_path_buf(),
+            text,
+            file,
+            settings,
+            co2,
+            d13c_co2,
+            o2,
+            lai_from_forcing,
+            aggregates,
+        })
+    }
+
+    /// The folder of the site file (relative paths inside it are taken from here).
+    pub fn dir(&self) -> PathBuf {
+        self.path
+            .parent()
+            .map(Path::to_path_buf)
+            .unwrap_or_else(|| PathBuf::from("."))
+    }
+}
+
+fn site_err(e: SiteError) -> Error {
+    Error::msg(e.to_string())
+}
