@@ -7,3 +7,4 @@ mod observations;
 mod pools;
 mod runner_forcing;
 mod runner_leaf;
+mod runner_run;

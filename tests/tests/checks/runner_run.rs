@@ -1,0 +1,348 @@
+//! `isodisc run` end to end: flux weighting, agreement with the leaf model, the demo's published
+//! ranges, bad input and atomic output.
+
+use std::fs;
+use std::path::{Path, PathBuf};
+
+use clap::Parser;
+use isodisc_model::leaf::{C3Params, LeafConditions, LeafOptions, solve_c3};
+use isodisc_runner::cli::Cli;
+
+fn run(args: &[&str]) -> Result<(), String> {
+    let cli = Cli::try_parse_from(std::iter::once("isodisc").chain(args.iter().copied()))
+        .map_err(|e| e.to_string())?;
+    isodisc_runner::run(cli).map_err(|e| e.chain())
+}
+
+/// A table read back: header and rows of numbers (NaN for empty cells), keyed by column name.
+struct Table {
+    header: Vec<String>,
+    rows: Vec<Vec<String>>,
+}
+
+impl Table {
+    fn read(path: &Path) -> Self {
+        let mut r = csv::Reader::from_path(path).unwrap();
+        let header = r.headers().unwrap().iter().map(String::from).collect();
+        let rows = r
+            .records()
+            .map(|x| x.unwrap().iter().map(String::from).collect())
+            .collect();
+        Self { header, rows }
+    }
+    fn num(&self, row: usize, col: &str) -> f64 {
+        let i = self
+            .header
+            .iter()
+            .position(|h| h == col)
+            .unwrap_or_else(|| panic!("no column {col}"));
+        self.rows[row][i].parse().unwrap_or(f64::NAN)
+    }
+}
+
+const SITE_TEMPLATE: &str = r#"
+[site]
+name = "test"
+latitude = 0.0
+longitude = 0.0
+elevation_m = 0
+utc_offset_h = 0
+
+[vegetation.c3]
+cover = COVER3
+lai = LAI3
+params = { g0 = 0.0, g1 = 4.0 }
+
+VEG4
+
+[soil]
+field_capacity = 0.3
+wilting_point = 0.1
+root_depth_m = 1.0
+initial_water = 1.0
+
+[atmosphere]
+co2 = 400.0
+d13c_co2 = -8.5
+
+[forcing]
+path = "weather.csv"
+step_minutes = 60
+
+[forcing.columns]
+t_air = "t"
+vpd = "vpd"
+ppfd = "ppfd"
+precip = "p"
+"#;
+
+fn write_site(
+    dir: &Path,
+    cover3: f64,
+    lai3: f64,
+    c4: Option<(f64, f64)>,
+    weather: &str,
+) -> PathBuf {
+    let veg4 = c4.map_or(String::new(), |(c, l)| {
+        format!("[vegetation.c4]\ncover = {c}\nlai = {l}\nparams = {{ g0 = 0.0 }}\n")
+    });
+    let text = SITE_TEMPLATE
+        .replace("COVER3", &cover3.to_string())
+        .replace("LAI3", &lai3.to_string())
+        .replace("VEG4", &veg4);
+    let site = dir.join("site.toml");
+    fs::write(&site, text).unwrap();
+    fs::write(dir.join("weather.csv"), weather).unwrap();
+    site
+}
+
+#[test]
+fn canopy_discrimination_equals_the_leaf_at_the_same_conditions() {
+    // With g0 = 0 and no boundary layer, Medlyn fixes ci/ca = g1/(g1 + √D) whatever the light, so
+    // every leaf of a canopy has the leaf model's Δ at the same T, D and ca (Medlyn et al. 2011;
+    // Farquhar et al. 1982). A very small LAI keeps the canopy a single leaf layer.
+    let dir = tempfile::tempdir().unwrap();
+    let weather =
+        "time,t,vpd,ppfd,p\n2025-03-21T11:00,25,1.5,1500,0\n2025-03-21T12:00,25,1.5,1500,0\n";
+    let site = write_site(dir.path(), 1.0, 0.01, None, weather);
+    let out = dir.path().join("out");
+    run(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+    ])
+    .unwrap();
+    let steps = Table::read(&out.join("steps.csv"));
+    let leaf = solve_c3(
+        &C3Params::with_overrides([("g0", 0.0), ("g1", 4.0)]).unwrap(),
+        &LeafOptions::default(),
+        &LeafConditions {
+            t_leaf_c: 25.0,
+            vpd_kpa: 1.5,
+            ca_umol_mol: 400.0,
+            // FAO-56 pressure at 0 m, as the site uses with no pressure column.
+            pressure_kpa: 101.3,
+            d13c_air_permil: -8.5,
+            ..LeafConditions::default()
+        },
+    )
+    .unwrap();
+    for r in 0..2 {
+        let d = steps.num(r, "discrimination_c3");
+        assert!(
+            (d - leaf.discrimination).abs() < 1e-5,
+            "{d} vs {}",
+            leaf.discrimination
+        );
+        assert!((steps.num(r, "ci_ca_c3") - leaf.ci_ca).abs() < 1e-5);
+        assert!(
+            steps.rows[r][steps
+                .header
+                .iter()
+                .position(|h| h == "discrimination_c4")
+                .unwrap()]
+            .is_empty(),
+            "absent pathway gives empty cells, not zeros"
+        );
+    }
+}
+
+#[test]
+fn aggregates_are_gpp_weighted_not_unweighted_or_cover_weighted() {
+    // Flux weighting (SCIENCE §5; Lloyd & Farquhar 1994 weight Δ by assimilation): over time
+    // Δ̄ = Σ GPP·Δ / Σ GPP, and over pathways by each pathway's GPP, never by cover.
+    let dir = tempfile::tempdir().unwrap();
+    // Two daytime steps of very different light and VPD, so GPP and Δ differ between them.
+    let weather =
+        "time,t,vpd,ppfd,p\n2025-03-21T10:00,22,0.6,1800,0\n2025-03-21T11:00,32,4.5,150,0\n";
+    let site = write_site(dir.path(), 0.3, 2.0, Some((0.6, 2.0)), weather);
+    let out = dir.path().join("out");
+    run(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+    ])
+    .unwrap();
+    let steps = Table::read(&out.join("steps.csv"));
+    let daily = Table::read(&out.join("daily.csv"));
+    let (mut w, mut wd, mut sum_d) = (0.0, 0.0, 0.0);
+    for r in 0..2 {
+        let (g3, g4, g) = (
+            steps.num(r, "gpp_c3"),
+            steps.num(r, "gpp_c4"),
+            steps.num(r, "gpp"),
+        );
+        let (d3, d4, d) = (
+            steps.num(r, "discrimination_c3"),
+            steps.num(r, "discrimination_c4"),
+            steps.num(r, "discrimination"),
+        );
+        assert!((g3 + g4 - g).abs() < 1e-5);
+        assert!(
+            (d - (g3 * d3 + g4 * d4) / g).abs() < 1e-5,
+            "step {r}: GPP-weighted over pathways"
+        );
+        let cover_weighted = (0.3 * d3 + 0.6 * d4) / 0.9;
+        assert!(
+            (d - cover_weighted).abs() > 0.1,
+            "cover weighting must differ here"
+        );
+        w += g;
+        wd += g * d;
+        sum_d += d;
+    }
+    let day = daily.num(0, "discrimination");
+    assert!(
+        (day - wd / w).abs() < 1e-4,
+        "daily {day} vs weighted {}",
+        wd / w
+    );
+    assert!(
+        (day - sum_d / 2.0).abs() > 0.05,
+        "the unweighted mean differs and is not written"
+    );
+    // The daily GPP sum in gC m⁻²: µmol m⁻² s⁻¹ × 3600 s × 12.011e-6 gC µmol⁻¹ (common practice).
+    assert!((daily.num(0, "gpp") - w * 3600.0 * 12.011e-6).abs() < 1e-4);
+}
+
+#[test]
+fn demo_site_lies_in_the_published_ranges() {
+    // C3 ecosystems ≈ 17–22‰ and C4 ≈ 2–6‰ flux-weighted over a year (common practice; Lloyd &
+    // Farquhar 1994 give 17.8‰ and 3.6‰ as global means). The ecosystem value is the GPP-weighted
+    // mixture, so it lies between them, and it moves toward C3 only when the C4 share falls.
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("demo");
+    let site = Path::new(env!("CARGO_MANIFEST_DIR")).join("../forcing-demo/site.toml");
+    run(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+    ])
+    .unwrap();
+    let annual = Table::read(&out.join("annual.csv"));
+    let (d3, d4, d) = (
+        annual.num(0, "discrimination_c3"),
+        annual.num(0, "discrimination_c4"),
+        annual.num(0, "discrimination"),
+    );
+    assert!((17.0..=22.0).contains(&d3), "C3 {d3}");
+    assert!((2.0..=6.0).contains(&d4), "C4 {d4}");
+    assert!(d4 < d && d < d3);
+    let monthly = Table::read(&out.join("monthly.csv"));
+    for m in 0..monthly.rows.len() {
+        let share = monthly.num(m, "c4_share");
+        let (m3, m4, me) = (
+            monthly.num(m, "discrimination_c3"),
+            monthly.num(m, "discrimination_c4"),
+            monthly.num(m, "discrimination"),
+        );
+        assert!(
+            (me - (share * m4 + (1.0 - share) * m3)).abs() < 1e-4,
+            "month {m}"
+        );
+    }
+    let run_json: serde_json::Value =
+        serde_json::from_str(&fs::read_to_string(out.join("run.json")).unwrap()).unwrap();
+    assert!(
+        run_json["gaps"]["missing_steps"].as_u64().unwrap() > 0,
+        "the demo's long gap is reported"
+    );
+    assert_eq!(
+        run_json["units"]["steps.csv"]["gpp"]["unit"],
+        "umol m-2 s-1"
+    );
+}
+
+#[test]
+fn a_failed_run_leaves_the_folder_as_it_was() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    fs::create_dir(&out).unwrap();
+    fs::write(out.join("keep.txt"), "earlier results").unwrap();
+    // Line 4 repeats a timestamp: an error naming line and column.
+    let weather = "time,t,vpd,ppfd,p\n2025-03-21T10:00,22,0.6,1800,0\n2025-03-21T11:00,22,0.6,1800,0\n2025-03-21T11:00,22,0.6,1800,0\n";
+    let site = write_site(dir.path(), 1.0, 2.0, None, weather);
+    let err = run(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--overwrite",
+    ])
+    .unwrap_err();
+    assert!(err.contains("line 4"), "{err}");
+    assert_eq!(
+        fs::read_to_string(out.join("keep.txt")).unwrap(),
+        "earlier results"
+    );
+    assert_eq!(fs::read_dir(&out).unwrap().count(), 1);
+    // Without --overwrite a non-empty folder is refused before any work.
+    let err = run(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ])
+    .unwrap_err();
+    assert!(err.contains("--overwrite"), "{err}");
+    let leftovers: Vec<_> = fs::read_dir(dir.path())
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .filter(|n| n.starts_with('.'))
+        .collect();
+    assert!(
+        leftovers.is_empty(),
+        "temporary folders left: {leftovers:?}"
+    );
+}
+
+#[test]
+fn unknown_site_keys_name_key_line_and_closest_known_key() {
+    let dir = tempfile::tempdir().unwrap();
+    let site = write_site(dir.path(), 1.0, 2.0, None, "time,t,vpd,ppfd,p\n");
+    let text = fs::read_to_string(&site)
+        .unwrap()
+        .replace("root_depth_m", "root_dept_m");
+    fs::write(&site, text.clone()).unwrap();
+    let line = text
+        .lines()
+        .position(|l| l.starts_with("root_dept_m"))
+        .unwrap()
+        + 1;
+    let out = dir.path().join("out");
+    let err = run(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ])
+    .unwrap_err();
+    assert!(
+        err.contains("site.toml") && err.contains(&format!("line {line}")),
+        "{err}"
+    );
+    assert!(
+        err.contains("root_dept_m") && err.contains("did you mean `root_depth_m`"),
+        "{err}"
+    );
+    // A bad parameter value names the key and its line.
+    let text = text
+        .replace("root_dept_m", "root_depth_m")
+        .replace("g1 = 4.0", "g1 = 40.0");
+    fs::write(&site, text).unwrap();
+    let err = run(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ])
+    .unwrap_err();
+    assert!(err.contains("g1") && err.contains("line 12"), "{err}");
+    assert!(!out.exists());
+}
