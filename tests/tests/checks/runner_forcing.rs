@@ -135,7 +135,12 @@ fn calendar_facts_and_round_trips() {
             }
         }
     }
-    for bad in ["2025-13-01T00:00", "2025-01-01T24:00", "2025-01-01", "2025-01-01T00:00:30"] {
+    for bad in [
+        "2025-13-01T00:00",
+        "2025-01-01T24:00",
+        "2025-01-01",
+        "2025-01-01T00:00:30",
+    ] {
         assert!(LocalTime::parse_iso(bad).is_err(), "{bad}");
     }
 }
@@ -189,7 +194,10 @@ fn three_hour_gap_leaves_steps_missing() {
     let (steps, reader) = read_all(&basic_config(), dir.path()).unwrap();
     assert_eq!(steps.len(), 5);
     for s in &steps[1..4] {
-        assert!(s.missing && s.t_air_c.is_nan() && s.vpd_kpa.is_nan(), "{s:?}");
+        assert!(
+            s.missing && s.t_air_c.is_nan() && s.vpd_kpa.is_nan(),
+            "{s:?}"
+        );
     }
     assert!(!steps[0].missing && !steps[4].missing);
     let report = reader.report();
@@ -311,7 +319,10 @@ fn from_and_to_select_a_period() {
         None,
     )
     .unwrap();
-    assert!(matches!(empty.next(), Some(Err(ForcingError::EmptyPeriod { .. }))));
+    assert!(matches!(
+        empty.next(),
+        Some(Err(ForcingError::EmptyPeriod { .. }))
+    ));
 }
 
 #[test]
@@ -381,7 +392,15 @@ fn unparsable_time_is_located() {
         &basic_config(),
         &format!("{HEADER}2025-06-01T00:00,10,60,0,0\n2025-06-31T01:00,12,60,0,0\n"),
     );
-    assert_data_error(&err, &msg, 3, "time", 1, "2025-06-31T01:00", DataErrorKind::Time);
+    assert_data_error(
+        &err,
+        &msg,
+        3,
+        "time",
+        1,
+        "2025-06-31T01:00",
+        DataErrorKind::Time,
+    );
 }
 
 #[test]
@@ -393,7 +412,15 @@ fn time_going_backwards_is_located() {
              2025-06-01T00:00,12,60,0,0\n"
         ),
     );
-    assert_data_error(&err, &msg, 4, "time", 1, "2025-06-01T00:00", DataErrorKind::TimeOrder);
+    assert_data_error(
+        &err,
+        &msg,
+        4,
+        "time",
+        1,
+        "2025-06-01T00:00",
+        DataErrorKind::TimeOrder,
+    );
     assert!(msg.contains("line 3"), "names the earlier line: {msg}");
 }
 
@@ -403,7 +430,15 @@ fn repeated_time_is_located() {
         &basic_config(),
         &format!("{HEADER}2025-06-01T00:00,10,60,0,0\n2025-06-01T00:00,12,60,0,0\n"),
     );
-    assert_data_error(&err, &msg, 3, "time", 1, "2025-06-01T00:00", DataErrorKind::TimeOrder);
+    assert_data_error(
+        &err,
+        &msg,
+        3,
+        "time",
+        1,
+        "2025-06-01T00:00",
+        DataErrorKind::TimeOrder,
+    );
     assert!(msg.contains("repeats"), "{msg}");
 }
 
@@ -413,7 +448,15 @@ fn irregular_step_is_located() {
         &basic_config(),
         &format!("{HEADER}2025-06-01T00:00,10,60,0,0\n2025-06-01T01:30,12,60,0,0\n"),
     );
-    assert_data_error(&err, &msg, 3, "time", 1, "2025-06-01T01:30", DataErrorKind::IrregularStep);
+    assert_data_error(
+        &err,
+        &msg,
+        3,
+        "time",
+        1,
+        "2025-06-01T01:30",
+        DataErrorKind::IrregularStep,
+    );
     assert!(msg.contains("90 min") && msg.contains("60 min"), "{msg}");
 }
 
@@ -433,7 +476,10 @@ fn kelvin_in_a_celsius_column_is_located_with_a_hint() {
         &format!("{HEADER}2025-06-01T00:00,293.4,60,0,0\n"),
     );
     assert_data_error(&err, &msg, 2, "ta", 2, "293.4", DataErrorKind::Range);
-    assert!(msg.contains("kelvin") && msg.contains("units.t_air = \"K\""), "{msg}");
+    assert!(
+        msg.contains("kelvin") && msg.contains("units.t_air = \"K\""),
+        "{msg}"
+    );
 }
 
 #[test]
@@ -463,7 +509,10 @@ fn mapped_column_not_in_header_names_the_closest() {
     let err = read_all(&config, dir.path()).err().unwrap();
     let msg = err.to_string();
     assert!(matches!(err, ForcingError::MissingColumn { .. }), "{msg}");
-    assert!(msg.contains("`TA_1_1`") && msg.contains("`TA_1_1_1`"), "{msg}");
+    assert!(
+        msg.contains("`TA_1_1`") && msg.contains("`TA_1_1_1`"),
+        "{msg}"
+    );
 }
 
 #[test]
@@ -473,7 +522,14 @@ fn wrong_field_count_is_located() {
         &format!("{HEADER}2025-06-01T00:00,10,60,0,0\n2025-06-01T01:00,10,60\n"),
     );
     assert!(
-        matches!(err, ForcingError::Data { line: 3, kind: DataErrorKind::Csv, .. }),
+        matches!(
+            err,
+            ForcingError::Data {
+                line: 3,
+                kind: DataErrorKind::Csv,
+                ..
+            }
+        ),
         "{msg}"
     );
 }
