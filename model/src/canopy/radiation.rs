@@ -190,7 +190,12 @@ impl TwoLeafCanopy {
         lai_m2_m2: f64,
     ) -> Result<TwoLeafLight> {
         let mut ib = check_input("ppfd_beam_umol_m2_s", ppfd_beam_umol_m2_s, 0.0, 5000.0)?;
-        let mut id = check_input("ppfd_diffuse_umol_m2_s", ppfd_diffuse_umol_m2_s, 0.0, 5000.0)?;
+        let mut id = check_input(
+            "ppfd_diffuse_umol_m2_s",
+            ppfd_diffuse_umol_m2_s,
+            0.0,
+            5000.0,
+        )?;
         let lai = check_input("lai_m2_m2", lai_m2_m2, 0.0, 20.0)?;
         let kb = self.kb(cos_zenith)?;
         let sun_up = cos_zenith > 0.0;

@@ -99,7 +99,12 @@ pub fn soil_evaporation_demand_mm(
     lai_m2_m2: f64,
     k_extinction: f64,
 ) -> Result<f64> {
-    let pe = check_input("potential_evaporation_mm", potential_evaporation_mm, 0.0, 1e3)?;
+    let pe = check_input(
+        "potential_evaporation_mm",
+        potential_evaporation_mm,
+        0.0,
+        1e3,
+    )?;
     let lai = check_input("lai_m2_m2", lai_m2_m2, 0.0, 20.0)?;
     let k = check_range("k_soil_extinction", k_extinction, 0.0, 2.0)?;
     Ok(pe * (-k * lai).exp())
