@@ -82,8 +82,8 @@ impl SunTerms {
     /// NOAA calculator terms at Julian day `jd` (UT).
     fn at(jd: f64) -> Self {
         let t = (jd - JD_J2000) / 36_525.0;
-        let mean_long_deg = (280.46646 + t * (36_000.76983 + t * 0.0003032)).rem_euclid(360.0);
-        let mean_anom_deg = 357.52911 + t * (35_999.05029 - 0.0001537 * t);
+        let mean_long_deg = (280.46646 + t * (36000.76983 + t * 0.0003032)).rem_euclid(360.0);
+        let mean_anom_deg = 357.52911 + t * (35999.05029 - 0.0001537 * t);
         let ecc = 0.016708634 - t * (0.000042037 + 0.0000001267 * t);
         let m = mean_anom_deg.to_radians();
         let centre_deg = m.sin() * (1.914602 - t * (0.004817 + 0.000014 * t))
@@ -216,34 +216,61 @@ impl Location {
     }
 
     /// Sunrise and sunset on `day_of_year` of `year` in local standard time, when the Sun's centre
-    /// is at [`SUNRISE_ZENITH_DEG`]. Declination and equation of time are taken at 12:00 local
-    /// standard time; their change over half a day moves the times by well under a minute.
+    /// is at [`SUNRISE_ZENITH_DEG`]. Polar day or night is decided with the Sun's terms at 12:00
+    /// local standard time; each event is then refined twice with the terms at its own time, since
+    /// near the equinoxes the declination moves about 0.1° in six hours, about a minute of rise or
+    /// set time at mid-latitudes.
     pub fn sun_times(&self, year: i32, day_of_year: u32) -> Result<SunTimes> {
         check_date(year, day_of_year)?;
-        let sun = SunTerms::at(julian_day(year, day_of_year, 12.0, self.utc_offset_h));
+        // Start from the terms at 12:00 and move them to the event's own time.
+        let event = |sign: f64| -> std::result::Result<f64, SunTimes> {
+            let mut hour = 12.0;
+            for _ in 0..3 {
+                hour = self.event_hour(year, day_of_year, hour, sign)?;
+            }
+            Ok(hour)
+        };
+        match (event(-1.0), event(1.0)) {
+            (Ok(sunrise_hour_lst), Ok(sunset_hour_lst)) => Ok(SunTimes::RiseAndSet {
+                sunrise_hour_lst,
+                sunset_hour_lst,
+            }),
+            // Polar at noon, or at a refined time within minutes of a polar transition.
+            (Err(polar), _) | (_, Err(polar)) => Ok(polar),
+        }
+    }
+
+    /// Local-standard-time hour at which the Sun's centre crosses [`SUNRISE_ZENITH_DEG`] in the
+    /// morning (`sign` = −1) or evening (+1), with the Sun's terms taken at `hour_lst`; or the
+    /// polar state when it does not cross.
+    fn event_hour(
+        &self,
+        year: i32,
+        day_of_year: u32,
+        hour_lst: f64,
+        sign: f64,
+    ) -> std::result::Result<f64, SunTimes> {
+        let sun = SunTerms::at(julian_day(year, day_of_year, hour_lst, self.utc_offset_h));
         let (a, b) = self.cos_zenith_coefficients(sun.declination_rad);
         let cos_h = (SUNRISE_ZENITH_DEG.to_radians().cos() - a) / b;
-        // At the poles b = 0 and cos_h is ±∞ or NaN; the comparisons sort those out too.
+        // At the poles b = 0 and cos_h is ±∞ or NaN.
         if cos_h.is_nan() {
-            return Ok(if a > 0.0 {
+            return Err(if a > 0.0 {
                 SunTimes::PolarDay
             } else {
                 SunTimes::PolarNight
             });
         }
         if cos_h >= 1.0 {
-            return Ok(SunTimes::PolarNight);
+            return Err(SunTimes::PolarNight);
         }
         if cos_h <= -1.0 {
-            return Ok(SunTimes::PolarDay);
+            return Err(SunTimes::PolarDay);
         }
         let half_day_deg = cos_h.acos().to_degrees();
         // Solar noon is where the hour angle is zero; the hour angle advances 15° per hour.
-        let noon = 12.0 - self.hour_angle_deg(12.0, sun.equation_of_time_min) / 15.0;
-        Ok(SunTimes::RiseAndSet {
-            sunrise_hour_lst: noon - half_day_deg / 15.0,
-            sunset_hour_lst: noon + half_day_deg / 15.0,
-        })
+        let solar_noon = 12.0 - self.hour_angle_deg(12.0, sun.equation_of_time_min) / 15.0;
+        Ok(solar_noon + sign * half_day_deg / 15.0)
     }
 
     /// Mean of max(0, cos Z) over the interval from `hour_start_lst` to `hour_end_lst` (local
