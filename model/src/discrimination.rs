@@ -6,10 +6,10 @@
 //!   Δ = ab(ca − cs)/ca + a(cs − ci)/ca + (es + al)(ci − cc)/ca + b·cc/ca − (e·Rd/k + f·Γ*)/ca,
 //!   with k = (A + Rd)/(cc − Γ*) the carboxylation efficiency. With no boundary layer, infinite
 //!   mesophyll conductance, e = f = 0 and b = 27‰ it reduces to the simple form.
-//! - C4 (Farquhar 1983, Aust. J. Plant Physiol.): Δ = ab(ca − cs)/ca + a(cs − ci)/ca
-//!   + (b4 + φ(b3 − s))·ci/ca, with leakiness φ and b4 the temperature-dependent fractionation of
-//!   CO2 dissolution, hydration and PEP carboxylation: b4 = −9483/T + 23.89 + 2.2 ‰ (T in K; the
-//!   HCO3⁻/CO2 equilibrium of Mook et al. 1974 plus 2.2‰).
+//! - C4 (Farquhar 1983, Aust. J. Plant Physiol.): Δ = ab(ca − cs)/ca + a(cs − ci)/ca +
+//!   (b4 + φ(b3 − s))·ci/ca, with leakiness φ and b4 the temperature-dependent fractionation of
+//!   CO2 dissolution, hydration and PEP carboxylation, b4 = −9483/T + 23.89 + 2.2 ‰ with T in K
+//!   (the HCO3⁻/CO2 equilibrium of Mook et al. 1974 plus 2.2‰).
 //!
 //! The ternary correction (Farquhar & Cernusak 2012) is not applied.
 
