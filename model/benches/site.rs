@@ -24,7 +24,9 @@ fn settings() -> SiteSettings {
     SiteSettings {
         location: Location::new(-15.4, 28.3, 2.0).unwrap(),
         vegetation: vec![veg(Pathway::C3, 0.4, 2.2), veg(Pathway::C4, 0.5, 1.6)],
-        soil: SoilWater::Bucket(Bucket::new(params, InitialWater::FractionOfCapacity(0.9)).unwrap()),
+        soil: SoilWater::Bucket(
+            Bucket::new(params, InitialWater::FractionOfCapacity(0.9)).unwrap(),
+        ),
         priestley_taylor: PriestleyTaylor::default(),
         soil_radiation_extinction: 0.5,
     }
@@ -52,7 +54,11 @@ fn year() -> Vec<SiteDrivers> {
                 d13c_co2_permil: -8.6,
                 o2_mmol_mol: 210.0,
                 pressure_kpa: 89.0,
-                precip_mm: if doy % 5 == 0 && hour == 15.0 { 12.0 * (1.0 + season) } else { 0.0 },
+                precip_mm: if doy % 5 == 0 && hour == 15.0 {
+                    12.0 * (1.0 + season)
+                } else {
+                    0.0
+                },
                 swc_m3_m3: None,
                 lai_m2_m2: None,
                 wind_m_s: None,
