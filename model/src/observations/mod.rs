@@ -17,8 +17,11 @@ pub mod lag;
 pub mod regression;
 pub mod scores;
 pub mod stats;
+mod validate;
 
-pub use keeling::{Bootstrap, KeelingData, KeelingFit, KeelingFlags, KeelingMethod, KeelingSettings};
+pub use keeling::{
+    Bootstrap, KeelingData, KeelingFit, KeelingFlags, KeelingMethod, KeelingSettings,
+};
 pub use lag::{BestLagRule, LagAnalysis, LagCorrelation, LagSettings, lag_analysis};
 pub use regression::{LineFit, YorkFit, YorkSettings};
 pub use scores::{Scores, scores};
