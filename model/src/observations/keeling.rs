@@ -15,12 +15,15 @@
 //! Student's t with n − 2 degrees of freedom, and quality flags (see [`KeelingFlags`]). A bootstrap
 //! standard error (resampling samples with replacement, seeded) is available for every method.
 
+use std::sync::OnceLock;
+
 use rand::rngs::StdRng;
 use rand::{RngExt, SeedableRng};
 
 use crate::error::{ModelError, Result, check_input, check_range};
 use crate::observations::regression::{LineFit, Point, Sums, YorkSettings, york_view};
 use crate::observations::stats::{check_same_length, student_t_quantile};
+use crate::observations::validate;
 
 /// The line-fitting method of a Keeling or Miller–Tans fit.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -197,8 +200,8 @@ impl<'a> KeelingData<'a> {
     /// is not finite, naming the sample index and the value.
     pub fn new(co2_umol_mol: &'a [f64], d13c_permil: &'a [f64]) -> Result<Self> {
         check_same_length("co2_umol_mol", co2_umol_mol, "d13c_permil", d13c_permil)?;
-        check_positive_series("co2_umol_mol", co2_umol_mol)?;
-        check_finite_series("d13c_permil", d13c_permil)?;
+        validate::positive_series("co2_umol_mol", co2_umol_mol)?;
+        validate::finite_series("d13c_permil", d13c_permil)?;
         Ok(Self {
             co2: co2_umol_mol,
             d13c: d13c_permil,
@@ -216,8 +219,8 @@ impl<'a> KeelingData<'a> {
     ) -> Result<Self> {
         check_same_length("co2_umol_mol", self.co2, "co2_sd_umol_mol", co2_sd_umol_mol)?;
         check_same_length("d13c_permil", self.d13c, "d13c_sd_permil", d13c_sd_permil)?;
-        check_positive_series("co2_sd_umol_mol", co2_sd_umol_mol)?;
-        check_positive_series("d13c_sd_permil", d13c_sd_permil)?;
+        validate::positive_series("co2_sd_umol_mol", co2_sd_umol_mol)?;
+        validate::positive_series("d13c_sd_permil", d13c_sd_permil)?;
         self.sd = Some((co2_sd_umol_mol, d13c_sd_permil));
         Ok(self)
     }
@@ -247,8 +250,8 @@ impl<'a> KeelingData<'a> {
     ) -> Result<Self> {
         check_same_length("co2_umol_mol", self.co2, "co2_bg_umol_mol", co2_bg_umol_mol)?;
         check_same_length("co2_umol_mol", self.co2, "d13c_bg_permil", d13c_bg_permil)?;
-        check_positive_series("co2_bg_umol_mol", co2_bg_umol_mol)?;
-        check_finite_series("d13c_bg_permil", d13c_bg_permil)?;
+        validate::positive_series("co2_bg_umol_mol", co2_bg_umol_mol)?;
+        validate::finite_series("d13c_bg_permil", d13c_bg_permil)?;
         self.background = Background::Series {
             co2: co2_bg_umol_mol,
             d13c: d13c_bg_permil,
@@ -297,16 +300,16 @@ impl<'a> KeelingData<'a> {
             flags.insert(KeelingFlags::TOO_FEW_POINTS);
         }
 
-        let (line, converged) = self.fit_view(method, n, |i| i, settings);
+        let (line, converged, sums) = self.fit_view(method, n, |i| i, settings);
         if !converged {
             flags.insert(KeelingFlags::NOT_CONVERGED);
         }
         let (source, source_se) = source_of(method, &line);
-        if n >= 4 && self.has_influential_point(method, source, source_se, settings) {
+        if n >= 4 && self.has_influential_point(method, &line, sums.as_ref(), settings) {
             flags.insert(KeelingFlags::INFLUENTIAL_POINT);
         }
         let half_width = if n >= 3 {
-            student_t_quantile(0.975, (n - 2) as f64) * source_se
+            t975(n - 2) * source_se
         } else {
             f64::NAN
         };
@@ -362,64 +365,71 @@ impl<'a> KeelingData<'a> {
         }
     }
 
-    /// Fits `m` points, point j being sample `index(j)`; returns the line and whether it converged.
+    /// Fits `m` points, point j being sample `index(j)`; returns the line, whether it converged,
+    /// and for the closed forms the sums it came from.
     fn fit_view(
         &self,
         method: KeelingMethod,
         m: usize,
         index: impl Fn(usize) -> usize,
         settings: &KeelingSettings,
-    ) -> (LineFit, bool) {
+    ) -> (LineFit, bool, Option<Sums>) {
         let xy = |j: usize| {
             let p = self.point(method, index(j));
             (p.x, p.y)
         };
         match method {
-            KeelingMethod::Ols | KeelingMethod::MillerTans => (Sums::from_view(m, xy).ols(), true),
-            KeelingMethod::GeometricMean => (Sums::from_view(m, xy).geometric_mean(), true),
+            KeelingMethod::Ols | KeelingMethod::MillerTans => {
+                let sums = Sums::from_view(m, xy);
+                (sums.ols(), true, Some(sums))
+            }
+            KeelingMethod::GeometricMean => {
+                let sums = Sums::from_view(m, xy);
+                (sums.geometric_mean(), true, Some(sums))
+            }
             KeelingMethod::York => {
                 let fit = york_view(m, |j| self.point(method, index(j)), &settings.york);
-                (fit.line, fit.converged || m < 3)
+                (fit.line, fit.converged || m < 3, None)
             }
         }
     }
 
     /// Leave-one-out test: does dropping any one sample move the source δ by more than 2·SE?
-    /// Closed forms downdate the sums (O(n) in all); York refits each subset (O(n²) per iteration).
+    /// Closed forms downdate the full fit's `sums` (O(n) in all); York refits each subset
+    /// (O(n²) per iteration).
     fn has_influential_point(
         &self,
         method: KeelingMethod,
-        source: f64,
-        source_se: f64,
+        line: &LineFit,
+        sums: Option<&Sums>,
         settings: &KeelingSettings,
     ) -> bool {
+        let (source, source_se) = source_of(method, line);
         if !source.is_finite() || !source_se.is_finite() {
             return false;
         }
         let n = self.len();
         let limit = (2.0 * source_se).max(INFLUENCE_FLOOR_PERMIL);
-        let shifted = |line: LineFit| (source_of(method, &line).0 - source).abs() > limit;
-        match method {
-            KeelingMethod::York => (0..n).any(|skip| {
+        let shifted = |loo_source: f64| (loo_source - source).abs() > limit;
+        match (method, sums) {
+            (KeelingMethod::York, _) | (_, None) => (0..n).any(|skip| {
                 let index = |j: usize| if j < skip { j } else { j + 1 };
-                shifted(self.fit_view(method, n - 1, index, settings).0)
+                let (loo, _, _) = self.fit_view(method, n - 1, index, settings);
+                shifted(source_of(method, &loo).0)
             }),
-            _ => {
-                let sums = Sums::from_view(n, |i| {
-                    let p = self.point(method, i);
-                    (p.x, p.y)
-                });
-                (0..n).any(|i| {
-                    let p = self.point(method, i);
-                    let loo = sums.without(p.x, p.y);
-                    let line = if method == KeelingMethod::GeometricMean {
-                        loo.geometric_mean()
-                    } else {
-                        loo.ols()
-                    };
-                    shifted(line)
+            (_, Some(sums)) => (0..n).any(|i| {
+                let p = self.point(method, i);
+                let loo = sums.without(p.x, p.y);
+                let (intercept, slope) = match method {
+                    KeelingMethod::GeometricMean => loo.geometric_mean_line(),
+                    _ => loo.ols_line(),
+                };
+                shifted(if method == KeelingMethod::MillerTans {
+                    slope
+                } else {
+                    intercept
                 })
-            }
+            }),
         }
     }
 
@@ -439,7 +449,7 @@ impl<'a> KeelingData<'a> {
             for p in picks.iter_mut() {
                 *p = rng.random_range(0..n);
             }
-            let (line, _) = self.fit_view(method, n, |j| picks[j], settings);
+            let (line, _, _) = self.fit_view(method, n, |j| picks[j], settings);
             let s = source_of(method, &line).0;
             if s.is_finite() {
                 // Welford's running variance.
@@ -457,6 +467,22 @@ impl<'a> KeelingData<'a> {
     }
 }
 
+/// The 0.975 quantile of Student's t with `df` degrees of freedom. Values up to 512 df are
+/// tabulated on first use: the inverse beta function behind the quantile costs more than a whole
+/// 100-sample fit, and thousands of groups share a handful of sizes.
+fn t975(df: usize) -> f64 {
+    static TABLE: OnceLock<Vec<f64>> = OnceLock::new();
+    let table = TABLE.get_or_init(|| {
+        (1..=512)
+            .map(|d| student_t_quantile(0.975, d as f64))
+            .collect()
+    });
+    match df.checked_sub(1).and_then(|i| table.get(i)) {
+        Some(&t) => t,
+        None => student_t_quantile(0.975, df as f64),
+    }
+}
+
 /// Smallest leave-one-out shift of the source δ (‰) that can flag a dominating sample.
 const INFLUENCE_FLOOR_PERMIL: f64 = 1e-3;
 
@@ -467,26 +493,6 @@ fn source_of(method: KeelingMethod, line: &LineFit) -> (f64, f64) {
         KeelingMethod::MillerTans => (line.slope, line.slope_se),
         _ => (line.intercept, line.intercept_se),
     }
-}
-
-fn check_positive_series(name: &str, values: &[f64]) -> Result<()> {
-    for (i, &v) in values.iter().enumerate() {
-        if !(v.is_finite() && v > 0.0) {
-            return Err(ModelError::InvalidInput {
-                name: format!("{name}[{i}]"),
-                value: v,
-                reason: format!("sample {i} must be a finite value > 0"),
-            });
-        }
-    }
-    Ok(())
-}
-
-fn check_finite_series(name: &str, values: &[f64]) -> Result<()> {
-    for (i, &v) in values.iter().enumerate() {
-        check_input(&format!("{name}[{i}]"), v, f64::MIN, f64::MAX)?;
-    }
-    Ok(())
 }
 
 /// The result of one Keeling or Miller–Tans fit. Estimates are NaN when the fit is undefined

@@ -5,8 +5,8 @@
 //!   intervals, an optional bootstrap and quality flags;
 //! - [`regression`]: the straight-line estimators behind them (OLS, geometric mean, York et al.
 //!   2004), usable on any x and y;
-//! - [`scores`]: bias, MAE, RMSE, r, r² and Nash–Sutcliffe efficiency;
-//! - [`lag`]: the lag at which a driver best correlates with an observed series;
+//! - [`scores`](mod@scores): bias, MAE, RMSE, r, r² and Nash–Sutcliffe efficiency;
+//! - [`lag`](mod@lag): the lag at which a driver best correlates with an observed series;
 //! - [`stats`]: Pearson and Spearman correlations with p-values, shared with the ensembles.
 //!
 //! Pure functions on slices: no allocation per sample in the Keeling fits, so millions of samples
@@ -17,6 +17,7 @@ pub mod lag;
 pub mod regression;
 pub mod scores;
 pub mod stats;
+mod validate;
 
 pub use keeling::{
     Bootstrap, KeelingData, KeelingFit, KeelingFlags, KeelingMethod, KeelingSettings,

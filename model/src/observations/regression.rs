@@ -13,8 +13,9 @@
 //!
 //! Here Sxx = Σ(xᵢ − x̄)², and r is Pearson's correlation. Fewer than 3 points give NaN fields.
 
-use crate::error::{Result, check_input, check_range};
+use crate::error::{Result, check_range};
 use crate::observations::stats::check_same_length;
+use crate::observations::validate;
 
 /// A fitted line y = intercept + slope·x with standard errors. The intercept is in the units of y,
 /// the slope in units of y per unit of x; `r2` is the square of Pearson's r of the data
@@ -125,10 +126,8 @@ pub fn york(
     check_xy(x, y)?;
     check_same_length("x", x, "sigma_x", sigma_x)?;
     check_same_length("y", y, "sigma_y", sigma_y)?;
-    for (i, (&sx, &sy)) in sigma_x.iter().zip(sigma_y).enumerate() {
-        check_input(&format!("sigma_x[{i}]"), sx, f64::MIN_POSITIVE, f64::MAX)?;
-        check_input(&format!("sigma_y[{i}]"), sy, f64::MIN_POSITIVE, f64::MAX)?;
-    }
+    validate::positive_series("sigma_x", sigma_x)?;
+    validate::positive_series("sigma_y", sigma_y)?;
     Ok(york_view(
         x.len(),
         |i| Point {
@@ -143,11 +142,8 @@ pub fn york(
 
 fn check_xy(x: &[f64], y: &[f64]) -> Result<()> {
     check_same_length("x", x, "y", y)?;
-    for (i, (&a, &b)) in x.iter().zip(y).enumerate() {
-        check_input(&format!("x[{i}]"), a, f64::MIN, f64::MAX)?;
-        check_input(&format!("y[{i}]"), b, f64::MIN, f64::MAX)?;
-    }
-    Ok(())
+    validate::finite_series("x", x)?;
+    validate::finite_series("y", y)
 }
 
 /// One point with its standard deviations, as seen by the fitting kernels.
@@ -221,19 +217,31 @@ impl Sums {
         self.sxy * self.sxy / (self.sxx * self.syy)
     }
 
+    /// OLS (intercept, slope) alone, for the leave-one-out test.
+    pub fn ols_line(&self) -> (f64, f64) {
+        let slope = self.sxy / self.sxx;
+        (self.mean_y - slope * self.mean_x, slope)
+    }
+
+    /// Geometric-mean (intercept, slope) alone, for the leave-one-out test.
+    pub fn geometric_mean_line(&self) -> (f64, f64) {
+        let slope = self.sxy.signum() * (self.syy / self.sxx).sqrt();
+        (self.mean_y - slope * self.mean_x, slope)
+    }
+
     /// Ordinary least squares of y on x.
     pub fn ols(&self) -> LineFit {
         if self.n < 3 {
             return LineFit::undefined(self.n);
         }
         let nf = self.n as f64;
-        let slope = self.sxy / self.sxx;
+        let (intercept, slope) = self.ols_line();
         // SSE = Syy − Sxy²/Sxx; round-off can make it a hair negative for exact lines.
         let sse = (self.syy - slope * self.sxy).max(0.0);
         let slope_se = (sse / (nf - 2.0) / self.sxx).sqrt();
         LineFit {
             n: self.n,
-            intercept: self.mean_y - slope * self.mean_x,
+            intercept,
             intercept_se: slope_se * (self.mean_x * self.mean_x + self.sxx / nf).sqrt(),
             slope,
             slope_se,
@@ -247,12 +255,12 @@ impl Sums {
             return LineFit::undefined(self.n);
         }
         let nf = self.n as f64;
-        let slope = self.sxy.signum() * (self.syy / self.sxx).sqrt();
+        let (intercept, slope) = self.geometric_mean_line();
         let r2 = self.r2();
         let slope_se = slope.abs() * ((1.0 - r2).max(0.0) / nf).sqrt();
         LineFit {
             n: self.n,
-            intercept: self.mean_y - slope * self.mean_x,
+            intercept,
             intercept_se: slope_se * (self.mean_x * self.mean_x + self.sxx / nf).sqrt(),
             slope,
             slope_se,
