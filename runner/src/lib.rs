@@ -8,6 +8,7 @@ pub mod commands;
 pub mod error;
 pub mod forcing;
 pub mod output;
+pub mod simulate;
 pub mod site;
 
 use std::process::ExitCode;

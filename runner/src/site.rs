@@ -12,6 +12,7 @@ use isodisc_model::canopy::radiation::TwoLeafCanopy;
 use isodisc_model::canopy::solar::Location;
 use isodisc_model::error::closest_name;
 use isodisc_model::leaf::{BetaTarget, C3Form, ElectronLimit, LeafModel, LeafOptions, Pathway};
+use isodisc_model::pools::{AtmosphereHistory, PoolsConfig};
 use isodisc_model::site::{SiteSettings, SoilWater, Vegetation};
 use isodisc_model::water::bucket::{Bucket, BucketParams, InitialWater};
 use isodisc_model::water::evaporation::PriestleyTaylor;
@@ -128,6 +129,11 @@ pub struct AtmosphereBlock {
     /// O2 (mmol mol⁻¹). Default 210.
     #[serde(default)]
     pub o2: Option<f64>,
+    /// Atmospheric history (`year,co2,d13c`), relative to the site file, through which the pools
+    /// are spun up so that old carbon carries the older atmosphere. Default: none (the pools start
+    /// at the steady state of the first year).
+    #[serde(default)]
+    pub history: Option<PathBuf>,
 }
 
 /// `[output]`.
@@ -162,6 +168,9 @@ pub struct SiteFile {
     /// `[output]`.
     #[serde(default)]
     pub output: OutputBlock,
+    /// `[pools]`: the carbon and 13C pools (default: the four-pool network).
+    #[serde(default)]
+    pub pools: PoolsConfig,
 }
 
 /// A site file read and validated: the model's settings and what the runner needs.
@@ -185,6 +194,10 @@ pub struct Site {
     pub lai_from_forcing: bool,
     /// Outputs to write: daily, monthly, annual.
     pub aggregates: [bool; 3],
+    /// The pools' configuration (validated: it builds).
+    pub pools: PoolsConfig,
+    /// The atmospheric history, if given.
+    pub history: Option<AtmosphereHistory>,
 }
 
 /// An error located in the site file.
@@ -489,11 +502,30 @@ impl Site {
             out.monthly.unwrap_or(true),
             out.annual.unwrap_or(true),
         ];
+        file.pools.build().map_err(|e| {
+            err(
+                text.find("[pools").map(|o| line_of(&text, o)),
+                format!("[pools] {e}"),
+            )
+        })?;
+        let dir = path.parent().map(Path::to_path_buf).unwrap_or_default();
+        let history = match &atm.history {
+            Some(h) => Some(crate::simulate::read_history(&dir.join(h)).map_err(|e| {
+                err(
+                    line_of_key(&text, "atmosphere", "history"),
+                    format!("[atmosphere] history: {}", e.chain()),
+                )
+            })?),
+            None => None,
+        };
+        let pools = file.pools.clone();
         Ok(Self {
             path: path.to_path_buf(),
             text,
             file,
             settings,
+            pools,
+            history,
             co2,
             d13c_co2,
             o2,

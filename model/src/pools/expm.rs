@@ -74,7 +74,11 @@ impl Expm {
         self.tmp.fill(0.0);
         for (j, &bj) in b.iter().enumerate() {
             let pw = &self.powers[j / 2];
-            let target = if j % 2 == 0 { &mut self.v } else { &mut self.tmp };
+            let target = if j % 2 == 0 {
+                &mut self.v
+            } else {
+                &mut self.tmp
+            };
             for (t, p) in target.iter_mut().zip(pw) {
                 *t += bj * p;
             }

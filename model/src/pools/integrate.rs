@@ -468,7 +468,12 @@ fn apply(e: &[f64], pools: &mut [f64], input: f64) -> [f64; 3] {
     };
     for (i, o) in out.iter_mut().enumerate() {
         let row = &e[i * m..i * m + n + 1];
-        *o = row[..n].iter().zip(pools.iter()).map(|(a, b)| a * b).sum::<f64>() + row[n] * input;
+        *o = row[..n]
+            .iter()
+            .zip(pools.iter())
+            .map(|(a, b)| a * b)
+            .sum::<f64>()
+            + row[n] * input;
     }
     pools.copy_from_slice(&out[..n]);
     [out[n + 1], out[n + 2], out[n + 3]]
@@ -515,8 +520,8 @@ mod tests {
             t_soil_c: 15.0,
             moisture: 0.8,
         };
-        let start = PoolState::from_totals(&[5.0, 20.0, 600.0, 9000.0], &[-26.0; 4], 0.0111802)
-            .unwrap();
+        let start =
+            PoolState::from_totals(&[5.0, 20.0, 600.0, 9000.0], &[-26.0; 4], 0.0111802).unwrap();
         let h = 1.0;
         let mut exact = start.clone();
         model.step(&mut exact, &forcing, h).unwrap();

@@ -8,17 +8,14 @@ use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::time::Instant;
 
-use isodisc_model::leaf::Pathway;
-use isodisc_model::site::{SiteDrivers, SiteModel, SiteStep};
-
 use crate::cli::RunArgs;
 use crate::error::{Context, Error, Result};
-use crate::forcing::{ForcingReader, ForcingReport, ForcingStep, LocalTime};
+use crate::forcing::{ForcingReader, ForcingReport, LocalDate, LocalTime};
 use crate::output::{AtomicFile, fmt_num, json_num};
+use crate::simulate::{
+    PERIOD_COLUMNS, PeriodRow, Simulated, StepSink, StepView, period_col, simulate,
+};
 use crate::site::Site;
-
-/// Grams of carbon per µmol of CO2.
-pub const GC_PER_UMOL: f64 = 12.011e-6;
 
 /// Columns of `steps.csv`: name, unit, meaning.
 pub const STEP_COLUMNS: &[(&str, &str, &str)] = &[
@@ -80,6 +77,35 @@ pub const STEP_COLUMNS: &[(&str, &str, &str)] = &[
         "permil VPDB",
         "d13C of the newly fixed carbon",
     ),
+    ("reco", "umol m-2 s-1", "ecosystem respiration"),
+    ("ra", "umol m-2 s-1", "autotrophic respiration"),
+    ("rh", "umol m-2 s-1", "heterotrophic respiration"),
+    (
+        "nee",
+        "umol m-2 s-1",
+        "net ecosystem exchange, reco - gpp (positive: a source)",
+    ),
+    (
+        "d13c_respiration",
+        "permil VPDB",
+        "d13C of ecosystem respiration",
+    ),
+    ("d13c_ra", "permil VPDB", "d13C of autotrophic respiration"),
+    (
+        "d13c_rh",
+        "permil VPDB",
+        "d13C of heterotrophic respiration",
+    ),
+    (
+        "disequilibrium",
+        "permil",
+        "d13c_respiration - d13c_assimilate (daytime steps)",
+    ),
+    (
+        "isoflux_disequilibrium",
+        "permil gC m-2",
+        "reco over the step x disequilibrium",
+    ),
     ("transpiration", "mm", "transpiration over the step"),
     ("soil_evaporation", "mm", "soil evaporation over the step"),
     (
@@ -98,52 +124,6 @@ pub const STEP_COLUMNS: &[(&str, &str, &str)] = &[
         "1 when a driver was missing: outputs left empty",
     ),
 ];
-
-/// Columns of `daily.csv`, `monthly.csv` and `annual.csv`: name, unit, meaning.
-pub const PERIOD_COLUMNS: &[(&str, &str, &str)] = &[
-    ("period", "YYYY-MM-DD, YYYY-MM or YYYY", "the period"),
-    ("steps", "count", "steps in the period"),
-    ("filled_steps", "count", "steps with a gap-filled driver"),
-    (
-        "missing_steps",
-        "count",
-        "steps left empty (long gaps); not in the sums",
-    ),
-    ("gpp", "gC m-2", "GPP summed over the period"),
-    ("gpp_c3", "gC m-2", "C3 GPP summed over the period"),
-    ("gpp_c4", "gC m-2", "C4 GPP summed over the period"),
-    ("c4_share", "-", "gpp_c4 / gpp"),
-    (
-        "discrimination",
-        "permil",
-        "GPP-weighted ecosystem discrimination",
-    ),
-    (
-        "discrimination_c3",
-        "permil",
-        "GPP-weighted discrimination of the C3 part",
-    ),
-    (
-        "discrimination_c4",
-        "permil",
-        "GPP-weighted discrimination of the C4 part",
-    ),
-    (
-        "d13c_assimilate",
-        "permil VPDB",
-        "GPP-weighted d13C of the assimilate",
-    ),
-    ("ci_ca_c3", "-", "GPP-weighted ci/ca of the C3 part"),
-    ("ci_ca_c4", "-", "GPP-weighted ci/ca of the C4 part"),
-    ("t_air", "degC", "mean air temperature"),
-    ("vpd", "kPa", "mean VPD"),
-    ("ppfd", "umol m-2 s-1", "mean PPFD"),
-    ("precip", "mm", "precipitation summed"),
-    ("transpiration", "mm", "transpiration summed"),
-    ("soil_evaporation", "mm", "soil evaporation summed"),
-    ("beta", "-", "mean soil-water factor"),
-];
-
 /// A validated `isodisc run`.
 #[derive(Debug)]
 pub struct RunPlan {
@@ -245,7 +225,6 @@ impl RunPlan {
 
     fn run_into(&self, dir: &Path, started: Instant) -> Result<String> {
         let site = &self.site;
-        let mut model = SiteModel::new(site.settings.clone())?;
         let mut reader = ForcingReader::open(
             &site.file.forcing,
             &site.dir(),
@@ -255,100 +234,27 @@ impl RunPlan {
         )
         .with_context(|| format!("site {}", site.path.display()))?;
         let step_minutes = reader.report().step_minutes;
-        let step_s = f64::from(step_minutes) * 60.0;
-        let mut steps = AtomicFile::create(&dir.join("steps.csv"))?;
-        let header: Vec<&str> = STEP_COLUMNS.iter().map(|c| c.0).collect();
-        writeln!(steps.writer(), "{}", header.join(","))?;
-        let mut periods = [
-            Aggregator::new(PeriodKind::Daily),
-            Aggregator::new(PeriodKind::Monthly),
-            Aggregator::new(PeriodKind::Annual),
-        ];
-        let mut line = String::with_capacity(512);
-        let has = |p: Pathway| {
-            site.settings
-                .vegetation
-                .iter()
-                .position(|v| v.pathway() == p)
-        };
-        let (i3, i4) = (has(Pathway::C3), has(Pathway::C4));
-        for item in &mut reader {
-            let f = item.with_context(|| format!("site {}", site.path.display()))?;
-            let drivers = self.drivers(&f, step_minutes)?;
-            let result = match (&drivers, f.missing) {
-                (Some(d), false) => Some(
-                    model
-                        .step(d)
-                        .with_context(|| format!("{}: step {}", site.path.display(), f.time))?,
-                ),
-                _ => None,
-            };
-            line.clear();
-            write_step(&mut line, &f, drivers.as_ref(), result.as_ref(), i3, i4);
-            steps.writer().write_all(line.as_bytes())?;
-            for p in &mut periods {
-                p.add(&f, drivers.as_ref(), result.as_ref(), i3, i4, step_s, dir)?;
-            }
-        }
-        steps.commit()?;
-        let mut annual_rows = Vec::new();
-        for (p, on) in periods.iter_mut().zip(site.aggregates) {
-            p.flush();
+        let mut sink = FileSink::create(dir, step_minutes, site)?;
+        let sim = simulate(site, &mut reader, step_minutes, &mut sink)?;
+        sink.commit()?;
+        let files = ["daily.csv", "monthly.csv", "annual.csv"];
+        for ((rows, file), on) in sim.periods.iter().zip(files).zip(site.aggregates) {
             if on {
-                p.write(dir)?;
+                write_periods(&dir.join(file), rows)?;
             }
         }
-        annual_rows.extend(periods[2].rows.iter().cloned());
         let report = reader.report();
-        let summary = summary(site, &annual_rows, &report, dir, &self.out);
-        self.write_log(dir, &report, started)?;
-        Ok(summary)
+        self.write_log(dir, &report, &sim, started)?;
+        Ok(summary(site, &sim, &report, &self.out))
     }
 
-    fn drivers(&self, f: &ForcingStep, step_minutes: u32) -> Result<Option<SiteDrivers>> {
-        if f.missing {
-            return Ok(None);
-        }
-        let site = &self.site;
-        let pick = |constant: Option<f64>, col: Option<f64>| -> Option<f64> {
-            constant.or(col).filter(|v| v.is_finite())
-        };
-        let (Some(co2), Some(d13c)) = (
-            pick(site.co2, f.co2_umol_mol),
-            pick(site.d13c_co2, f.d13c_co2_permil),
-        ) else {
-            return Ok(None);
-        };
-        let lai = if site.lai_from_forcing {
-            match f.lai {
-                Some(l) if l.is_finite() => Some(l),
-                _ => return Ok(None),
-            }
-        } else {
-            None
-        };
-        let hour_start = f.time.hour_fraction();
-        Ok(Some(SiteDrivers {
-            year: f.time.year(),
-            day_of_year: f.time.day_of_year(),
-            hour_start,
-            hour_end: (hour_start + f64::from(step_minutes) / 60.0).min(24.0),
-            t_air_c: f.t_air_c,
-            vpd_kpa: f.vpd_kpa,
-            sw_w_m2: f.sw_w_m2,
-            ppfd_umol_m2_s: f.ppfd_umol_m2_s,
-            co2_umol_mol: co2,
-            d13c_co2_permil: d13c,
-            o2_mmol_mol: site.o2,
-            pressure_kpa: f.pressure_kpa,
-            precip_mm: f.precip_mm,
-            swc_m3_m3: f.swc_m3_m3,
-            lai_m2_m2: lai,
-            wind_m_s: f.wind_m_s,
-        }))
-    }
-
-    fn write_log(&self, dir: &Path, report: &ForcingReport, started: Instant) -> Result<()> {
+    fn write_log(
+        &self,
+        dir: &Path,
+        report: &ForcingReport,
+        sim: &Simulated,
+        started: Instant,
+    ) -> Result<()> {
         let site = &self.site;
         let forcing_path = &report.path;
         let forcing_bytes = fs::read(forcing_path)
@@ -446,7 +352,27 @@ impl RunPlan {
                 "missing_steps": report.missing_steps,
                 "night_radiation_zeroed": report.night_radiation_zeroed,
             },
-            "units": {"steps.csv": units(STEP_COLUMNS), "periods": units(PERIOD_COLUMNS)},
+            "units": {
+                "steps.csv": units(STEP_COLUMNS),
+                "periods": units(PERIOD_COLUMNS),
+                "pools_daily.csv": {"c_<pool>": "gC m-2", "d13c_<pool>": "permil VPDB"},
+            },
+            "pools": {
+                "network": sim.pools.pool_names,
+                "spin_up": {
+                    "with_atmospheric_history": sim.pools.with_history,
+                    "history_file": site.file.atmosphere.history.as_ref().map(|h| h.display().to_string()),
+                    "mean_assimilation_gc_m2_day": sim.pools.spin_up.assimilation_gc_m2_day,
+                    "mean_soil_temperature_c": sim.pools.spin_up.t_soil_c,
+                    "mean_moisture": sim.pools.spin_up.moisture,
+                    "mean_discrimination_permil": sim.pools.spin_up_discrimination_permil,
+                },
+                "mean_age_respired_days": sim.pools.mean_age_respired_days,
+                "mean_age_ra_days": sim.pools.mean_age_ra_days,
+                "mean_age_rh_days": sim.pools.mean_age_rh_days,
+                "effective_lag_days": sim.pools.effective_lag_days,
+                "effective_lag_r": json_num(sim.pools.effective_lag_r),
+            },
             "wall_time_s": started.elapsed().as_secs_f64(),
         });
         let mut f = AtomicFile::create(&dir.join("run.json"))?;
@@ -478,7 +404,6 @@ fn sibling(dir: &Path, tag: &str) -> PathBuf {
 /// removed only after the new one is in place.
 fn replace_dir(tmp: &Path, out: &Path, overwrite: bool) -> Result<()> {
     if out.exists() {
-        let old = sibling(out, "old");
         if !overwrite && fs::read_dir(out)?.next().is_some() {
             return Err(Error::msg(format!(
                 "{} appeared during the run; results left in {}",
@@ -486,6 +411,7 @@ fn replace_dir(tmp: &Path, out: &Path, overwrite: bool) -> Result<()> {
                 tmp.display()
             )));
         }
+        let old = sibling(out, "old");
         fs::rename(out, &old).with_context(|| format!("cannot move {} aside", out.display()))?;
         fs::rename(tmp, out)
             .with_context(|| format!("cannot move the results into {}", out.display()))?;
@@ -500,273 +426,144 @@ fn replace_dir(tmp: &Path, out: &Path, overwrite: bool) -> Result<()> {
     Ok(())
 }
 
-fn write_step(
-    line: &mut String,
-    f: &ForcingStep,
-    d: Option<&SiteDrivers>,
-    s: Option<&SiteStep>,
-    i3: Option<usize>,
-    i4: Option<usize>,
-) {
-    let nan = f64::NAN;
-    let _ = write!(line, "{}", f.time);
-    let co2 = d.map_or(f.co2_umol_mol.unwrap_or(nan), |d| d.co2_umol_mol);
-    let d13c = d.map_or(f.d13c_co2_permil.unwrap_or(nan), |d| d.d13c_co2_permil);
-    let lai = |i: Option<usize>| match (i, s) {
-        (Some(i), Some(s)) => s.pathways[i].lai_m2_m2,
-        _ => nan,
-    };
-    let part = |i: Option<usize>, g: fn(&isodisc_model::site::PathwayStep) -> f64| match (i, s) {
-        (Some(i), Some(s)) => g(&s.pathways[i]),
-        _ => nan,
-    };
-    let sv = |g: fn(&SiteStep) -> f64| s.map_or(nan, g);
-    let values = [
-        f.t_air_c,
-        f.vpd_kpa,
-        f.sw_w_m2,
-        f.ppfd_umol_m2_s,
-        co2,
-        d13c,
-        f.pressure_kpa,
-        f.precip_mm,
-        lai(i3),
-        lai(i4),
-        sv(|s| s.beta),
-        sv(|s| s.gpp_umol_m2_s),
-        part(i3, |p| p.gpp_umol_m2_s),
-        part(i4, |p| p.gpp_umol_m2_s),
-        sv(|s| s.c4_share),
-        part(i3, |p| p.canopy.ci_ca),
-        part(i4, |p| p.canopy.ci_ca),
-        part(i3, |p| p.canopy.discrimination_permil),
-        part(i4, |p| p.canopy.discrimination_permil),
-        sv(|s| s.discrimination_permil),
-        sv(|s| s.d13c_assimilate_permil),
-        sv(|s| s.transpiration_mm),
-        sv(|s| s.soil_evaporation_mm),
-        sv(|s| s.soil_water_mm),
-    ];
-    for v in values {
-        line.push(',');
-        fmt_num(line, v);
-    }
-    let _ = write!(line, ",{},{}", u8::from(f.filled), u8::from(s.is_none()));
-    line.push('\n');
+/// Writes `steps.csv` and `pools_daily.csv` as the simulation goes.
+struct FileSink {
+    steps: AtomicFile,
+    pools: AtomicFile,
+    pools_header_written: bool,
+    pool_names: Vec<String>,
+    step_s: f64,
+    line: String,
 }
 
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-enum PeriodKind {
-    Daily,
-    Monthly,
-    Annual,
-}
-
-impl PeriodKind {
-    fn key(self, t: LocalTime) -> String {
-        match self {
-            PeriodKind::Daily => t.date().to_string(),
-            PeriodKind::Monthly => format!("{:04}-{:02}", t.year(), t.month()),
-            PeriodKind::Annual => format!("{:04}", t.year()),
-        }
+impl FileSink {
+    fn create(dir: &Path, step_minutes: u32, site: &Site) -> Result<Self> {
+        let mut steps = AtomicFile::create(&dir.join("steps.csv"))?;
+        let header: Vec<&str> = STEP_COLUMNS.iter().map(|c| c.0).collect();
+        writeln!(steps.writer(), "{}", header.join(","))?;
+        let (network, _) = site.pools.build()?;
+        Ok(Self {
+            steps,
+            pools: AtomicFile::create(&dir.join("pools_daily.csv"))?,
+            pools_header_written: false,
+            pool_names: network.pools().iter().map(|p| p.name.clone()).collect(),
+            step_s: f64::from(step_minutes) * 60.0,
+            line: String::with_capacity(512),
+        })
     }
 
-    fn file(self) -> &'static str {
-        match self {
-            PeriodKind::Daily => "daily.csv",
-            PeriodKind::Monthly => "monthly.csv",
-            PeriodKind::Annual => "annual.csv",
-        }
+    fn commit(self) -> Result<()> {
+        self.steps.commit()?;
+        self.pools.commit()
     }
 }
 
-/// Running sums of one period.
-#[derive(Debug, Clone, Default)]
-struct Sums {
-    steps: usize,
-    filled: usize,
-    missing: usize,
-    gpp: f64,
-    gpp_c3: f64,
-    gpp_c4: f64,
-    w_disc: f64,
-    w_disc_c3: f64,
-    w_disc_c4: f64,
-    w_d13c: f64,
-    w_cica_c3: f64,
-    w_cica_c4: f64,
-    t_air: f64,
-    vpd: f64,
-    ppfd: f64,
-    n_drivers: usize,
-    precip: f64,
-    transpiration: f64,
-    soil_evaporation: f64,
-    beta: f64,
-    n_model: usize,
-}
-
-impl Sums {
-    fn row(&self) -> Vec<f64> {
-        let ratio = |a: f64, b: f64| if b > 0.0 { a / b } else { f64::NAN };
-        let mean = |a: f64, n: usize| if n > 0 { a / n as f64 } else { f64::NAN };
-        vec![
-            self.steps as f64,
-            self.filled as f64,
-            self.missing as f64,
-            self.gpp,
-            self.gpp_c3,
-            self.gpp_c4,
-            ratio(self.gpp_c4, self.gpp),
-            ratio(self.w_disc, self.gpp),
-            ratio(self.w_disc_c3, self.gpp_c3),
-            ratio(self.w_disc_c4, self.gpp_c4),
-            ratio(self.w_d13c, self.gpp),
-            ratio(self.w_cica_c3, self.gpp_c3),
-            ratio(self.w_cica_c4, self.gpp_c4),
-            mean(self.t_air, self.n_drivers),
-            mean(self.vpd, self.n_drivers),
-            mean(self.ppfd, self.n_drivers),
-            self.precip,
-            self.transpiration,
-            self.soil_evaporation,
-            mean(self.beta, self.n_model),
-        ]
-    }
-}
-
-/// A finished period: its key and values in the order of `PERIOD_COLUMNS` after `period`.
-#[derive(Debug, Clone)]
-pub struct PeriodRow {
-    /// The period key.
-    pub key: String,
-    /// Values.
-    pub values: Vec<f64>,
-}
-
-struct Aggregator {
-    kind: PeriodKind,
-    current: Option<(String, Sums)>,
-    rows: Vec<PeriodRow>,
-}
-
-impl Aggregator {
-    fn new(kind: PeriodKind) -> Self {
-        Self {
-            kind,
-            current: None,
-            rows: Vec::new(),
-        }
-    }
-
-    #[allow(clippy::too_many_arguments)]
-    fn add(
-        &mut self,
-        f: &ForcingStep,
-        d: Option<&SiteDrivers>,
-        s: Option<&SiteStep>,
-        i3: Option<usize>,
-        i4: Option<usize>,
-        step_s: f64,
-        _dir: &Path,
-    ) -> Result<()> {
-        let key = self.kind.key(f.time);
-        if self.current.as_ref().is_none_or(|(k, _)| *k != key) {
-            self.flush();
-            self.current = Some((key, Sums::default()));
-        }
-        let (_, sums) = self.current.as_mut().expect("set above");
-        sums.steps += 1;
-        sums.filled += usize::from(f.filled);
-        let (Some(_), Some(s)) = (d, s) else {
-            sums.missing += 1;
-            return Ok(());
+impl StepSink for FileSink {
+    fn step(&mut self, v: &StepView<'_>) -> Result<()> {
+        let nan = f64::NAN;
+        let (f, d, s, r) = (v.forcing, v.drivers, v.site, v.respiration);
+        let line = &mut self.line;
+        line.clear();
+        let _ = write!(line, "{}", f.time);
+        let co2 = d.map_or(f.co2_umol_mol.unwrap_or(nan), |d| d.co2_umol_mol);
+        let d13c = d.map_or(f.d13c_co2_permil.unwrap_or(nan), |d| d.d13c_co2_permil);
+        let part = |i: Option<usize>, g: fn(&isodisc_model::site::PathwayStep) -> f64| match (i, s)
+        {
+            (Some(i), Some(s)) => g(&s.pathways[i]),
+            _ => nan,
         };
-        let to_gc = step_s * GC_PER_UMOL;
-        let g = s.gpp_umol_m2_s * to_gc;
-        sums.gpp += g;
-        if g > 0.0 {
-            sums.w_disc += g * s.discrimination_permil;
-            sums.w_d13c += g * s.d13c_assimilate_permil;
+        let sv = |g: fn(&isodisc_model::site::SiteStep) -> f64| s.map_or(nan, g);
+        let rv = |g: fn(&crate::simulate::RespirationStep) -> f64| r.map_or(nan, g);
+        let diseq = rv(|r| r.d13c_reco) - sv(|s| s.d13c_assimilate_permil);
+        let reco_gc = rv(|r| r.reco_umol_m2_s) * self.step_s * crate::simulate::GC_PER_UMOL;
+        let values = [
+            f.t_air_c,
+            f.vpd_kpa,
+            f.sw_w_m2,
+            f.ppfd_umol_m2_s,
+            co2,
+            d13c,
+            f.pressure_kpa,
+            f.precip_mm,
+            part(v.c3, |p| p.lai_m2_m2),
+            part(v.c4, |p| p.lai_m2_m2),
+            sv(|s| s.beta),
+            sv(|s| s.gpp_umol_m2_s),
+            part(v.c3, |p| p.gpp_umol_m2_s),
+            part(v.c4, |p| p.gpp_umol_m2_s),
+            sv(|s| s.c4_share),
+            part(v.c3, |p| p.canopy.ci_ca),
+            part(v.c4, |p| p.canopy.ci_ca),
+            part(v.c3, |p| p.canopy.discrimination_permil),
+            part(v.c4, |p| p.canopy.discrimination_permil),
+            sv(|s| s.discrimination_permil),
+            sv(|s| s.d13c_assimilate_permil),
+            rv(|r| r.reco_umol_m2_s),
+            rv(|r| r.ra_umol_m2_s),
+            rv(|r| r.rh_umol_m2_s),
+            rv(|r| r.reco_umol_m2_s) - sv(|s| s.gpp_umol_m2_s),
+            rv(|r| r.d13c_reco),
+            rv(|r| r.d13c_ra),
+            rv(|r| r.d13c_rh),
+            diseq,
+            reco_gc * diseq,
+            sv(|s| s.transpiration_mm),
+            sv(|s| s.soil_evaporation_mm),
+            sv(|s| s.soil_water_mm),
+        ];
+        for x in values {
+            line.push(',');
+            fmt_num(line, x);
         }
-        for (idx, gpp_part, w_disc, w_cica) in [
-            (
-                i3,
-                &mut sums.gpp_c3,
-                &mut sums.w_disc_c3,
-                &mut sums.w_cica_c3,
-            ),
-            (
-                i4,
-                &mut sums.gpp_c4,
-                &mut sums.w_disc_c4,
-                &mut sums.w_cica_c4,
-            ),
-        ] {
-            if let Some(i) = idx {
-                let p = &s.pathways[i];
-                let gp = p.gpp_umol_m2_s * to_gc;
-                *gpp_part += gp;
-                if gp > 0.0 {
-                    *w_disc += gp * p.canopy.discrimination_permil;
-                    *w_cica += gp * p.canopy.ci_ca;
-                }
-            }
-        }
-        sums.t_air += f.t_air_c;
-        sums.vpd += f.vpd_kpa;
-        sums.ppfd += f.ppfd_umol_m2_s;
-        sums.n_drivers += 1;
-        sums.precip += f.precip_mm;
-        sums.transpiration += s.transpiration_mm;
-        sums.soil_evaporation += s.soil_evaporation_mm;
-        sums.beta += s.beta;
-        sums.n_model += 1;
+        let _ = writeln!(line, ",{},{}", u8::from(f.filled), u8::from(s.is_none()));
+        self.steps.writer().write_all(line.as_bytes())?;
         Ok(())
     }
 
-    fn flush(&mut self) {
-        if let Some((key, sums)) = self.current.take() {
-            self.rows.push(PeriodRow {
-                key,
-                values: sums.row(),
-            });
-        }
-    }
-
-    fn write(&self, dir: &Path) -> Result<()> {
-        let mut f = AtomicFile::create(&dir.join(self.kind.file()))?;
-        let header: Vec<&str> = PERIOD_COLUMNS.iter().map(|c| c.0).collect();
-        writeln!(f.writer(), "{}", header.join(","))?;
-        let mut line = String::new();
-        for r in &self.rows {
-            line.clear();
-            line.push_str(&r.key);
-            for v in &r.values {
-                line.push(',');
-                fmt_num(&mut line, *v);
+    fn pools_daily(&mut self, date: LocalDate, c_g_m2: &[f64], d13c: &[f64]) -> Result<()> {
+        let line = &mut self.line;
+        line.clear();
+        if !self.pools_header_written {
+            line.push_str("date");
+            for n in &self.pool_names {
+                let _ = write!(line, ",c_{n},d13c_{n}");
             }
             line.push('\n');
-            f.writer().write_all(line.as_bytes())?;
+            self.pools_header_written = true;
         }
-        f.commit()
+        let _ = write!(line, "{date}");
+        for (c, d) in c_g_m2.iter().zip(d13c) {
+            line.push(',');
+            fmt_num(line, *c);
+            line.push(',');
+            fmt_num(line, *d);
+        }
+        line.push('\n');
+        self.pools.writer().write_all(line.as_bytes())?;
+        Ok(())
     }
 }
 
-fn summary(
-    site: &Site,
-    annual: &[PeriodRow],
-    report: &ForcingReport,
-    _dir: &Path,
-    out: &Path,
-) -> String {
-    let col = |name: &str| {
-        PERIOD_COLUMNS
-            .iter()
-            .position(|c| c.0 == name)
-            .expect("known column")
-            - 1
-    };
+/// Writes one of `daily.csv`, `monthly.csv`, `annual.csv` atomically.
+pub fn write_periods(path: &Path, rows: &[PeriodRow]) -> Result<()> {
+    let mut f = AtomicFile::create(path)?;
+    let header: Vec<&str> = PERIOD_COLUMNS.iter().map(|c| c.0).collect();
+    writeln!(f.writer(), "{}", header.join(","))?;
+    let mut line = String::new();
+    for r in rows {
+        line.clear();
+        line.push_str(&r.key);
+        for v in &r.values {
+            line.push(',');
+            fmt_num(&mut line, *v);
+        }
+        line.push('\n');
+        f.writer().write_all(line.as_bytes())?;
+    }
+    f.commit()
+}
+
+fn summary(site: &Site, sim: &Simulated, report: &ForcingReport, out: &Path) -> String {
     let show = |v: f64, digits: usize| {
         if v.is_finite() {
             format!("{v:.digits$}")
@@ -783,24 +580,43 @@ fn summary(
     );
     let _ = writeln!(
         s,
-        "{:<6} {:>10} {:>10} {:>10} {:>10} {:>9} {:>7} {:>8}",
-        "year", "GPP gC/m2", "Δ C3 ‰", "Δ C4 ‰", "Δ eco ‰", "C4 share", "filled", "missing"
+        "{:<6} {:>9} {:>8} {:>8} {:>8} {:>8} {:>9} {:>9} {:>8} {:>7} {:>7}",
+        "year", "GPP", "Δ C3", "Δ C4", "Δ eco", "C4 share", "Reco", "δR", "D", "filled", "missing"
     );
-    for r in annual {
-        let v = &r.values;
+    let _ = writeln!(
+        s,
+        "{:<6} {:>9} {:>8} {:>8} {:>8} {:>8} {:>9} {:>9} {:>8} {:>7} {:>7}",
+        "", "gC m-2", "‰", "‰", "‰", "-", "gC m-2", "‰ VPDB", "‰", "steps", "steps"
+    );
+    for r in &sim.periods[2] {
+        let v = |name: &str| r.values[period_col(name)];
         let _ = writeln!(
             s,
-            "{:<6} {:>10} {:>10} {:>10} {:>10} {:>9} {:>7} {:>8}",
+            "{:<6} {:>9} {:>8} {:>8} {:>8} {:>8} {:>9} {:>9} {:>8} {:>7} {:>7}",
             r.key,
-            show(v[col("gpp")], 1),
-            show(v[col("discrimination_c3")], 2),
-            show(v[col("discrimination_c4")], 2),
-            show(v[col("discrimination")], 2),
-            show(v[col("c4_share")], 3),
-            v[col("filled_steps")],
-            v[col("missing_steps")],
+            show(v("gpp"), 1),
+            show(v("discrimination_c3"), 2),
+            show(v("discrimination_c4"), 2),
+            show(v("discrimination"), 2),
+            show(v("c4_share"), 3),
+            show(v("reco"), 1),
+            show(v("d13c_respiration"), 2),
+            show(v("disequilibrium"), 3),
+            v("filled_steps"),
+            v("missing_steps"),
         );
     }
+    let p = &sim.pools;
+    let age = p
+        .mean_age_respired_days
+        .map_or("-".into(), |d| format!("{d:.0} days"));
+    let lag = p.effective_lag_days.map_or("-".into(), |k| {
+        format!("{k} days (r = {:.2})", p.effective_lag_r)
+    });
+    let _ = writeln!(
+        s,
+        "respired carbon: mean age {age}; effective lag of δR behind the assimilate {lag}"
+    );
     let filled: usize = report.filled.values().sum();
     let _ = writeln!(
         s,

@@ -346,3 +346,68 @@ fn unknown_site_keys_name_key_line_and_closest_known_key() {
     assert!(err.contains("g1") && err.contains("line 12"), "{err}");
     assert!(!out.exists());
 }
+
+/// Runs the demo site, optionally with its text edited, into a fresh folder; returns the folder.
+fn run_demo(edit: impl Fn(String) -> String) -> (tempfile::TempDir, PathBuf) {
+    let dir = tempfile::tempdir().unwrap();
+    let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("../forcing-demo");
+    for f in ["weather.csv", "atmosphere_history.csv"] {
+        fs::copy(demo.join(f), dir.path().join(f)).unwrap();
+    }
+    let text = edit(fs::read_to_string(demo.join("site.toml")).unwrap());
+    let site = dir.path().join("site.toml");
+    fs::write(&site, text).unwrap();
+    let out = dir.path().join("out");
+    run(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+    ])
+    .unwrap();
+    (dir, out)
+}
+
+#[test]
+fn demo_respiration_lags_the_assimilate_by_days_and_old_carbon_is_less_depleted() {
+    // Reported lags between weather and δR are a few days to about ten (Ekblad & Högberg 2001;
+    // Bowling et al. 2002 — from memory).
+    let (_keep, out) = run_demo(|t| t);
+    let log: serde_json::Value =
+        serde_json::from_str(&fs::read_to_string(out.join("run.json")).unwrap()).unwrap();
+    let lag = log["pools"]["effective_lag_days"]
+        .as_u64()
+        .expect("a lag is found");
+    assert!((1..=10).contains(&lag), "effective lag {lag} days");
+    assert!(log["pools"]["mean_age_respired_days"].as_f64().unwrap() > 1.0);
+    // Under a falling atmospheric δ13C (the Suess effect) old carbon was fixed from a less
+    // depleted atmosphere, so heterotrophic respiration is less depleted than new assimilate
+    // (SCIENCE: a pool fed by δ falling at r ‰/yr settles at δR − δP = r·τ, here r < 0 → D > 0).
+    let annual = Table::read(&out.join("annual.csv"));
+    let soil_diseq = annual.num(0, "d13c_rh") - annual.num(0, "d13c_assimilate");
+    assert!(soil_diseq > 0.0, "soil disequilibrium {soil_diseq}");
+    // Without the history the slow pools start at today's atmosphere: less disequilibrium.
+    let (_keep2, flat) = run_demo(|t| t.replace("history = \"atmosphere_history.csv\"", ""));
+    let flat_annual = Table::read(&flat.join("annual.csv"));
+    let flat_diseq = flat_annual.num(0, "d13c_rh") - flat_annual.num(0, "d13c_assimilate");
+    assert!(
+        soil_diseq > flat_diseq + 0.05,
+        "{soil_diseq} vs {flat_diseq}"
+    );
+    // Reco = Ra + Rh, and NEE = Reco − GPP, in every month (definitions).
+    let monthly = Table::read(&out.join("monthly.csv"));
+    for m in 0..monthly.rows.len() {
+        let (reco, ra, rh) = (
+            monthly.num(m, "reco"),
+            monthly.num(m, "ra"),
+            monthly.num(m, "rh"),
+        );
+        assert!((reco - ra - rh).abs() < 1e-4 * reco.max(1.0), "month {m}");
+        assert!((monthly.num(m, "nee") - (reco - monthly.num(m, "gpp"))).abs() < 1e-3);
+    }
+    // pools_daily.csv has one row per day with C and δ per pool.
+    let pools = Table::read(&out.join("pools_daily.csv"));
+    assert_eq!(pools.rows.len(), 365);
+    assert!(pools.header.iter().any(|h| h == "d13c_soil"));
+}

@@ -1,0 +1,757 @@
+//! The simulation of one site over its weather: the site model step by step, the carbon/13C pools
+//! after it (spun up from the first year's mean forcing and, with an atmospheric history, through
+//! that history), and the daily, monthly and annual aggregates. Output files are not written here:
+//! a [`StepSink`] receives every step (the `run` command writes `steps.csv` from it; an ensemble
+//! member ignores it), so the same code serves single runs, ensembles and batches.
+
+use isodisc_model::isotopes::product_delta_permil;
+use isodisc_model::leaf::Pathway;
+use isodisc_model::observations::{LagSettings, lag_analysis};
+use isodisc_model::pools::{
+    AtmosphereHistory, Forcing, MeanDrivers, PoolModel, PoolState, StepResult,
+};
+use isodisc_model::site::{SiteDrivers, SiteModel, SiteStep};
+
+use crate::error::{Context, Result};
+use crate::forcing::{ForcingError, ForcingStep, LocalDate, LocalTime};
+use crate::site::Site;
+
+/// Grams of carbon per µmol of CO2.
+pub const GC_PER_UMOL: f64 = 12.011e-6;
+/// Seconds per day.
+const SECONDS_PER_DAY: f64 = 86_400.0;
+/// Time constant (days) of the running mean of air temperature that stands for soil temperature
+/// (common practice, from memory: soil lags and damps the air).
+pub const SOIL_TEMPERATURE_LAG_DAYS: f64 = 7.0;
+/// Longest lag (days) searched for the effective lag of δR behind the assimilate.
+pub const MAX_LAG_DAYS: usize = 20;
+
+/// The respiration part of a step, per m² of ground.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RespirationStep {
+    /// Ecosystem respiration (µmol m⁻² s⁻¹).
+    pub reco_umol_m2_s: f64,
+    /// Autotrophic respiration (µmol m⁻² s⁻¹).
+    pub ra_umol_m2_s: f64,
+    /// Heterotrophic respiration (µmol m⁻² s⁻¹).
+    pub rh_umol_m2_s: f64,
+    /// δ13C of ecosystem respiration (‰).
+    pub d13c_reco: f64,
+    /// δ13C of autotrophic respiration (‰).
+    pub d13c_ra: f64,
+    /// δ13C of heterotrophic respiration (‰).
+    pub d13c_rh: f64,
+}
+
+/// What a sink receives for each step.
+#[derive(Debug, Clone, Copy)]
+pub struct StepView<'a> {
+    /// The weather of the step.
+    pub forcing: &'a ForcingStep,
+    /// The drivers the model saw (None: missing step).
+    pub drivers: Option<&'a SiteDrivers>,
+    /// The site's result (None: missing step).
+    pub site: Option<&'a SiteStep>,
+    /// The pools' result (None: missing step).
+    pub respiration: Option<&'a RespirationStep>,
+    /// Index of the C3 and C4 vegetation in the site's list.
+    pub c3: Option<usize>,
+    /// Index of the C4 vegetation.
+    pub c4: Option<usize>,
+}
+
+/// Receives every step in time order.
+pub trait StepSink {
+    /// One step.
+    fn step(&mut self, view: &StepView<'_>) -> Result<()>;
+    /// The pools at the end of a day (pool C in gC m⁻² and δ13C in ‰, in network order).
+    fn pools_daily(&mut self, _date: LocalDate, _c_g_m2: &[f64], _d13c: &[f64]) -> Result<()> {
+        Ok(())
+    }
+}
+
+/// A sink that keeps nothing.
+pub struct NoSink;
+
+impl StepSink for NoSink {
+    fn step(&mut self, _view: &StepView<'_>) -> Result<()> {
+        Ok(())
+    }
+}
+
+/// Columns of `daily.csv`, `monthly.csv` and `annual.csv`: name, unit, meaning.
+pub const PERIOD_COLUMNS: &[(&str, &str, &str)] = &[
+    ("period", "YYYY-MM-DD, YYYY-MM or YYYY", "the period"),
+    ("steps", "count", "steps in the period"),
+    ("filled_steps", "count", "steps with a gap-filled driver"),
+    (
+        "missing_steps",
+        "count",
+        "steps left empty (long gaps); not in the sums",
+    ),
+    ("gpp", "gC m-2", "GPP summed over the period"),
+    ("gpp_c3", "gC m-2", "C3 GPP summed over the period"),
+    ("gpp_c4", "gC m-2", "C4 GPP summed over the period"),
+    ("c4_share", "-", "gpp_c4 / gpp"),
+    (
+        "discrimination",
+        "permil",
+        "GPP-weighted ecosystem discrimination",
+    ),
+    (
+        "discrimination_c3",
+        "permil",
+        "GPP-weighted discrimination of the C3 part",
+    ),
+    (
+        "discrimination_c4",
+        "permil",
+        "GPP-weighted discrimination of the C4 part",
+    ),
+    (
+        "d13c_assimilate",
+        "permil VPDB",
+        "GPP-weighted d13C of the assimilate",
+    ),
+    ("ci_ca_c3", "-", "GPP-weighted ci/ca of the C3 part"),
+    ("ci_ca_c4", "-", "GPP-weighted ci/ca of the C4 part"),
+    ("reco", "gC m-2", "ecosystem respiration summed"),
+    ("ra", "gC m-2", "autotrophic respiration summed"),
+    ("rh", "gC m-2", "heterotrophic respiration summed"),
+    (
+        "nee",
+        "gC m-2",
+        "net ecosystem exchange, reco - gpp (positive: a source)",
+    ),
+    (
+        "d13c_respiration",
+        "permil VPDB",
+        "respiration-weighted d13C of ecosystem respiration",
+    ),
+    (
+        "d13c_ra",
+        "permil VPDB",
+        "respiration-weighted d13C of autotrophic respiration",
+    ),
+    (
+        "d13c_rh",
+        "permil VPDB",
+        "respiration-weighted d13C of heterotrophic respiration",
+    ),
+    (
+        "disequilibrium",
+        "permil",
+        "d13c_respiration - d13c_assimilate over the period",
+    ),
+    (
+        "isoflux_disequilibrium",
+        "permil gC m-2",
+        "reco x disequilibrium",
+    ),
+    ("t_air", "degC", "mean air temperature"),
+    ("vpd", "kPa", "mean VPD"),
+    ("ppfd", "umol m-2 s-1", "mean PPFD"),
+    ("precip", "mm", "precipitation summed"),
+    ("transpiration", "mm", "transpiration summed"),
+    ("soil_evaporation", "mm", "soil evaporation summed"),
+    ("beta", "-", "mean soil-water factor"),
+];
+
+/// Index of a period column among the values of a [`PeriodRow`] (which omit `period`).
+pub fn period_col(name: &str) -> usize {
+    PERIOD_COLUMNS
+        .iter()
+        .position(|c| c.0 == name)
+        .unwrap_or_else(|| panic!("unknown period column {name}"))
+        - 1
+}
+
+/// A finished period: its key and its values in the order of [`PERIOD_COLUMNS`] after `period`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PeriodRow {
+    /// YYYY-MM-DD, YYYY-MM or YYYY.
+    pub key: String,
+    /// Values.
+    pub values: Vec<f64>,
+}
+
+/// Diagnostics of the pools over the run.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PoolDiagnostics {
+    /// Mean age of respired carbon at the spin-up steady state (days).
+    pub mean_age_respired_days: Option<f64>,
+    /// Mean age of autotrophic and heterotrophic respiration (days).
+    pub mean_age_ra_days: Option<f64>,
+    /// Mean age of heterotrophic respiration (days).
+    pub mean_age_rh_days: Option<f64>,
+    /// Lag (days) at which daily δR correlates best with the daily δ13C of the assimilate of
+    /// earlier days; None when too few days.
+    pub effective_lag_days: Option<usize>,
+    /// The correlation at that lag.
+    pub effective_lag_r: f64,
+    /// Mean forcing of the first year that the spin-up used.
+    pub spin_up: MeanDrivers,
+    /// Mean discrimination (‰) of the first year that the spin-up used.
+    pub spin_up_discrimination_permil: f64,
+    /// Whether an atmospheric history was used.
+    pub with_history: bool,
+    /// Pool names in network order.
+    pub pool_names: Vec<String>,
+}
+
+/// Everything a simulation returns besides what the sink received.
+#[derive(Debug, Clone)]
+pub struct Simulated {
+    /// Daily, monthly and annual rows.
+    pub periods: [Vec<PeriodRow>; 3],
+    /// Pool diagnostics.
+    pub pools: PoolDiagnostics,
+}
+
+/// Runs a site over its forcing steps.
+pub fn simulate(
+    site: &Site,
+    steps: impl Iterator<Item = std::result::Result<ForcingStep, ForcingError>>,
+    step_minutes: u32,
+    sink: &mut dyn StepSink,
+) -> Result<Simulated> {
+    let mut model = SiteModel::new(site.settings.clone())?;
+    let has = |p: Pathway| {
+        site.settings
+            .vegetation
+            .iter()
+            .position(|v| v.pathway() == p)
+    };
+    let (c3, c4) = (has(Pathway::C3), has(Pathway::C4));
+    let step_days = f64::from(step_minutes) / 1440.0;
+
+    // The first year is run through the site model and held back: its mean forcing sets the
+    // pools' starting state, which the rest of the run needs before it can write anything.
+    let mut steps = steps.peekable();
+    let mut first_year: Vec<(ForcingStep, Option<SiteDrivers>, Option<SiteStep>)> = Vec::new();
+    let mut year_end: Option<LocalTime> = None;
+    while let Some(item) = steps.peek() {
+        let f = match item {
+            Ok(f) => f.clone(),
+            Err(_) => break,
+        };
+        let end = *year_end.get_or_insert(f.time.plus_minutes(365 * 1440));
+        if f.time >= end {
+            break;
+        }
+        steps.next();
+        let (d, s) = site_step(site, &mut model, &f, step_minutes)?;
+        first_year.push((f, d, s));
+    }
+    let mut pools = Pools::start(site, &first_year, step_minutes)?;
+
+    let mut aggs = [
+        Aggregator::new(PeriodKind::Daily),
+        Aggregator::new(PeriodKind::Monthly),
+        Aggregator::new(PeriodKind::Annual),
+    ];
+    let mut process = |f: &ForcingStep,
+                       d: Option<SiteDrivers>,
+                       s: Option<SiteStep>,
+                       sink: &mut dyn StepSink|
+     -> Result<()> {
+        let resp = match (&d, &s) {
+            (Some(d), Some(s)) => Some(pools.step(d, s, step_days)?),
+            _ => None,
+        };
+        let view = StepView {
+            forcing: f,
+            drivers: d.as_ref(),
+            site: s.as_ref(),
+            respiration: resp.as_ref(),
+            c3,
+            c4,
+        };
+        sink.step(&view)?;
+        let closed_day = aggs[0].current_key_differs(f.time);
+        if closed_day {
+            pools.end_of_day(sink, aggs[0].current_date)?;
+        }
+        for a in &mut aggs {
+            a.add(&view, step_days * SECONDS_PER_DAY);
+        }
+        Ok(())
+    };
+    for (f, d, s) in first_year.drain(..) {
+        process(&f, d, s, sink)?;
+    }
+    for item in steps {
+        let f = item.with_context(|| format!("site {}", site.path.display()))?;
+        let (d, s) = site_step(site, &mut model, &f, step_minutes)?;
+        process(&f, d, s, sink)?;
+    }
+    if aggs[0].current.is_some() {
+        pools.end_of_day(sink, aggs[0].current_date)?;
+    }
+    for a in &mut aggs {
+        a.flush();
+    }
+    let [daily, monthly, annual] = aggs.map(|a| a.rows);
+    let mut diagnostics = pools.diagnostics;
+    let (lag, r) = effective_lag(&daily);
+    diagnostics.effective_lag_days = lag;
+    diagnostics.effective_lag_r = r;
+    Ok(Simulated {
+        periods: [daily, monthly, annual],
+        pools: diagnostics,
+    })
+}
+
+/// The site model's step for one forcing step (None for a missing step).
+fn site_step(
+    site: &Site,
+    model: &mut SiteModel,
+    f: &ForcingStep,
+    step_minutes: u32,
+) -> Result<(Option<SiteDrivers>, Option<SiteStep>)> {
+    let Some(d) = drivers(site, f, step_minutes) else {
+        return Ok((None, None));
+    };
+    let s = model
+        .step(&d)
+        .with_context(|| format!("{}: step {}", site.path.display(), f.time))?;
+    Ok((Some(d), Some(s)))
+}
+
+/// The model's drivers for a forcing step, or None when a driver is missing.
+pub fn drivers(site: &Site, f: &ForcingStep, step_minutes: u32) -> Option<SiteDrivers> {
+    if f.missing {
+        return None;
+    }
+    let pick = |constant: Option<f64>, col: Option<f64>| constant.or(col).filter(|v| v.is_finite());
+    let co2 = pick(site.co2, f.co2_umol_mol)?;
+    let d13c = pick(site.d13c_co2, f.d13c_co2_permil)?;
+    let lai = if site.lai_from_forcing {
+        Some(f.lai.filter(|l| l.is_finite())?)
+    } else {
+        None
+    };
+    let hour_start = f.time.hour_fraction();
+    Some(SiteDrivers {
+        year: f.time.year(),
+        day_of_year: f.time.day_of_year(),
+        hour_start,
+        hour_end: (hour_start + f64::from(step_minutes) / 60.0).min(24.0),
+        t_air_c: f.t_air_c,
+        vpd_kpa: f.vpd_kpa,
+        sw_w_m2: f.sw_w_m2,
+        ppfd_umol_m2_s: f.ppfd_umol_m2_s,
+        co2_umol_mol: co2,
+        d13c_co2_permil: d13c,
+        o2_mmol_mol: site.o2,
+        pressure_kpa: f.pressure_kpa,
+        precip_mm: f.precip_mm,
+        swc_m3_m3: f.swc_m3_m3,
+        lai_m2_m2: lai,
+        wind_m_s: f.wind_m_s,
+    })
+}
+
+/// The pools during a run.
+struct Pools {
+    model: PoolModel,
+    state: PoolState,
+    t_soil_c: f64,
+    last_d13c_assimilate: f64,
+    r_standard: f64,
+    diagnostics: PoolDiagnostics,
+}
+
+impl Pools {
+    /// Spins the pools up from the first year's mean forcing.
+    fn start(
+        site: &Site,
+        first_year: &[(ForcingStep, Option<SiteDrivers>, Option<SiteStep>)],
+        step_minutes: u32,
+    ) -> Result<Self> {
+        let (network, settings) = site.pools.build()?;
+        let mut model = PoolModel::new(network, settings);
+        let step_s = f64::from(step_minutes) * 60.0;
+        let (mut gpp_gc, mut w_disc, mut w_d13c_air, mut t_sum, mut beta_sum, mut n) =
+            (0.0, 0.0, 0.0, 0.0, 0.0, 0usize);
+        let mut seconds = 0.0;
+        let mut first_time = None;
+        for (f, d, s) in first_year {
+            let (Some(d), Some(s)) = (d, s) else { continue };
+            first_time.get_or_insert(f.time);
+            let g = s.gpp_umol_m2_s * step_s * GC_PER_UMOL;
+            gpp_gc += g;
+            if g > 0.0 {
+                w_disc += g * s.discrimination_permil;
+                w_d13c_air += g * d.d13c_co2_permil;
+            }
+            t_sum += d.t_air_c;
+            beta_sum += s.beta;
+            n += 1;
+            seconds += step_s;
+        }
+        if n == 0 || gpp_gc <= 0.0 {
+            return Err(crate::error::Error::msg(format!(
+                "{}: the first year of the run has no step with photosynthesis, so the pools cannot \
+                 be started at a steady state",
+                site.path.display()
+            )));
+        }
+        let days = seconds / SECONDS_PER_DAY;
+        let mean = MeanDrivers {
+            assimilation_gc_m2_day: gpp_gc / days,
+            t_soil_c: t_sum / n as f64,
+            moisture: beta_sum / n as f64,
+        };
+        let mean_disc = w_disc / gpp_gc;
+        let mean_d13c_air = w_d13c_air / gpp_gc;
+        let r_standard = model.settings().r_standard();
+        let steady_forcing = Forcing {
+            assimilation_gc_m2_day: mean.assimilation_gc_m2_day,
+            d13c_assimilate_permil: product_delta_permil(mean_d13c_air, mean_disc),
+            t_soil_c: mean.t_soil_c,
+            moisture: mean.moisture,
+        };
+        let report = model.steady_state_report(&steady_forcing)?;
+        let state = match &site.history {
+            Some(h) => {
+                let t0 = first_time.expect("n > 0");
+                let start_year = f64::from(t0.year()) + f64::from(t0.day_of_year() - 1) / 365.25;
+                model
+                    .spin_up_with_history(h, mean_disc, &mean, start_year)
+                    .with_context(|| {
+                        format!(
+                            "{}: spin-up through the atmospheric history to {start_year:.2}",
+                            site.path.display()
+                        )
+                    })?
+            }
+            None => model.steady_state(&steady_forcing)?,
+        };
+        let pool_names = model
+            .network()
+            .pools()
+            .iter()
+            .map(|p| p.name.clone())
+            .collect();
+        Ok(Self {
+            model,
+            state,
+            t_soil_c: mean.t_soil_c,
+            last_d13c_assimilate: steady_forcing.d13c_assimilate_permil,
+            r_standard,
+            diagnostics: PoolDiagnostics {
+                mean_age_respired_days: report.mean_age_respired_days,
+                mean_age_ra_days: report.mean_age_ra_days,
+                mean_age_rh_days: report.mean_age_rh_days,
+                effective_lag_days: None,
+                effective_lag_r: f64::NAN,
+                spin_up: mean,
+                spin_up_discrimination_permil: mean_disc,
+                with_history: site.history.is_some(),
+                pool_names,
+            },
+        })
+    }
+
+    fn step(&mut self, d: &SiteDrivers, s: &SiteStep, step_days: f64) -> Result<RespirationStep> {
+        // Soil temperature: running mean of air temperature with a time constant of a week.
+        let w = 1.0 - (-step_days / SOIL_TEMPERATURE_LAG_DAYS).exp();
+        self.t_soil_c += w * (d.t_air_c - self.t_soil_c);
+        if s.d13c_assimilate_permil.is_finite() {
+            self.last_d13c_assimilate = s.d13c_assimilate_permil;
+        }
+        let forcing = Forcing {
+            assimilation_gc_m2_day: s.gpp_umol_m2_s * SECONDS_PER_DAY * GC_PER_UMOL,
+            d13c_assimilate_permil: self.last_d13c_assimilate,
+            t_soil_c: self.t_soil_c,
+            moisture: s.beta,
+        };
+        let r: StepResult = self.model.step(&mut self.state, &forcing, step_days)?;
+        let per_s = 1.0 / (step_days * SECONDS_PER_DAY * GC_PER_UMOL);
+        let delta = |x: Option<f64>| x.unwrap_or(f64::NAN);
+        Ok(RespirationStep {
+            reco_umol_m2_s: r.reco().c_g_m2() * per_s,
+            ra_umol_m2_s: r.ra.c_g_m2() * per_s,
+            rh_umol_m2_s: r.rh.c_g_m2() * per_s,
+            d13c_reco: delta(r.d13c_reco_permil()),
+            d13c_ra: delta(r.d13c_ra_permil()),
+            d13c_rh: delta(r.d13c_rh_permil()),
+        })
+    }
+
+    fn end_of_day(&mut self, sink: &mut dyn StepSink, date: Option<LocalDate>) -> Result<()> {
+        let Some(date) = date else { return Ok(()) };
+        let n = self.state.len();
+        let c: Vec<f64> = (0..n).map(|i| self.state.pool_c_g_m2(i)).collect();
+        let d: Vec<f64> = (0..n)
+            .map(|i| {
+                self.state
+                    .pool_d13c_permil(i, self.r_standard)
+                    .unwrap_or(f64::NAN)
+            })
+            .collect();
+        sink.pools_daily(date, &c, &d)
+    }
+}
+
+/// The lag (days) at which daily δR correlates best with the daily δ13C of the assimilate of
+/// earlier days (largest |r|), and that r.
+fn effective_lag(daily: &[PeriodRow]) -> (Option<usize>, f64) {
+    let dr: Vec<f64> = daily
+        .iter()
+        .map(|r| r.values[period_col("d13c_respiration")])
+        .collect();
+    let dp: Vec<f64> = daily
+        .iter()
+        .map(|r| r.values[period_col("d13c_assimilate")])
+        .collect();
+    let Ok(settings) = LagSettings::new(MAX_LAG_DAYS.min(dr.len().saturating_sub(3)), 1) else {
+        return (None, f64::NAN);
+    };
+    let lag = lag_analysis(&dr, &dp, &settings);
+    match lag.best_lag_days {
+        Some(k) => (Some(k), lag.lags.get(k).map_or(f64::NAN, |l| l.r)),
+        None => (None, f64::NAN),
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum PeriodKind {
+    Daily,
+    Monthly,
+    Annual,
+}
+
+impl PeriodKind {
+    fn key(self, t: LocalTime) -> String {
+        match self {
+            PeriodKind::Daily => t.date().to_string(),
+            PeriodKind::Monthly => format!("{:04}-{:02}", t.year(), t.month()),
+            PeriodKind::Annual => format!("{:04}", t.year()),
+        }
+    }
+}
+
+/// Running sums of one period.
+#[derive(Debug, Clone, Default)]
+struct Sums {
+    steps: usize,
+    filled: usize,
+    missing: usize,
+    gpp: f64,
+    gpp_c3: f64,
+    gpp_c4: f64,
+    w_disc: f64,
+    w_disc_c3: f64,
+    w_disc_c4: f64,
+    w_d13c: f64,
+    w_cica_c3: f64,
+    w_cica_c4: f64,
+    reco: f64,
+    ra: f64,
+    rh: f64,
+    w_d13c_reco: f64,
+    w_d13c_ra: f64,
+    w_d13c_rh: f64,
+    t_air: f64,
+    vpd: f64,
+    ppfd: f64,
+    n_drivers: usize,
+    precip: f64,
+    transpiration: f64,
+    soil_evaporation: f64,
+    beta: f64,
+}
+
+impl Sums {
+    fn row(&self) -> Vec<f64> {
+        let ratio = |a: f64, b: f64| if b > 0.0 { a / b } else { f64::NAN };
+        let mean = |a: f64, n: usize| if n > 0 { a / n as f64 } else { f64::NAN };
+        let d13c_p = ratio(self.w_d13c, self.gpp);
+        let d13c_r = ratio(self.w_d13c_reco, self.reco);
+        let diseq = d13c_r - d13c_p;
+        vec![
+            self.steps as f64,
+            self.filled as f64,
+            self.missing as f64,
+            self.gpp,
+            self.gpp_c3,
+            self.gpp_c4,
+            ratio(self.gpp_c4, self.gpp),
+            ratio(self.w_disc, self.gpp),
+            ratio(self.w_disc_c3, self.gpp_c3),
+            ratio(self.w_disc_c4, self.gpp_c4),
+            d13c_p,
+            ratio(self.w_cica_c3, self.gpp_c3),
+            ratio(self.w_cica_c4, self.gpp_c4),
+            self.reco,
+            self.ra,
+            self.rh,
+            self.reco - self.gpp,
+            d13c_r,
+            ratio(self.w_d13c_ra, self.ra),
+            ratio(self.w_d13c_rh, self.rh),
+            diseq,
+            self.reco * diseq,
+            mean(self.t_air, self.n_drivers),
+            mean(self.vpd, self.n_drivers),
+            mean(self.ppfd, self.n_drivers),
+            self.precip,
+            self.transpiration,
+            self.soil_evaporation,
+            mean(self.beta, self.n_drivers),
+        ]
+    }
+}
+
+struct Aggregator {
+    kind: PeriodKind,
+    current: Option<(String, Sums)>,
+    current_date: Option<LocalDate>,
+    rows: Vec<PeriodRow>,
+}
+
+impl Aggregator {
+    fn new(kind: PeriodKind) -> Self {
+        Self {
+            kind,
+            current: None,
+            current_date: None,
+            rows: Vec::new(),
+        }
+    }
+
+    /// True when a period is open and `t` belongs to another one.
+    fn current_key_differs(&self, t: LocalTime) -> bool {
+        self.current
+            .as_ref()
+            .is_some_and(|(k, _)| *k != self.kind.key(t))
+    }
+
+    fn add(&mut self, v: &StepView<'_>, step_s: f64) {
+        let f = v.forcing;
+        let key = self.kind.key(f.time);
+        if self.current.as_ref().is_none_or(|(k, _)| *k != key) {
+            self.flush();
+            self.current = Some((key, Sums::default()));
+        }
+        self.current_date = Some(f.time.date());
+        let (_, sums) = self.current.as_mut().expect("set above");
+        sums.steps += 1;
+        sums.filled += usize::from(f.filled);
+        let (Some(_), Some(s)) = (v.drivers, v.site) else {
+            sums.missing += 1;
+            return;
+        };
+        let to_gc = step_s * GC_PER_UMOL;
+        let g = s.gpp_umol_m2_s * to_gc;
+        sums.gpp += g;
+        if g > 0.0 {
+            sums.w_disc += g * s.discrimination_permil;
+            sums.w_d13c += g * s.d13c_assimilate_permil;
+        }
+        for (idx, gpp_part, w_disc, w_cica) in [
+            (
+                v.c3,
+                &mut sums.gpp_c3,
+                &mut sums.w_disc_c3,
+                &mut sums.w_cica_c3,
+            ),
+            (
+                v.c4,
+                &mut sums.gpp_c4,
+                &mut sums.w_disc_c4,
+                &mut sums.w_cica_c4,
+            ),
+        ] {
+            if let Some(i) = idx {
+                let p = &s.pathways[i];
+                let gp = p.gpp_umol_m2_s * to_gc;
+                *gpp_part += gp;
+                if gp > 0.0 {
+                    *w_disc += gp * p.canopy.discrimination_permil;
+                    *w_cica += gp * p.canopy.ci_ca;
+                }
+            }
+        }
+        if let Some(r) = v.respiration {
+            let (reco, ra, rh) = (
+                r.reco_umol_m2_s * to_gc,
+                r.ra_umol_m2_s * to_gc,
+                r.rh_umol_m2_s * to_gc,
+            );
+            sums.reco += reco;
+            sums.ra += ra;
+            sums.rh += rh;
+            if reco > 0.0 {
+                sums.w_d13c_reco += reco * r.d13c_reco;
+            }
+            if ra > 0.0 {
+                sums.w_d13c_ra += ra * r.d13c_ra;
+            }
+            if rh > 0.0 {
+                sums.w_d13c_rh += rh * r.d13c_rh;
+            }
+        }
+        sums.t_air += f.t_air_c;
+        sums.vpd += f.vpd_kpa;
+        sums.ppfd += f.ppfd_umol_m2_s;
+        sums.n_drivers += 1;
+        sums.precip += f.precip_mm;
+        sums.transpiration += s.transpiration_mm;
+        sums.soil_evaporation += s.soil_evaporation_mm;
+        sums.beta += s.beta;
+    }
+
+    fn flush(&mut self) {
+        if let Some((key, sums)) = self.current.take() {
+            self.rows.push(PeriodRow {
+                key,
+                values: sums.row(),
+            });
+        }
+    }
+}
+
+/// Reads an atmospheric history file (`year,co2,d13c`), naming file and line on errors.
+pub fn read_history(path: &std::path::Path) -> Result<AtmosphereHistory> {
+    use isodisc_model::pools::AtmosphereRow;
+    let mut rdr = csv::ReaderBuilder::new()
+        .trim(csv::Trim::All)
+        .comment(Some(b'#'))
+        .from_path(path)
+        .with_context(|| format!("cannot read the atmospheric history {}", path.display()))?;
+    let header = rdr.headers()?.clone();
+    let col = |name: &str| {
+        header.iter().position(|h| h == name).ok_or_else(|| {
+            crate::error::Error::msg(format!(
+                "{}: line 1: no column `{name}` (expected year,co2,d13c)",
+                path.display()
+            ))
+        })
+    };
+    let (cy, cc, cd) = (col("year")?, col("co2")?, col("d13c")?);
+    let mut rows = Vec::new();
+    for rec in rdr.records() {
+        let rec = rec.with_context(|| format!("cannot read {}", path.display()))?;
+        let line = rec.position().map_or(0, |p| p.line());
+        let num = |i: usize| -> Result<f64> {
+            rec.get(i).unwrap_or("").parse::<f64>().map_err(|_| {
+                crate::error::Error::msg(format!(
+                    "{}: line {line}, column {} (`{}`): `{}` is not a number",
+                    path.display(),
+                    i + 1,
+                    &header[i],
+                    rec.get(i).unwrap_or("")
+                ))
+            })
+        };
+        rows.push(AtmosphereRow {
+            year: num(cy)?,
+            co2_umol_mol: num(cc)?,
+            d13c_permil: num(cd)?,
+        });
+    }
+    AtmosphereHistory::new(rows).with_context(|| format!("atmospheric history {}", path.display()))
+}
