@@ -142,14 +142,12 @@ impl PoolEntry {
                 )));
             }
         };
-        let mut spec = PoolSpec::new(
-            &self.name,
-            turnover_days,
-            self.respired_fraction,
-            self.kind,
-        )
-        .with_assimilation_share(self.assimilation_share)
-        .with_epsilons(self.epsilon_respiration_permil, self.epsilon_transfer_permil);
+        let mut spec = PoolSpec::new(&self.name, turnover_days, self.respired_fraction, self.kind)
+            .with_assimilation_share(self.assimilation_share)
+            .with_epsilons(
+                self.epsilon_respiration_permil,
+                self.epsilon_transfer_permil,
+            );
         if let Some(r) = self.responds_to_environment {
             spec.responds_to_environment = r;
         }
@@ -178,7 +176,15 @@ impl PoolEntry {
 }
 
 /// Top-level parameters reachable by [`PoolsConfig::set_param`].
-const GLOBAL_PARAMS: [&str; 7] = ["rtol", "atol", "q10", "t_ref_c", "moisture_min", "r_vpdb", "cue"];
+const GLOBAL_PARAMS: [&str; 7] = [
+    "rtol",
+    "atol",
+    "q10",
+    "t_ref_c",
+    "moisture_min",
+    "r_vpdb",
+    "cue",
+];
 /// Per-pool parameters reachable as `<pool>.<param>`.
 const POOL_PARAMS: [&str; 6] = [
     "turnover_days",
@@ -201,9 +207,12 @@ impl PoolsConfig {
                         .into(),
                 ));
             }
-            (Some(entries), None) => {
-                PoolNetwork::new(entries.iter().map(PoolEntry::to_spec).collect::<Result<_>>()?)?
-            }
+            (Some(entries), None) => PoolNetwork::new(
+                entries
+                    .iter()
+                    .map(PoolEntry::to_spec)
+                    .collect::<Result<_>>()?,
+            )?,
         };
         let method = match self.method {
             MethodName::Exact => Method::Exact,

@@ -8,10 +8,10 @@
 //! The system's mean transit time is total storage over throughput (Bolin & Rodhe 1973, Tellus,
 //! from memory); it equals the mean age of everything leaving (respired and exported).
 
+use super::expm::solve_in_place;
 use super::integrate::PoolModel;
 use super::state::Forcing;
 use crate::error::{ModelError, Result, check_input};
-use super::expm::solve_in_place;
 
 /// One pool at steady state.
 #[derive(Debug, Clone, PartialEq)]
@@ -60,10 +60,8 @@ impl PoolModel {
         let x = state.c12_g_m2();
         let (mut mat, _) = self.pool_block(env, false);
         let mut m1: Vec<f64> = x.iter().map(|v| -v).collect();
-        solve_in_place(&mut mat, &mut m1, n)?;
-        let ages: Vec<Option<f64>> = (0..n)
-            .map(|i| (x[i] > 0.0).then(|| m1[i] / x[i]))
-            .collect();
+        solve_in_place(&mut mat, n, &mut m1, 1, n, 1)?;
+        let ages: Vec<Option<f64>> = (0..n).map(|i| (x[i] > 0.0).then(|| m1[i] / x[i])).collect();
         let r_std = self.settings().r_standard();
         let pools = self
             .network()
@@ -96,9 +94,7 @@ impl PoolModel {
             .map(|(&(resp, export, _), &xi)| (resp + export) * xi)
             .sum();
         if input12 <= 0.0 {
-            return Err(ModelError::Numerical(
-                "steady state with no outflow".into(),
-            ));
+            return Err(ModelError::Numerical("steady state with no outflow".into()));
         }
         Ok(SteadyStateReport {
             pools,

@@ -174,11 +174,14 @@ impl PoolNetwork {
                         "pool `{n}` transfers to itself"
                     )));
                 }
-                let j = specs.iter().position(|q| &q.name == target).ok_or_else(|| {
-                    ModelError::InvalidConfig(format!(
-                        "pool `{n}` transfers to unknown pool `{target}`"
-                    ))
-                })?;
+                let j = specs
+                    .iter()
+                    .position(|q| &q.name == target)
+                    .ok_or_else(|| {
+                        ModelError::InvalidConfig(format!(
+                            "pool `{n}` transfers to unknown pool `{target}`"
+                        ))
+                    })?;
                 if links.iter().any(|&(s, t, _)| s == i && t == j) {
                     return Err(ModelError::InvalidConfig(format!(
                         "pool `{n}` lists its transfer to `{target}` twice"

@@ -46,7 +46,12 @@ impl AtmosphereHistory {
                 f64::MIN_POSITIVE,
                 1e5,
             )?;
-            check_input(&format!("history[{i}].d13c_permil"), r.d13c_permil, -50.0, 10.0)?;
+            check_input(
+                &format!("history[{i}].d13c_permil"),
+                r.d13c_permil,
+                -50.0,
+                10.0,
+            )?;
             if i > 0 && r.year <= rows[i - 1].year {
                 return Err(ModelError::InvalidInput {
                     name: format!("history[{i}].year"),

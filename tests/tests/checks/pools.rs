@@ -60,11 +60,14 @@ fn synthetic_hour(i: usize) -> Forcing {
     let hour = (i % 24) as f64;
     let season = (2.0 * std::f64::consts::PI * (day - 100.0) / 365.0).sin();
     Forcing {
-        assimilation_gc_m2_day: (20.0 * (std::f64::consts::PI * (hour - 6.0) / 12.0).sin()
+        assimilation_gc_m2_day: (20.0
+            * (std::f64::consts::PI * (hour - 6.0) / 12.0).sin()
             * (1.0 + 0.5 * season))
             .max(0.0),
         d13c_assimilate_permil: -27.0 + 2.0 * (2.0 * std::f64::consts::PI * day / 365.0).sin(),
-        t_soil_c: 10.0 + 8.0 * season + 3.0 * (2.0 * std::f64::consts::PI * (hour - 9.0) / 24.0).sin(),
+        t_soil_c: 10.0
+            + 8.0 * season
+            + 3.0 * (2.0 * std::f64::consts::PI * (hour - 9.0) / 24.0).sin(),
         moisture: 0.5 + 0.4 * (2.0 * std::f64::consts::PI * day / 180.0).sin(),
     }
 }
@@ -125,9 +128,12 @@ fn conservation_over_a_year_of_hourly_forcing_both_methods() {
     let forcings: Vec<Forcing> = (0..8760).map(synthetic_hour).collect();
     for method in [Method::Exact, Method::dopri5()] {
         let mut m = model(busy_network(), method);
-        let mut state =
-            PoolState::from_totals(&[3.0, 15.0, 500.0, 8000.0], &[-26.0, -25.0, -24.0, -23.0], R)
-                .unwrap();
+        let mut state = PoolState::from_totals(
+            &[3.0, 15.0, 500.0, 8000.0],
+            &[-26.0, -25.0, -24.0, -23.0],
+            R,
+        )
+        .unwrap();
         assert_conserves(&mut m, &mut state, &forcings, 1.0 / 24.0).unwrap();
     }
 }
@@ -156,8 +162,7 @@ fn single_pool_relaxes_exponentially_after_a_step_in_input_delta() {
         for k in 0..200 {
             let t = k as f64 * h;
             let r = m.step(&mut state, &after, h).unwrap();
-            let want_flux =
-                (d0 - d_inf) * (-t / tau).exp() * (tau / h) * (1.0 - (-h / tau).exp());
+            let want_flux = (d0 - d_inf) * (-t / tau).exp() * (tau / h) * (1.0 - (-h / tau).exp());
             let got_flux = r.d13c_ra_permil().unwrap() - d_inf;
             assert!(
                 (got_flux / want_flux - 1.0).abs() < DECAY_TOL,
@@ -250,11 +255,16 @@ fn falling_input_delta_leaves_disequilibrium_of_minus_r_tau() {
     let mut last = None;
     for k in 0..steps {
         let mid = (k as f64 + 0.5) * h_y;
-        let r = m.step(&mut state, &forcing_at(mid), h_y * YEAR_DAYS).unwrap();
+        let r = m
+            .step(&mut state, &forcing_at(mid), h_y * YEAR_DAYS)
+            .unwrap();
         last = Some(r.d13c_reco_permil().unwrap() - dp(mid));
     }
     let diseq = last.unwrap();
-    assert!((diseq - (-rate * tau_y)).abs() < DISEQ_TOL_PERMIL, "{diseq}");
+    assert!(
+        (diseq - (-rate * tau_y)).abs() < DISEQ_TOL_PERMIL,
+        "{diseq}"
+    );
 }
 
 #[test]
@@ -277,7 +287,9 @@ fn spin_up_through_a_linear_history_carries_the_older_atmosphere() {
         t_soil_c: 10.0,
         moisture: 1.0,
     };
-    let state = m.spin_up_with_history(&history, disc, &drivers, 2020.0).unwrap();
+    let state = m
+        .spin_up_with_history(&history, disc, &drivers, 2020.0)
+        .unwrap();
     let dp_now = product_d13c_permil(history.d13c_at(2020.0), disc);
     let want = -rate / (1.0 + disc / 1000.0) * tau_y;
     let got = state.pool_d13c_permil(0, R).unwrap() - dp_now;
@@ -294,7 +306,10 @@ fn spin_up_rejects_bad_history_rows_by_index() {
     };
     let not_increasing = AtmosphereHistory::new(vec![row(1900.0, -7.0), row(1900.0, -7.1)]);
     let nan = AtmosphereHistory::new(vec![row(1900.0, -7.0), row(1901.0, f64::NAN)]);
-    for (res, name) in [(not_increasing, "history[1].year"), (nan, "history[1].d13c_permil")] {
+    for (res, name) in [
+        (not_increasing, "history[1].year"),
+        (nan, "history[1].d13c_permil"),
+    ] {
         match res {
             Err(ModelError::InvalidInput { name: got, .. }) => assert_eq!(got, name),
             other => panic!("expected an error naming {name}, got {other:?}"),
@@ -309,9 +324,12 @@ fn dopri5_with_sparse_output_matches_the_exact_solution() {
     // `dense_output_with_dx_step_misses_the_end_value_but_sparse_does_not` in the model crate,
     // which needs ode_solvers' OutputType directly.)
     let forcings: Vec<Forcing> = (0..8760).map(synthetic_hour).collect();
-    let start =
-        PoolState::from_totals(&[3.0, 15.0, 500.0, 8000.0], &[-26.0, -25.0, -24.0, -23.0], R)
-            .unwrap();
+    let start = PoolState::from_totals(
+        &[3.0, 15.0, 500.0, 8000.0],
+        &[-26.0, -25.0, -24.0, -23.0],
+        R,
+    )
+    .unwrap();
     let mut exact = model(busy_network(), Method::Exact);
     let mut dopri = model(busy_network(), Method::dopri5());
     let (mut se, mut sd) = (start.clone(), start);
@@ -321,13 +339,16 @@ fn dopri5_with_sparse_output_matches_the_exact_solution() {
         let rd = dopri.step(&mut sd, f, 1.0 / 24.0).unwrap();
         let rel = (rd.reco().c_g_m2() / re.reco().c_g_m2() - 1.0).abs();
         assert!(rel < DOPRI_TOL, "respiration differs by {rel:e}");
-        worst_delta =
-            worst_delta.max((rd.d13c_reco_permil().unwrap() - re.d13c_reco_permil().unwrap()).abs());
+        worst_delta = worst_delta
+            .max((rd.d13c_reco_permil().unwrap() - re.d13c_reco_permil().unwrap()).abs());
     }
     for i in 0..4 {
         assert!((sd.pool_c_g_m2(i) / se.pool_c_g_m2(i) - 1.0).abs() < DOPRI_TOL);
     }
-    assert!(worst_delta < DOPRI_TOL * 1000.0, "δR differs by {worst_delta}‰");
+    assert!(
+        worst_delta < DOPRI_TOL * 1000.0,
+        "δR differs by {worst_delta}‰"
+    );
 }
 
 #[test]
@@ -338,21 +359,50 @@ fn invalid_networks_are_errors_naming_the_pool() {
     let cases: Vec<(Vec<PoolSpec>, &str)> = vec![
         (vec![ok("a"), ok("a")], "`a`"),
         (
-            vec![ok("a"), PoolSpec::new("b", 0.0, 0.5, PoolKind::Autotrophic).with_assimilation_share(0.5)],
+            vec![
+                ok("a"),
+                PoolSpec::new("b", 0.0, 0.5, PoolKind::Autotrophic).with_assimilation_share(0.5),
+            ],
             "b.turnover_days",
         ),
         (
-            vec![ok("a"), PoolSpec::new("b", 2e6, 0.5, PoolKind::Autotrophic).with_assimilation_share(0.5)],
+            vec![
+                ok("a"),
+                PoolSpec::new("b", 2e6, 0.5, PoolKind::Autotrophic).with_assimilation_share(0.5),
+            ],
             "b.turnover_days",
         ),
         (
-            vec![ok("a"), PoolSpec::new("b", 1.0, f64::NAN, PoolKind::Autotrophic).with_assimilation_share(0.5)],
+            vec![
+                ok("a"),
+                PoolSpec::new("b", 1.0, f64::NAN, PoolKind::Autotrophic)
+                    .with_assimilation_share(0.5),
+            ],
             "b.respired_fraction",
         ),
-        (vec![ok("a").transfer_to("b", 0.7).transfer_to("b2", 0.0), ok("b")], "`b2`"),
-        (vec![ok("a").transfer_to("a", 0.5), ok("b")], "`a` transfers to itself"),
-        (vec![ok("a"), ok("b").transfer_to("a", 0.6).transfer_to("c", 0.6), ok("c")], "`b`"),
-        (vec![ok("a"), ok("b").with_assimilation_share(0.6)], "sum to 1.1"),
+        (
+            vec![
+                ok("a").transfer_to("b", 0.7).transfer_to("b2", 0.0),
+                ok("b"),
+            ],
+            "`b2`",
+        ),
+        (
+            vec![ok("a").transfer_to("a", 0.5), ok("b")],
+            "`a` transfers to itself",
+        ),
+        (
+            vec![
+                ok("a"),
+                ok("b").transfer_to("a", 0.6).transfer_to("c", 0.6),
+                ok("c"),
+            ],
+            "`b`",
+        ),
+        (
+            vec![ok("a"), ok("b").with_assimilation_share(0.6)],
+            "sum to 1.1",
+        ),
         (
             vec![
                 ok("a"),
@@ -363,7 +413,10 @@ fn invalid_networks_are_errors_naming_the_pool() {
             ],
             "`b`",
         ),
-        (vec![ok("a"), ok("b").with_epsilons(150.0, 0.0)], "b.epsilon_respiration_permil"),
+        (
+            vec![ok("a"), ok("b").with_epsilons(150.0, 0.0)],
+            "b.epsilon_respiration_permil",
+        ),
     ];
     for (specs, needle) in cases {
         let err = PoolNetwork::new(specs).expect_err(needle).to_string();
@@ -387,8 +440,8 @@ fn temperature_responses_match_their_published_forms() {
     assert!((q.moisture_factor(0.5).unwrap() - 0.6).abs() < ARITH_TOL);
     // Lloyd & Taylor (1994): R = R10·exp(E0 (1/(283.15 − T0) − 1/(T − T0))), E0 = 308.56 K,
     // T0 = 227.13 K, written here in kelvin, independently of the °C form in the model.
-    let lt = EnvironmentResponse::new(TemperatureResponse::LloydTaylor { t_ref_c: 10.0 }, 0.2)
-        .unwrap();
+    let lt =
+        EnvironmentResponse::new(TemperatureResponse::LloydTaylor { t_ref_c: 10.0 }, 0.2).unwrap();
     for t_c in [-10.0_f64, 0.0, 10.0, 25.0, 40.0] {
         let tk = t_c + 273.15;
         let want = (308.56 * (1.0 / (283.15 - 227.13) - 1.0 / (tk - 227.13))).exp();
@@ -449,7 +502,8 @@ fn config_builds_a_user_network_and_overrides_by_path() {
     assert_eq!(net.pools()[2].turnover_days, 40.0 * YEAR_DAYS);
     assert!(matches!(settings.method(), Method::Dopri5 { rtol, .. } if rtol == 1e-9));
     cfg.set_param("soil.turnover_years", 50.0).unwrap();
-    cfg.set_param("transport_labile.transfers.wood", 0.1).unwrap();
+    cfg.set_param("transport_labile.transfers.wood", 0.1)
+        .unwrap();
     let (net, _) = cfg.build().unwrap();
     assert_eq!(net.pools()[4].turnover_days, 50.0 * YEAR_DAYS);
     assert!((net.export_fraction(1) - 0.1).abs() < ARITH_TOL);
@@ -461,7 +515,12 @@ fn config_builds_a_user_network_and_overrides_by_path() {
     }
     // Out-of-range values are caught at build, naming the parameter.
     cfg.set_param("soil.respired_fraction", 1.5).unwrap();
-    assert!(cfg.build().unwrap_err().to_string().contains("soil.respired_fraction"));
+    assert!(
+        cfg.build()
+            .unwrap_err()
+            .to_string()
+            .contains("soil.respired_fraction")
+    );
     // Unknown fields are refused; an absent list means the default network, whose CUE is settable.
     assert!(serde_json::from_str::<PoolsConfig>(r#"{"q_10": 2}"#).is_err());
     let mut default_cfg = PoolsConfig::default();
