@@ -60,7 +60,7 @@ impl PoolModel {
         let x = state.c12_g_m2();
         let (mut mat, _) = self.pool_block(env, false);
         let mut m1: Vec<f64> = x.iter().map(|v| -v).collect();
-        solve_in_place(&mut mat, &mut m1, n)?;
+        solve_in_place(&mut mat, n, &mut m1, 1, n, 1)?;
         let ages: Vec<Option<f64>> = (0..n).map(|i| (x[i] > 0.0).then(|| m1[i] / x[i])).collect();
         let r_std = self.settings().r_standard();
         let pools = self

@@ -30,6 +30,8 @@ use crate::error::{ModelError, Result, check_input, check_range};
 pub const DEFAULT_RTOL: f64 = 1e-10;
 /// Default absolute tolerance of Dopri5, gC m⁻² (13C pools are ~1% of 12C, so keep it small).
 pub const DEFAULT_ATOL: f64 = 1e-12;
+/// Number of accumulator states (Ra, Rh, export) at the end of the augmented system.
+const ACCUMULATORS: usize = 3;
 /// Longest accepted step, days (100 years; spin-up uses 1-year steps).
 pub const MAX_STEP_DAYS: f64 = 36_525.0;
 
@@ -319,24 +321,24 @@ impl PoolModel {
         if !hit {
             let m = self.dim();
             let mut a = std::mem::take(&mut self.scratch);
-            let mut e12 = vec![0.0; m * m];
-            self.rate_matrix(env, false, h, &mut a);
-            self.expm.exp(&a, &mut e12)?;
-            let e13 = if self.rates.any_epsilon {
-                let mut e13 = vec![0.0; m * m];
-                self.rate_matrix(env, true, h, &mut a);
-                self.expm.exp(&a, &mut e13)?;
-                e13
-            } else {
-                e12.clone()
-            };
-            self.scratch = a;
-            self.cache = Some(Cache {
+            let mut cache = self.cache.take().unwrap_or_else(|| Cache {
                 step_days: h,
                 env_factor: env,
-                e12,
-                e13,
+                e12: vec![0.0; m * m],
+                e13: vec![0.0; m * m],
             });
+            self.rate_matrix(env, false, h, &mut a);
+            self.expm.exp(&a, ACCUMULATORS, &mut cache.e12)?;
+            if self.rates.any_epsilon {
+                self.rate_matrix(env, true, h, &mut a);
+                self.expm.exp(&a, ACCUMULATORS, &mut cache.e13)?;
+            } else {
+                cache.e13.copy_from_slice(&cache.e12);
+            }
+            cache.step_days = h;
+            cache.env_factor = env;
+            self.scratch = a;
+            self.cache = Some(cache);
         }
         let cache = self.cache.as_ref().expect("filled above");
         let acc12 = apply(&cache.e12, &mut state.c12, in12);
@@ -419,7 +421,7 @@ impl PoolModel {
         for (yi, s) in y.iter_mut().zip(&self.rates.shares) {
             *yi = -s * input;
         }
-        solve_in_place(&mut mat, &mut y, n)?;
+        solve_in_place(&mut mat, n, &mut y, 1, n, 1)?;
         // Round-off can leave −1e-30 in an empty pool; contents are never negative.
         Ok(y.into_iter().map(|v| v.max(0.0)).collect())
     }
