@@ -33,19 +33,17 @@ impl VpdbRatio {
 
     /// 13C/12C ratio of a sample with the given δ13C (‰ vs VPDB).
     pub fn ratio_from_delta(self, d13c_permil: f64) -> f64 {
-        self.0 * (1.0 + d13c_permil / 1000.0)
+        ratio_from_delta(d13c_permil, self.0)
     }
 
     /// δ13C (‰ vs VPDB) of a sample with the given 13C/12C ratio.
     pub fn delta_from_ratio(self, ratio: f64) -> f64 {
-        (ratio / self.0 - 1.0) * 1000.0
+        delta_from_ratio(ratio, self.0)
     }
 
     /// Split a CO2 mole fraction (µmol mol⁻¹) of the given δ13C (‰) into (12CO2, 13CO2), µmol mol⁻¹.
     pub fn split_co2(self, co2_umol_mol: f64, d13c_permil: f64) -> (f64, f64) {
-        let r = self.ratio_from_delta(d13c_permil);
-        let c13 = co2_umol_mol * r / (1.0 + r);
-        (co2_umol_mol - c13, c13)
+        split_isotopes(co2_umol_mol, d13c_permil, self.0)
     }
 }
 
@@ -53,6 +51,24 @@ impl Default for VpdbRatio {
     fn default() -> Self {
         Self(R_VPDB_WERNER_BRAND_2001)
     }
+}
+
+/// 13C/12C ratio of δ13C `d13c_permil` (‰) against a standard of ratio `r_standard`.
+pub fn ratio_from_delta(d13c_permil: f64, r_standard: f64) -> f64 {
+    r_standard * (1.0 + d13c_permil / 1000.0)
+}
+
+/// δ13C (‰) of a 13C/12C ratio against a standard of ratio `r_standard`.
+pub fn delta_from_ratio(ratio: f64, r_standard: f64) -> f64 {
+    (ratio / r_standard - 1.0) * 1000.0
+}
+
+/// Splits a total amount (any unit: µmol mol⁻¹ of CO2, gC m⁻²) of δ13C `d13c_permil` (‰) into its
+/// (12C, 13C) parts: 13C = total·R/(1 + R).
+pub fn split_isotopes(total: f64, d13c_permil: f64, r_standard: f64) -> (f64, f64) {
+    let r = ratio_from_delta(d13c_permil, r_standard);
+    let c13 = total * r / (1.0 + r);
+    (total - c13, c13)
 }
 
 /// Discrimination Δ (‰) of a product with δ13C `d13c_product_permil` against its source with

@@ -30,5 +30,5 @@ pub use diagnostics::{PoolReport, SteadyStateReport};
 pub use integrate::{Method, PoolModel, PoolSettings};
 pub use network::{PoolKind, PoolNetwork, PoolSpec};
 pub use response::{EnvironmentResponse, TemperatureResponse};
-pub use spinup::{AtmosphereHistory, AtmosphereRow, MeanDrivers, product_d13c_permil};
+pub use spinup::{AtmosphereHistory, AtmosphereRow, MeanDrivers};
 pub use state::{Flux, Forcing, PoolState, R_VPDB_DEFAULT, StepResult};

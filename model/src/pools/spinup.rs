@@ -11,6 +11,7 @@ use super::integrate::PoolModel;
 use super::network::DAYS_PER_YEAR;
 use super::state::{Forcing, PoolState};
 use crate::error::{ModelError, Result, check_input, check_range};
+use crate::isotopes::product_delta_permil;
 
 /// One row of an atmospheric history.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -97,12 +98,6 @@ pub struct MeanDrivers {
     pub moisture: f64,
 }
 
-/// δ13C of the product (‰) from the source's δ (‰) and the discrimination Δ (‰):
-/// δp = (δa − Δ)/(1 + Δ/1000) (Farquhar, Ehleringer & Hubick 1989).
-pub fn product_d13c_permil(d13c_source_permil: f64, discrimination_permil: f64) -> f64 {
-    (d13c_source_permil - discrimination_permil) / (1.0 + discrimination_permil / 1000.0)
-}
-
 impl PoolModel {
     /// Spins the pools up through `history` to `start_year` (which must lie within the history's
     /// years) under constant `drivers` and a mean discrimination `mean_discrimination_permil`
@@ -125,7 +120,7 @@ impl PoolModel {
         check_input("start_year", start_year, first, last)?;
         let forcing_at = |year: f64| Forcing {
             assimilation_gc_m2_day: drivers.assimilation_gc_m2_day,
-            d13c_assimilate_permil: product_d13c_permil(history.d13c_at(year), disc),
+            d13c_assimilate_permil: product_delta_permil(history.d13c_at(year), disc),
             t_soil_c: drivers.t_soil_c,
             moisture: drivers.moisture,
         };

@@ -9,24 +9,8 @@
 
 use crate::error::{ModelError, Result, check_input};
 
-/// 13C/12C ratio of the VPDB standard, Werner & Brand (2001, Rapid Commun. Mass Spectrom.).
-pub const R_VPDB_DEFAULT: f64 = 0.011_180_2;
-
-/// δ13C (‰ vs a standard of ratio `r_standard`) of a 13C/12C ratio.
-pub fn ratio_to_delta_permil(ratio: f64, r_standard: f64) -> f64 {
-    (ratio / r_standard - 1.0) * 1000.0
-}
-
-/// 13C/12C ratio of a δ13C value (‰ vs a standard of ratio `r_standard`).
-pub fn delta_to_ratio(d13c_permil: f64, r_standard: f64) -> f64 {
-    r_standard * (1.0 + d13c_permil / 1000.0)
-}
-
-/// Splits a total carbon amount (any unit) of δ13C `d13c_permil` into (12C, 13C) amounts.
-pub fn split_isotopes(total: f64, d13c_permil: f64, r_standard: f64) -> (f64, f64) {
-    let r = delta_to_ratio(d13c_permil, r_standard);
-    (total / (1.0 + r), total * r / (1.0 + r))
-}
+pub use crate::isotopes::R_VPDB_WERNER_BRAND_2001 as R_VPDB_DEFAULT;
+use crate::isotopes::{delta_from_ratio as ratio_to_delta_permil, split_isotopes};
 
 /// The 12C and 13C content of every pool, gC m⁻² of ground (atom-counted), in network order.
 #[derive(Debug, Clone, PartialEq)]

@@ -3,10 +3,11 @@
 //! the comments; the ratio arithmetic uses R_VPDB = 0.0111802 (Werner & Brand 2001).
 
 use isodisc_model::ModelError;
+use isodisc_model::isotopes::product_delta_permil;
 use isodisc_model::pools::{
     AtmosphereHistory, AtmosphereRow, EnvironmentResponse, Forcing, MeanDrivers, Method, PoolKind,
     PoolModel, PoolNetwork, PoolSettings, PoolSpec, PoolState, PoolsConfig, R_VPDB_DEFAULT,
-    StepResult, TemperatureResponse, product_d13c_permil,
+    StepResult, TemperatureResponse,
 };
 use proptest::prelude::*;
 
@@ -290,7 +291,7 @@ fn spin_up_through_a_linear_history_carries_the_older_atmosphere() {
     let state = m
         .spin_up_with_history(&history, disc, &drivers, 2020.0)
         .unwrap();
-    let dp_now = product_d13c_permil(history.d13c_at(2020.0), disc);
+    let dp_now = product_delta_permil(history.d13c_at(2020.0), disc);
     let want = -rate / (1.0 + disc / 1000.0) * tau_y;
     let got = state.pool_d13c_permil(0, R).unwrap() - dp_now;
     // Total (not 12C) input is fixed here, so the 12C stock drifts by ~1e-5 relative: 1e-4‰.
