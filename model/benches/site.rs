@@ -1,11 +1,14 @@
-//! One year of hourly steps of a two-pathway site (canopy, bucket) like the demo's.
-//! Target (issue: site runs): ≤ 20 ms of model time per site-year on one core.
+//! One year of hourly steps of a two-pathway site (canopy, bucket) like the demo's, without and
+//! with the four carbon/13C pools.
+//! Targets: ≤ 20 ms of model time per site-year on one core (issue: site runs); ≤ 40 ms with the
+//! pools (issue: respiration lag).
 
 use criterion::{Criterion, criterion_group, criterion_main};
 use isodisc_model::canopy::assimilation::CanopySettings;
 use isodisc_model::canopy::radiation::TwoLeafCanopy;
 use isodisc_model::canopy::solar::Location;
 use isodisc_model::leaf::{LeafModel, LeafOptions, Pathway};
+use isodisc_model::pools::{Forcing, PoolModel, PoolsConfig};
 use isodisc_model::site::{SiteDrivers, SiteModel, SiteSettings, SoilWater, Vegetation};
 use isodisc_model::water::bucket::{Bucket, BucketParams, InitialWater};
 use isodisc_model::water::evaporation::PriestleyTaylor;
@@ -82,9 +85,48 @@ fn site_year(c: &mut Criterion) {
     });
 }
 
+fn site_year_with_pools(c: &mut Criterion) {
+    let drivers = year();
+    let s = settings();
+    let (network, pool_settings) = PoolsConfig::default().build().unwrap();
+    c.bench_function("site_year_hourly_two_pathways_with_pools", |b| {
+        b.iter(|| {
+            let mut m = SiteModel::new(s.clone()).unwrap();
+            let mut pools = PoolModel::new(network.clone(), pool_settings.clone());
+            let mean = Forcing {
+                assimilation_gc_m2_day: 6.0,
+                d13c_assimilate_permil: -20.0,
+                t_soil_c: 21.0,
+                moisture: 1.0,
+            };
+            let mut state = pools.steady_state(&mean).unwrap();
+            let mut reco = 0.0;
+            for d in &drivers {
+                let step = m.step(black_box(d)).unwrap();
+                let f = Forcing {
+                    assimilation_gc_m2_day: step.gpp_umol_m2_s * 86_400.0 * 12.011e-6,
+                    d13c_assimilate_permil: if step.d13c_assimilate_permil.is_finite() {
+                        step.d13c_assimilate_permil
+                    } else {
+                        -20.0
+                    },
+                    t_soil_c: d.t_air_c,
+                    moisture: step.beta,
+                };
+                reco += pools
+                    .step(&mut state, &f, 1.0 / 24.0)
+                    .unwrap()
+                    .reco()
+                    .c_g_m2();
+            }
+            reco
+        })
+    });
+}
+
 criterion_group! {
     name = benches;
     config = Criterion::default().sample_size(20);
-    targets = site_year
+    targets = site_year, site_year_with_pools
 }
 criterion_main!(benches);
