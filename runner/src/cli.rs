@@ -248,6 +248,9 @@ pub struct CompareArgs {
     /// Output format (table or json).
     #[arg(long, value_enum, default_value = "table")]
     pub format: Format,
+    /// Write to this file (atomically) instead of standard output.
+    #[arg(long, value_name = "FILE")]
+    pub out: Option<PathBuf>,
 }
 
 /// `isodisc plot`.

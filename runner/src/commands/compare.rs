@@ -14,7 +14,7 @@ use serde_json::json;
 use crate::cli::{CompareArgs, Format, MatchArg};
 use crate::error::{Context, Error, Result};
 use crate::forcing::time::LocalTime;
-use crate::output::json_num;
+use crate::output::{AtomicFile, json_num};
 
 /// A whole CSV file held in memory (run outputs and observation files are small), with lookups by
 /// column name whose errors list the known columns.
@@ -200,6 +200,7 @@ pub struct ComparePlan {
     lags: Option<LagSettings>,
     driver: String,
     format: Format,
+    out: Option<PathBuf>,
 }
 
 /// What `isodisc compare` found.
@@ -238,6 +239,7 @@ impl ComparePlan {
             lags,
             driver: args.driver.clone(),
             format: args.format,
+            out: args.out.clone(),
         })
     }
 
@@ -271,20 +273,34 @@ impl ComparePlan {
         Ok(Comparison { scores, lags })
     }
 
-    /// Compares and prints.
+    /// Compares and prints (or writes `--out`).
     pub fn run(&self) -> Result<()> {
         let c = self.compare()?;
-        let stdout = io::stdout();
-        let mut w = stdout.lock();
+        match &self.out {
+            Some(path) => {
+                let mut f = AtomicFile::create(path)?;
+                self.write(f.writer(), &c)?;
+                f.commit()
+            }
+            None => {
+                let stdout = io::stdout();
+                let mut w = stdout.lock();
+                self.write(&mut w, &c)?;
+                w.flush()?;
+                Ok(())
+            }
+        }
+    }
+
+    fn write(&self, w: &mut dyn Write, c: &Comparison) -> Result<()> {
         match self.format {
             Format::Json => {
-                serde_json::to_writer_pretty(&mut w, &self.json(&c))?;
+                serde_json::to_writer_pretty(&mut *w, &self.json(c))?;
                 writeln!(w)?;
+                Ok(())
             }
-            _ => self.table(&mut w, &c)?,
+            _ => self.table(w, c),
         }
-        w.flush()?;
-        Ok(())
     }
 
     fn json(&self, c: &Comparison) -> serde_json::Value {
