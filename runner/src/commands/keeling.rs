@@ -186,7 +186,7 @@ impl KeelingPlan {
         };
         let background = match (args.background_co2, args.background_d13c) {
             (Some(c), Some(d)) => {
-                if !(c.is_finite() && c > 0.0) || !d.is_finite() {
+                if !(c.is_finite() && c > 0.0 && d.is_finite()) {
                     return Err(Error::msg(format!(
                         "--background-co2 {c} --background-d13c {d}: CO2 must be > 0 µmol mol⁻¹ \
                          and δ13C finite"

@@ -307,26 +307,28 @@ fn keeling_figures(
     }
     // Samples join a group by the `group` column when it names the group, else by the group's
     // time span (night and window groups).
-    let mut points: HashMap<&str, Vec<(f64, f64)>> = HashMap::new();
+    let mut by_name: HashMap<&str, Vec<(f64, f64)>> = HashMap::new();
+    let mut by_time: HashMap<&str, Vec<(f64, f64)>> = HashMap::new();
     SampleReader::open(samples)?.for_each(|s| {
         let name = std::str::from_utf8(s.group).unwrap_or("");
         for g in groups {
-            let by_name = name == g;
             let (a, b) = span[g.as_str()];
-            if by_name
-                || (name.is_empty() || !span.contains_key(name)) && s.time >= a && s.time <= b
-            {
-                points
-                    .entry(g.as_str())
-                    .or_default()
-                    .push((1.0 / s.co2, s.d13c));
+            let point = (1.0 / s.co2, s.d13c);
+            if name == g {
+                by_name.entry(g.as_str()).or_default().push(point);
+            }
+            if s.time >= a && s.time <= b {
+                by_time.entry(g.as_str()).or_default().push(point);
             }
         }
         Ok(())
     })?;
     let mut out = Vec::new();
     for g in groups {
-        let pts = points.remove(g.as_str()).unwrap_or_default();
+        let pts = by_name
+            .remove(g.as_str())
+            .or_else(|| by_time.remove(g.as_str()))
+            .unwrap_or_default();
         let x_max = pts.iter().map(|p| p.0).fold(0.0, f64::max) * 1.05;
         let mut series = vec![Series {
             label: "samples".to_string(),
@@ -599,7 +601,7 @@ fn legend_line<DB: DrawingBackend>(
     let ends = vec![(x, y), (x + 30, y)];
     match dash {
         None => PathElement::new(ends, style).into_dyn(),
-        Some((on, off)) => DashedPathElement::new(ends.into_iter(), on, off, style).into_dyn(),
+        Some((on, off)) => DashedPathElement::new(ends, on, off, style).into_dyn(),
     }
 }
 

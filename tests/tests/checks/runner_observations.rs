@@ -629,6 +629,10 @@ fn plot_writes_svg_figures_with_their_axis_labels() {
             );
         }
     }
+    // Group A's figure has its own 6 samples plus the legend's marker, not B's samples taken at
+    // the same times.
+    let keeling_a = fs::read_to_string(figs.join("keeling_A.svg")).unwrap();
+    assert_eq!(keeling_a.matches("<circle").count(), 7);
     // No temporary files left behind by the atomic writes.
     let names: Vec<PathBuf> = fs::read_dir(&figs)
         .unwrap()
