@@ -167,7 +167,7 @@ pub enum ByArg {
     Group,
     /// Nights: sunset to sunrise (--site) or fixed local hours (--night-hours).
     Night,
-    /// Fixed windows of --window length, aligned to local midnight.
+    /// Fixed windows of --window length, counted from 1970-01-01T00:00 local time.
     Window,
 }
 
