@@ -209,11 +209,7 @@ impl<'a> KeelingData<'a> {
 
     /// Adds per-sample standard deviations of CO2 (µmol mol⁻¹) and δ13C (‰), each > 0; York
     /// regression needs them.
-    pub fn with_sd(
-        mut self,
-        co2_sd_umol_mol: &'a [f64],
-        d13c_sd_permil: &'a [f64],
-    ) -> Result<Self> {
+    pub fn with_sd(mut self, co2_sd_umol_mol: &'a [f64], d13c_sd_permil: &'a [f64]) -> Result<Self> {
         check_same_length("co2_umol_mol", self.co2, "co2_sd_umol_mol", co2_sd_umol_mol)?;
         check_same_length("d13c_permil", self.d13c, "d13c_sd_permil", d13c_sd_permil)?;
         check_positive_series("co2_sd_umol_mol", co2_sd_umol_mol)?;
@@ -224,12 +220,7 @@ impl<'a> KeelingData<'a> {
 
     /// Adds a constant background: CO2 (µmol mol⁻¹, > 0) and δ13C (‰), for Miller–Tans.
     pub fn with_background(mut self, co2_bg_umol_mol: f64, d13c_bg_permil: f64) -> Result<Self> {
-        check_input(
-            "co2_bg_umol_mol",
-            co2_bg_umol_mol,
-            f64::MIN_POSITIVE,
-            f64::MAX,
-        )?;
+        check_input("co2_bg_umol_mol", co2_bg_umol_mol, f64::MIN_POSITIVE, f64::MAX)?;
         check_input("d13c_bg_permil", d13c_bg_permil, f64::MIN, f64::MAX)?;
         self.background = Background::Constant {
             co2: co2_bg_umol_mol,

@@ -18,9 +18,7 @@ pub mod regression;
 pub mod scores;
 pub mod stats;
 
-pub use keeling::{
-    Bootstrap, KeelingData, KeelingFit, KeelingFlags, KeelingMethod, KeelingSettings,
-};
+pub use keeling::{Bootstrap, KeelingData, KeelingFit, KeelingFlags, KeelingMethod, KeelingSettings};
 pub use lag::{BestLagRule, LagAnalysis, LagCorrelation, LagSettings, lag_analysis};
 pub use regression::{LineFit, YorkFit, YorkSettings};
 pub use scores::{Scores, scores};

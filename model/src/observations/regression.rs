@@ -294,10 +294,7 @@ pub(crate) fn york_view(
     // βᵢ = Wᵢ(Uᵢσyᵢ² + b·Vᵢσxᵢ²), the adjustment of xᵢ towards the line.
     let beta = |p: &Point, b: f64, xm: f64, ym: f64| {
         let w = 1.0 / (p.sy * p.sy + b * b * p.sx * p.sx);
-        (
-            w,
-            w * ((p.x - xm) * p.sy * p.sy + b * (p.y - ym) * p.sx * p.sx),
-        )
+        (w, w * ((p.x - xm) * p.sy * p.sy + b * (p.y - ym) * p.sx * p.sx))
     };
 
     let mut b = start.slope;

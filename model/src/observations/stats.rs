@@ -119,7 +119,12 @@ where
 }
 
 /// Errors unless two paired slices have the same length.
-pub(crate) fn check_same_length(name_a: &str, a: &[f64], name_b: &str, b: &[f64]) -> Result<()> {
+pub(crate) fn check_same_length(
+    name_a: &str,
+    a: &[f64],
+    name_b: &str,
+    b: &[f64],
+) -> Result<()> {
     if a.len() == b.len() {
         Ok(())
     } else {

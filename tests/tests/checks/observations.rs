@@ -29,23 +29,15 @@ const ALL_METHODS: [KeelingMethod; 4] = [
 
 fn assert_rel(what: &str, got: f64, want: f64, rel: f64) {
     let err = (got - want).abs() / want.abs().max(1e-300);
-    assert!(
-        err <= rel,
-        "{what}: got {got}, want {want} (relative error {err:e} > {rel:e})"
-    );
+    assert!(err <= rel, "{what}: got {got}, want {want} (relative error {err:e} > {rel:e})");
 }
 
 fn assert_abs(what: &str, got: f64, want: f64, tol: f64) {
-    assert!(
-        (got - want).abs() <= tol,
-        "{what}: got {got}, want {want} (tolerance {tol:e})"
-    );
+    assert!((got - want).abs() <= tol, "{what}: got {got}, want {want} (tolerance {tol:e})");
 }
 
 fn fixture(name: &str) -> csv::Reader<std::fs::File> {
-    let path = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-        .join("fixtures")
-        .join(name);
+    let path = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("fixtures").join(name);
     csv::ReaderBuilder::new()
         .comment(Some(b'#'))
         .from_path(&path)
@@ -97,10 +89,7 @@ fn keeling_exact_mixture_every_method_returns_the_source() {
     let (co2, d13c) = mixture(&[0.0, 10.0, 25.0, 50.0, 100.0, 200.0]);
     let co2_sd = vec![0.2; co2.len()];
     let d13c_sd = vec![0.03; co2.len()];
-    let plain = KeelingData::new(&co2, &d13c)
-        .unwrap()
-        .with_sd(&co2_sd, &d13c_sd)
-        .unwrap();
+    let plain = KeelingData::new(&co2, &d13c).unwrap().with_sd(&co2_sd, &d13c_sd).unwrap();
     let with_bg = plain.with_background(400.0, -8.5).unwrap();
     let settings = KeelingSettings::default();
     for data in [plain, with_bg] {
@@ -109,12 +98,7 @@ fn keeling_exact_mixture_every_method_returns_the_source() {
             assert_abs(method.name(), fit.source_d13c_permil, -26.0, EXACT);
             assert_eq!(fit.n, 6);
             assert_abs("co2 range", fit.co2_range_umol_mol, 200.0, EXACT);
-            assert!(
-                fit.flags.is_empty(),
-                "{}: flags {:?}",
-                method.name(),
-                fit.flags
-            );
+            assert!(fit.flags.is_empty(), "{}: flags {:?}", method.name(), fit.flags);
             assert!(fit.ci95_low_permil <= -26.0 + EXACT && fit.ci95_high_permil >= -26.0 - EXACT);
         }
     }
@@ -134,34 +118,14 @@ fn keeling_ols_matches_scipy_linregress() {
             .fit(KeelingMethod::Ols, &KeelingSettings::default())
             .unwrap();
         assert_eq!(fit.n as f64, r["n"]);
-        assert_rel(
-            "ols intercept",
-            fit.source_d13c_permil,
-            r["ols_intercept"],
-            SCIPY_REL,
-        );
-        assert_rel(
-            "ols intercept se",
-            fit.source_se_permil,
-            r["ols_intercept_se"],
-            SCIPY_REL,
-        );
+        assert_rel("ols intercept", fit.source_d13c_permil, r["ols_intercept"], SCIPY_REL);
+        assert_rel("ols intercept se", fit.source_se_permil, r["ols_intercept_se"], SCIPY_REL);
         assert_rel("ols slope", fit.slope, r["ols_slope"], SCIPY_REL);
         assert_rel("ols slope se", fit.slope_se, r["ols_slope_se"], SCIPY_REL);
         assert_rel("ols r2", fit.r2, r["ols_r2"], SCIPY_REL);
         let half = fit.ci95_high_permil - fit.source_d13c_permil;
-        assert_rel(
-            "ci95 half-width",
-            half,
-            r["t975"] * r["ols_intercept_se"],
-            SCIPY_REL,
-        );
-        assert_rel(
-            "ci95 symmetric",
-            fit.source_d13c_permil - fit.ci95_low_permil,
-            half,
-            SCIPY_REL,
-        );
+        assert_rel("ci95 half-width", half, r["t975"] * r["ols_intercept_se"], SCIPY_REL);
+        assert_rel("ci95 symmetric", fit.source_d13c_permil - fit.ci95_low_permil, half, SCIPY_REL);
     }
 }
 
@@ -177,26 +141,11 @@ fn keeling_gmr_matches_scipy_odr_and_documented_se() {
             .unwrap()
             .fit(KeelingMethod::GeometricMean, &KeelingSettings::default())
             .unwrap();
-        assert_rel(
-            "gmr intercept (odr)",
-            fit.source_d13c_permil,
-            r["gmr_intercept_odr"],
-            ODR_REL,
-        );
+        assert_rel("gmr intercept (odr)", fit.source_d13c_permil, r["gmr_intercept_odr"], ODR_REL);
         assert_rel("gmr slope (odr)", fit.slope, r["gmr_slope_odr"], ODR_REL);
-        assert_rel(
-            "gmr intercept",
-            fit.source_d13c_permil,
-            r["gmr_intercept"],
-            SCIPY_REL,
-        );
+        assert_rel("gmr intercept", fit.source_d13c_permil, r["gmr_intercept"], SCIPY_REL);
         assert_rel("gmr slope", fit.slope, r["gmr_slope"], SCIPY_REL);
-        assert_rel(
-            "gmr intercept se",
-            fit.source_se_permil,
-            r["gmr_intercept_se"],
-            SCIPY_REL,
-        );
+        assert_rel("gmr intercept se", fit.source_se_permil, r["gmr_intercept_se"], SCIPY_REL);
         assert_rel("gmr slope se", fit.slope_se, r["gmr_slope_se"], SCIPY_REL);
     }
 }
@@ -207,9 +156,7 @@ fn york_reproduces_pearson_data_with_york_weights() {
     // a = 5.4799 ± 0.2950, b = −0.48053 ± 0.05799 (from memory).
     let x = [0.0, 0.9, 1.8, 2.6, 3.3, 4.4, 5.2, 6.1, 6.5, 7.4];
     let y = [5.9, 5.4, 4.4, 4.6, 3.5, 3.7, 2.8, 2.8, 2.4, 1.5];
-    let wx = [
-        1000.0, 1000.0, 500.0, 800.0, 200.0, 80.0, 60.0, 20.0, 1.8, 1.0,
-    ];
+    let wx = [1000.0, 1000.0, 500.0, 800.0, 200.0, 80.0, 60.0, 20.0, 1.8, 1.0];
     let wy = [1.0, 1.8, 4.0, 8.0, 20.0, 20.0, 70.0, 70.0, 100.0, 500.0];
     let sx: Vec<f64> = wx.iter().map(|w: &f64| 1.0 / w.sqrt()).collect();
     let sy: Vec<f64> = wy.iter().map(|w: &f64| 1.0 / w.sqrt()).collect();
@@ -236,12 +183,7 @@ fn york_with_negligible_x_errors_is_ols() {
             .unwrap()
             .fit(KeelingMethod::York, &KeelingSettings::default())
             .unwrap();
-        assert_rel(
-            "york→ols intercept",
-            fit.source_d13c_permil,
-            r["ols_intercept"],
-            1e-7,
-        );
+        assert_rel("york→ols intercept", fit.source_d13c_permil, r["ols_intercept"], 1e-7);
         assert_rel("york→ols slope", fit.slope, r["ols_slope"], 1e-7);
     }
 }
@@ -269,11 +211,7 @@ fn miller_tans_recovers_source_under_drifting_background() {
     // The same samples through a Keeling plot are biased by the drift: this is why the
     // background matters, and it shows the check above can fail.
     let ols = data.fit(KeelingMethod::Ols, &settings).unwrap();
-    assert!(
-        (ols.source_d13c_permil + 26.0).abs() > 0.1,
-        "{}",
-        ols.source_d13c_permil
-    );
+    assert!((ols.source_d13c_permil + 26.0).abs() > 0.1, "{}", ols.source_d13c_permil);
 }
 
 #[test]
@@ -314,10 +252,7 @@ fn non_positive_or_missing_co2_is_an_error_naming_index_and_value() {
     assert!(KeelingData::new(&[400.0, 410.0], &[-8.5]).is_err());
     let (co2, d13c) = mixture(&[0.0, 50.0, 100.0]);
     let data = KeelingData::new(&co2, &d13c).unwrap();
-    assert!(
-        data.fit(KeelingMethod::York, &KeelingSettings::default())
-            .is_err()
-    );
+    assert!(data.fit(KeelingMethod::York, &KeelingSettings::default()).is_err());
 }
 
 #[test]
@@ -325,18 +260,12 @@ fn small_co2_range_is_flagged_at_the_set_threshold() {
     // Threshold 40 µmol mol⁻¹ by default (common practice, SCIENCE.md §7).
     let (co2, d13c) = mixture(&[0.0, 10.0, 20.0, 30.0]);
     let data = KeelingData::new(&co2, &d13c).unwrap();
-    let default = data
-        .fit(KeelingMethod::Ols, &KeelingSettings::default())
-        .unwrap();
+    let default = data.fit(KeelingMethod::Ols, &KeelingSettings::default()).unwrap();
     assert!(default.flags.contains(KeelingFlags::SMALL_CO2_RANGE));
     let loose = KeelingSettings::default().with_min_co2_range(25.0).unwrap();
     let fit = data.fit(KeelingMethod::Ols, &loose).unwrap();
     assert!(!fit.flags.contains(KeelingFlags::SMALL_CO2_RANGE));
-    assert!(
-        KeelingSettings::default()
-            .with_min_co2_range(f64::NAN)
-            .is_err()
-    );
+    assert!(KeelingSettings::default().with_min_co2_range(f64::NAN).is_err());
 }
 
 #[test]
@@ -352,30 +281,16 @@ fn a_dominating_sample_is_flagged() {
     let settings = KeelingSettings::default();
     let sd = vec![0.1; 13];
     for method in ALL_METHODS {
-        let clean = KeelingData::new(&co2, &d13c)
-            .unwrap()
-            .with_sd(&sd[..12], &sd[..12])
-            .unwrap();
+        let clean = KeelingData::new(&co2, &d13c).unwrap().with_sd(&sd[..12], &sd[..12]).unwrap();
         let fit = clean.fit(method, &settings).unwrap();
-        assert!(
-            !fit.flags.contains(KeelingFlags::INFLUENTIAL_POINT),
-            "{}",
-            method.name()
-        );
+        assert!(!fit.flags.contains(KeelingFlags::INFLUENTIAL_POINT), "{}", method.name());
     }
     co2.push(402.0);
     d13c.push((400.0 * -8.5 + 2.0 * -26.0) / 402.0 + 1.5);
     for method in ALL_METHODS {
-        let bad = KeelingData::new(&co2, &d13c)
-            .unwrap()
-            .with_sd(&sd, &sd)
-            .unwrap();
+        let bad = KeelingData::new(&co2, &d13c).unwrap().with_sd(&sd, &sd).unwrap();
         let fit = bad.fit(method, &settings).unwrap();
-        assert!(
-            fit.flags.contains(KeelingFlags::INFLUENTIAL_POINT),
-            "{}",
-            method.name()
-        );
+        assert!(fit.flags.contains(KeelingFlags::INFLUENTIAL_POINT), "{}", method.name());
         assert!(fit.flags.names().any(|n| n == "influential_point"));
     }
 }
@@ -391,16 +306,9 @@ fn bootstrap_se_is_seeded_and_near_the_analytic_se() {
     for method in [KeelingMethod::Ols, KeelingMethod::GeometricMean] {
         let a = data.fit(method, &settings).unwrap();
         let b = data.fit(method, &settings).unwrap();
-        assert_eq!(
-            a.bootstrap_se_permil, b.bootstrap_se_permil,
-            "same seed, same answer"
-        );
+        assert_eq!(a.bootstrap_se_permil, b.bootstrap_se_permil, "same seed, same answer");
         let ratio = a.bootstrap_se_permil / a.source_se_permil;
-        assert!(
-            (1.0 / 1.5..1.5).contains(&ratio),
-            "{}: ratio {ratio}",
-            method.name()
-        );
+        assert!((1.0 / 1.5..1.5).contains(&ratio), "{}: ratio {ratio}", method.name());
     }
     let other = KeelingSettings::default().with_bootstrap(Bootstrap::new(2000, 8).unwrap());
     let (a, b) = (
@@ -464,9 +372,7 @@ fn white_series(n: usize, seed: u64) -> Vec<f64> {
     let mut s = seed;
     (0..n)
         .map(|_| {
-            s = s
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
+            s = s.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
             (s >> 11) as f64 / (1u64 << 53) as f64 * 2.0 - 1.0
         })
         .collect()
@@ -479,13 +385,7 @@ fn lag_analysis_finds_a_planted_lag() {
     let driver = white_series(days, 1);
     let noise = white_series(days, 2);
     let obs: Vec<f64> = (0..days)
-        .map(|d| {
-            if d < 4 {
-                f64::NAN
-            } else {
-                -driver[d - 4] + 0.1 * noise[d]
-            }
-        })
+        .map(|d| if d < 4 { f64::NAN } else { -driver[d - 4] + 0.1 * noise[d] })
         .collect();
     let settings = LagSettings::new(10, 1).unwrap();
     let lag = lag_analysis(&obs, &driver, &settings);
@@ -495,24 +395,11 @@ fn lag_analysis_finds_a_planted_lag() {
     assert!(best.r < -0.98 && best.p_value < 1e-10, "{best:?}");
     assert_eq!(best.n, days - 4);
     // The other lags are noise: |r| well below the planted one.
-    assert!(
-        lag.lags
-            .iter()
-            .filter(|l| l.lag_days != 4)
-            .all(|l| l.r.abs() < 0.3)
-    );
+    assert!(lag.lags.iter().filter(|l| l.lag_days != 4).all(|l| l.r.abs() < 0.3));
     // Sign-aware rules: the most negative r is the planted lag, the most positive is not.
-    let neg = lag_analysis(
-        &obs,
-        &driver,
-        &settings.with_rule(BestLagRule::MostNegative),
-    );
+    let neg = lag_analysis(&obs, &driver, &settings.with_rule(BestLagRule::MostNegative));
     assert_eq!(neg.best_lag_days, Some(4));
-    let pos = lag_analysis(
-        &obs,
-        &driver,
-        &settings.with_rule(BestLagRule::MostPositive),
-    );
+    let pos = lag_analysis(&obs, &driver, &settings.with_rule(BestLagRule::MostPositive));
     assert_ne!(pos.best_lag_days, Some(4));
 }
 
@@ -523,13 +410,7 @@ fn lag_analysis_window_mean_and_missing_days() {
     let days = 120;
     let mut driver = white_series(days, 3);
     let obs: Vec<f64> = (0..days)
-        .map(|d| {
-            if d < 4 {
-                f64::NAN
-            } else {
-                (driver[d - 4] + driver[d - 3] + driver[d - 2]) / 3.0
-            }
-        })
+        .map(|d| if d < 4 { f64::NAN } else { (driver[d - 4] + driver[d - 3] + driver[d - 2]) / 3.0 })
         .collect();
     let settings = LagSettings::new(6, 3).unwrap();
     let lag = lag_analysis(&obs, &driver, &settings);
