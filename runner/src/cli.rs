@@ -21,6 +21,12 @@ pub enum Command {
     Leaf(LeafArgs),
     /// A site from its weather file: flux-weighted discrimination step by step and aggregated.
     Run(RunArgs),
+    /// Source δ13C from canopy-air samples: Keeling and Miller–Tans fits per group.
+    Keeling(KeelingArgs),
+    /// Scores (and lags) of a run's predictions against observations.
+    Compare(CompareArgs),
+    /// SVG figures from a run folder (and Keeling fits, observations).
+    Plot(PlotArgs),
 }
 
 /// `isodisc run`.
@@ -152,4 +158,122 @@ pub struct LeafArgs {
     /// Write to this file (atomically) instead of standard output.
     #[arg(long, value_name = "FILE")]
     pub output: Option<PathBuf>,
+}
+
+/// How `isodisc keeling` groups samples.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum ByArg {
+    /// The `group` column.
+    Group,
+    /// Nights: sunset to sunrise (--site) or fixed local hours (--night-hours).
+    Night,
+    /// Fixed windows of --window length, counted from 1970-01-01T00:00 local time.
+    Window,
+}
+
+/// `isodisc keeling`.
+#[derive(Debug, clap::Args)]
+pub struct KeelingArgs {
+    /// Samples: columns time, co2 (µmol mol⁻¹), d13c (‰); optional group, co2_sd, d13c_sd, co2_bg,
+    /// d13c_bg.
+    pub samples: PathBuf,
+    /// Grouping [default: the group column when present, else one group].
+    #[arg(long, value_enum)]
+    pub by: Option<ByArg>,
+    /// Site file whose [site] latitude, longitude and utc_offset_h give sunset and sunrise.
+    #[arg(long, value_name = "SITE.toml")]
+    pub site: Option<PathBuf>,
+    /// Night as local hours START-END, e.g. 19-6 (instead of --site).
+    #[arg(long, value_name = "START-END", conflicts_with = "site")]
+    pub night_hours: Option<String>,
+    /// Window length for --by window: a number and m, h or d (30m, 6h, 1d).
+    #[arg(long)]
+    pub window: Option<String>,
+    /// Background CO2 (µmol mol⁻¹) for Miller–Tans; overrides a co2_bg column.
+    #[arg(long, requires = "background_d13c")]
+    pub background_co2: Option<f64>,
+    /// Background δ13C (‰) for Miller–Tans; overrides a d13c_bg column.
+    #[arg(long, requires = "background_co2", allow_negative_numbers = true)]
+    pub background_d13c: Option<f64>,
+    /// Bootstrap resamples per fit (10 or more) for a bootstrap SE.
+    #[arg(long, value_name = "N")]
+    pub bootstrap: Option<usize>,
+    /// Seed of the bootstrap.
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+    /// Groups with a smaller CO2 range (µmol mol⁻¹) are flagged small_co2_range.
+    #[arg(long, default_value_t = 40.0)]
+    pub min_co2_range: f64,
+    /// Write CSV here (atomically) instead of a table on standard output.
+    #[arg(long, value_name = "FILE.csv")]
+    pub out: Option<PathBuf>,
+}
+
+/// How `isodisc compare` pairs predictions with observations.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum MatchArg {
+    /// Daily predictions (`period` = YYYY-MM-DD) with the day's mean observation.
+    Daily,
+    /// Step predictions (`time`) with observations at exactly the same timestamp.
+    Step,
+}
+
+/// `isodisc compare`.
+#[derive(Debug, clap::Args)]
+pub struct CompareArgs {
+    /// A run's daily.csv or steps.csv.
+    #[arg(long, value_name = "FILE.csv")]
+    pub predicted: PathBuf,
+    /// Observations: a time (or date) column and the variable's column.
+    #[arg(long, value_name = "FILE.csv")]
+    pub observed: PathBuf,
+    /// The predicted column to score, e.g. d13c_respiration.
+    #[arg(long, value_name = "NAME")]
+    pub variable: String,
+    /// The observed file's column [default: the --variable name].
+    #[arg(long, value_name = "NAME")]
+    pub observed_column: Option<String>,
+    /// Pairing of predictions and observations.
+    #[arg(long = "match", value_enum, default_value = "daily")]
+    pub match_by: MatchArg,
+    /// Also correlate the observations with the driver lagged by 0..=K days.
+    #[arg(long, value_name = "K")]
+    pub lags: Option<usize>,
+    /// Days averaged in the driver, ending k days before the observation.
+    #[arg(long, default_value_t = 1, requires = "lags")]
+    pub window: usize,
+    /// Predicted column used as the lag driver.
+    #[arg(long, default_value = "discrimination", requires = "lags")]
+    pub driver: String,
+    /// Output format (table or json).
+    #[arg(long, value_enum, default_value = "table")]
+    pub format: Format,
+    /// Write to this file (atomically) instead of standard output.
+    #[arg(long, value_name = "FILE")]
+    pub out: Option<PathBuf>,
+}
+
+/// `isodisc plot`.
+#[derive(Debug, clap::Args)]
+pub struct PlotArgs {
+    /// A run's results folder (daily.csv; quantiles_monthly.csv if an ensemble wrote one).
+    pub dir: PathBuf,
+    /// Folder for the SVG figures [default: DIR/figures].
+    #[arg(long, value_name = "FIGDIR")]
+    pub out: Option<PathBuf>,
+    /// Keeling fits written by `isodisc keeling --out`.
+    #[arg(long, value_name = "FILE.csv", requires_all = ["samples", "groups"])]
+    pub keeling: Option<PathBuf>,
+    /// The samples those fits were made from.
+    #[arg(long, value_name = "SAMPLES.csv", requires = "keeling")]
+    pub samples: Option<PathBuf>,
+    /// Groups to draw Keeling plots of, comma-separated.
+    #[arg(long, value_delimiter = ',', requires = "keeling")]
+    pub groups: Vec<String>,
+    /// Observed δ13C of respiration: a time (or date) column and --observed-column.
+    #[arg(long, value_name = "FILE.csv")]
+    pub observed: Option<PathBuf>,
+    /// Column of the observed file.
+    #[arg(long, default_value = "d13c_respiration", requires = "observed")]
+    pub observed_column: String,
 }

@@ -7,4 +7,5 @@ mod observations;
 mod pools;
 mod runner_forcing;
 mod runner_leaf;
+mod runner_observations;
 mod runner_run;

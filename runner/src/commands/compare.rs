@@ -1,0 +1,383 @@
+//! `isodisc compare`: a run's predictions against observations — n, bias, MAE, RMSE, Pearson r,
+//! r² and the Nash–Sutcliffe efficiency (Nash & Sutcliffe 1970) on matched days or steps — and,
+//! with `--lags`, the correlation of the observations with a predicted driver averaged over a
+//! window ending k days earlier (SCIENCE.md §7). The statistics are the model's
+//! (`isodisc_model::observations`); this module only reads, matches and prints.
+
+use std::collections::BTreeMap;
+use std::io::{self, Write};
+use std::path::{Path, PathBuf};
+
+use isodisc_model::observations::{LagAnalysis, LagSettings, Scores, lag_analysis, scores};
+use serde_json::json;
+
+use crate::cli::{CompareArgs, Format, MatchArg};
+use crate::error::{Context, Error, Result};
+use crate::forcing::time::LocalTime;
+use crate::output::{AtomicFile, json_num};
+
+/// A whole CSV file held in memory (run outputs and observation files are small), with lookups by
+/// column name whose errors list the known columns.
+pub(crate) struct CsvTable {
+    path: PathBuf,
+    header: Vec<String>,
+    rows: Vec<csv::StringRecord>,
+}
+
+impl CsvTable {
+    /// Reads `path` (cells trimmed).
+    pub(crate) fn read(path: &Path) -> Result<Self> {
+        let mut rdr = csv::ReaderBuilder::new()
+            .trim(csv::Trim::All)
+            .from_path(path)
+            .with_context(|| format!("cannot open {}", path.display()))?;
+        let header = rdr
+            .headers()
+            .with_context(|| format!("cannot read the header of {}", path.display()))?
+            .iter()
+            .map(String::from)
+            .collect();
+        let rows = rdr
+            .records()
+            .collect::<std::result::Result<Vec<_>, _>>()
+            .with_context(|| format!("cannot read {}", path.display()))?;
+        Ok(Self {
+            path: path.to_path_buf(),
+            header,
+            rows,
+        })
+    }
+
+    /// True when the file has a column `name`.
+    pub(crate) fn has(&self, name: &str) -> bool {
+        self.header.iter().any(|h| h == name)
+    }
+
+    /// The index of column `name`, or an error naming the file and its known columns.
+    pub(crate) fn column(&self, name: &str) -> Result<usize> {
+        self.header.iter().position(|h| h == name).ok_or_else(|| {
+            Error::msg(format!(
+                "{} has no column {name}; known: {}",
+                self.path.display(),
+                self.header.join(", ")
+            ))
+        })
+    }
+
+    /// The first of `names` that exists, or an error listing them and the known columns.
+    fn first_column(&self, names: &[&str]) -> Result<usize> {
+        names
+            .iter()
+            .find_map(|n| self.header.iter().position(|h| h == n))
+            .ok_or_else(|| {
+                Error::msg(format!(
+                    "{} has no {} column; known: {}",
+                    self.path.display(),
+                    names.join(" or "),
+                    self.header.join(", ")
+                ))
+            })
+    }
+
+    fn bad(&self, row: usize, col: usize, why: &str) -> Error {
+        let r = &self.rows[row];
+        Error::msg(format!(
+            "{}: line {}, column {}: `{}` {why}",
+            self.path.display(),
+            r.position().map_or(0, |p| p.line()),
+            self.header[col],
+            &r[col]
+        ))
+    }
+
+    /// The text of row `row` (0 = first data row), column `col`.
+    pub(crate) fn cell(&self, row: usize, col: usize) -> &str {
+        &self.rows[row][col]
+    }
+
+    /// The numbers of column `col`; an empty cell (a gap) is NaN.
+    pub(crate) fn numbers(&self, col: usize) -> Result<Vec<f64>> {
+        (0..self.rows.len())
+            .map(|i| {
+                let s = &self.rows[i][col];
+                if s.is_empty() {
+                    return Ok(f64::NAN);
+                }
+                s.parse::<f64>()
+                    .map_err(|_| self.bad(i, col, "is not a number"))
+            })
+            .collect()
+    }
+
+    /// The times of column `col`: ISO `YYYY-MM-DDTHH:MM[:SS]`, or a date `YYYY-MM-DD` (midnight).
+    pub(crate) fn times(&self, col: usize) -> Result<Vec<LocalTime>> {
+        (0..self.rows.len())
+            .map(|i| {
+                let s = &self.rows[i][col];
+                let t = if s.len() == 10 {
+                    LocalTime::parse_date(s)
+                } else {
+                    LocalTime::parse_iso(s)
+                };
+                t.map_err(|e| self.bad(i, col, &e.to_string()))
+            })
+            .collect()
+    }
+
+    /// The times of the `time` (or `date`) column.
+    pub(crate) fn time_column(&self) -> Result<Vec<LocalTime>> {
+        self.times(self.first_column(&["time", "date"])?)
+    }
+}
+
+/// A series keyed by day (days since 1970-01-01) or by minute, several values per key averaged.
+pub(crate) type Keyed = BTreeMap<i64, f64>;
+
+/// Averages values that share a key; NaN values (gaps) are left out.
+pub(crate) fn keyed_mean(keys: &[i64], values: &[f64]) -> Keyed {
+    let mut sums: BTreeMap<i64, (f64, usize)> = BTreeMap::new();
+    for (&k, &v) in keys.iter().zip(values) {
+        if !v.is_nan() {
+            let e = sums.entry(k).or_insert((0.0, 0));
+            e.0 += v;
+            e.1 += 1;
+        }
+    }
+    sums.into_iter()
+        .map(|(k, (s, n))| (k, s / n as f64))
+        .collect()
+}
+
+/// The predicted file's series of `column` keyed by day (from `period`, daily files) or by minute
+/// (from `time`, step files).
+pub(crate) fn predicted_series(table: &CsvTable, column: &str, by: MatchArg) -> Result<Keyed> {
+    let values = table.numbers(table.column(column)?)?;
+    let keys: Vec<i64> = match by {
+        MatchArg::Daily => {
+            let col = table.column("period").map_err(|e| {
+                Error::msg(format!(
+                    "--match daily needs a run's daily.csv (a `period` column of days): {e}"
+                ))
+            })?;
+            let times = table.times(col)?;
+            times.iter().map(|t| t.date().days()).collect()
+        }
+        MatchArg::Step => {
+            let col = table.column("time").map_err(|e| {
+                Error::msg(format!(
+                    "--match step needs a run's steps.csv (a `time` column): {e}"
+                ))
+            })?;
+            table.times(col)?.iter().map(|t| t.minutes()).collect()
+        }
+    };
+    Ok(keyed_mean(&keys, &values))
+}
+
+/// The observed file's series of `column`, keyed like [`predicted_series`]; several observations
+/// in one day (or at one time) are averaged.
+pub(crate) fn observed_series(table: &CsvTable, column: &str, by: MatchArg) -> Result<Keyed> {
+    let values = table.numbers(table.column(column)?)?;
+    let times = table.time_column()?;
+    let keys: Vec<i64> = times
+        .iter()
+        .map(|t| match by {
+            MatchArg::Daily => t.date().days(),
+            MatchArg::Step => t.minutes(),
+        })
+        .collect();
+    Ok(keyed_mean(&keys, &values))
+}
+
+/// A validated `isodisc compare` invocation.
+#[derive(Debug, Clone)]
+pub struct ComparePlan {
+    predicted: PathBuf,
+    observed: PathBuf,
+    variable: String,
+    observed_column: String,
+    match_by: MatchArg,
+    lags: Option<LagSettings>,
+    driver: String,
+    format: Format,
+    out: Option<PathBuf>,
+}
+
+/// What `isodisc compare` found.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Comparison {
+    /// Scores of predicted against observed (units of the variable; r, r², NSE dimensionless).
+    pub scores: Scores,
+    /// Lag correlations (k in days), when asked for.
+    pub lags: Option<LagAnalysis>,
+}
+
+impl ComparePlan {
+    /// Validates the arguments: the format, the lag settings and that lags are daily.
+    pub fn from_args(args: &CompareArgs) -> Result<Self> {
+        if args.format == Format::Csv {
+            return Err(Error::msg("--format: compare writes `table` or `json`"));
+        }
+        let lags = match args.lags {
+            Some(k) => {
+                if args.match_by != MatchArg::Daily {
+                    return Err(Error::msg("--lags works on days: use --match daily"));
+                }
+                Some(LagSettings::new(k, args.window).context("--lags/--window")?)
+            }
+            None => None,
+        };
+        Ok(Self {
+            predicted: args.predicted.clone(),
+            observed: args.observed.clone(),
+            variable: args.variable.clone(),
+            observed_column: args
+                .observed_column
+                .clone()
+                .unwrap_or_else(|| args.variable.clone()),
+            match_by: args.match_by,
+            lags,
+            driver: args.driver.clone(),
+            format: args.format,
+            out: args.out.clone(),
+        })
+    }
+
+    /// Reads both files, matches them and computes the scores (and lags).
+    pub fn compare(&self) -> Result<Comparison> {
+        let pred_table = CsvTable::read(&self.predicted)?;
+        let obs_table = CsvTable::read(&self.observed)?;
+        let pred = predicted_series(&pred_table, &self.variable, self.match_by)?;
+        let obs = observed_series(&obs_table, &self.observed_column, self.match_by)?;
+        let (p, o): (Vec<f64>, Vec<f64>) = obs
+            .iter()
+            .filter_map(|(k, &o)| pred.get(k).map(|&p| (p, o)))
+            .unzip();
+        let scores = scores(&p, &o)?;
+        let lags = match &self.lags {
+            Some(settings) => {
+                let driver = predicted_series(&pred_table, &self.driver, MatchArg::Daily)?;
+                // One slot per day from the first to the last day of either series; gaps are NaN.
+                let first = pred.keys().chain(obs.keys()).min().copied().unwrap_or(0);
+                let last = pred.keys().chain(obs.keys()).max().copied().unwrap_or(-1);
+                let days = (first..=last).collect::<Vec<_>>();
+                let series = |s: &Keyed| -> Vec<f64> {
+                    days.iter()
+                        .map(|d| s.get(d).copied().unwrap_or(f64::NAN))
+                        .collect()
+                };
+                Some(lag_analysis(&series(&obs), &series(&driver), settings))
+            }
+            None => None,
+        };
+        Ok(Comparison { scores, lags })
+    }
+
+    /// Compares and prints (or writes `--out`).
+    pub fn run(&self) -> Result<()> {
+        let c = self.compare()?;
+        match &self.out {
+            Some(path) => {
+                let mut f = AtomicFile::create(path)?;
+                self.write(f.writer(), &c)?;
+                f.commit()
+            }
+            None => {
+                let stdout = io::stdout();
+                let mut w = stdout.lock();
+                self.write(&mut w, &c)?;
+                w.flush()?;
+                Ok(())
+            }
+        }
+    }
+
+    fn write(&self, w: &mut dyn Write, c: &Comparison) -> Result<()> {
+        match self.format {
+            Format::Json => {
+                serde_json::to_writer_pretty(&mut *w, &self.json(c))?;
+                writeln!(w)?;
+                Ok(())
+            }
+            _ => self.table(w, c),
+        }
+    }
+
+    fn json(&self, c: &Comparison) -> serde_json::Value {
+        let s = &c.scores;
+        let mut v = json!({
+            "variable": self.variable,
+            "predicted": self.predicted.display().to_string(),
+            "observed": self.observed.display().to_string(),
+            "match": match self.match_by { MatchArg::Daily => "daily", MatchArg::Step => "step" },
+            "scores": {
+                "n": s.n, "bias": json_num(s.bias), "mae": json_num(s.mae),
+                "rmse": json_num(s.rmse), "r": json_num(s.r), "r2": json_num(s.r2),
+                "nse": json_num(s.nse),
+            },
+        });
+        if let (Some(l), Some(settings)) = (&c.lags, &self.lags) {
+            v["lags"] = json!({
+                "driver": self.driver,
+                "window_days": settings.window_days(),
+                "best_k": l.best_lag_days,
+                "table": l.lags.iter().map(|x| json!({
+                    "k": x.lag_days, "n": x.n, "r": json_num(x.r), "p": json_num(x.p_value),
+                })).collect::<Vec<_>>(),
+            });
+        }
+        v
+    }
+
+    fn table(&self, w: &mut dyn Write, c: &Comparison) -> Result<()> {
+        let f = |v: f64| {
+            if v.is_nan() {
+                "-".to_string()
+            } else {
+                format!("{v:.4}")
+            }
+        };
+        let s = &c.scores;
+        writeln!(
+            w,
+            "{} (predicted {}) against observed {} ({}), matched {}",
+            self.variable,
+            self.predicted.display(),
+            self.observed_column,
+            self.observed.display(),
+            match self.match_by {
+                MatchArg::Daily => "by day",
+                MatchArg::Step => "by timestamp",
+            }
+        )?;
+        writeln!(w, "n     {}", s.n)?;
+        writeln!(w, "bias  {}  (predicted - observed)", f(s.bias))?;
+        writeln!(w, "mae   {}", f(s.mae))?;
+        writeln!(w, "rmse  {}", f(s.rmse))?;
+        writeln!(w, "r     {}", f(s.r))?;
+        writeln!(w, "r2    {}", f(s.r2))?;
+        writeln!(w, "nse   {}", f(s.nse))?;
+        if let (Some(l), Some(settings)) = (&c.lags, &self.lags) {
+            writeln!(
+                w,
+                "\nlag k (days): observed against {} averaged over {} day(s) ending k days earlier",
+                self.driver,
+                settings.window_days()
+            )?;
+            writeln!(w, "{:>4}  {:>5}  {:>8}  {:>10}", "k", "n", "r", "p")?;
+            for x in &l.lags {
+                let p = if x.p_value.is_nan() {
+                    "-".to_string()
+                } else {
+                    format!("{:.3e}", x.p_value)
+                };
+                writeln!(w, "{:>4}  {:>5}  {:>8}  {:>10}", x.lag_days, x.n, f(x.r), p)?;
+            }
+            match l.best_lag_days {
+                Some(k) => writeln!(w, "best k = {k} (largest |r|)")?,
+                None => writeln!(w, "best k: none (too few matched days)")?,
+            }
+        }
+        Ok(())
+    }
+}
