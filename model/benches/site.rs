@@ -92,7 +92,7 @@ fn site_year_with_pools(c: &mut Criterion) {
     c.bench_function("site_year_hourly_two_pathways_with_pools", |b| {
         b.iter(|| {
             let mut m = SiteModel::new(s.clone()).unwrap();
-            let mut pools = PoolModel::new(network.clone(), pool_settings.clone());
+            let mut pools = PoolModel::new(network.clone(), pool_settings);
             let mean = Forcing {
                 assimilation_gc_m2_day: 6.0,
                 d13c_assimilate_permil: -20.0,

@@ -98,7 +98,7 @@ pub fn fmt_num(buf: &mut String, value: f64) {
     if frac != 0 {
         buf.push('.');
         let mut digits = 6;
-        while frac % 10 == 0 {
+        while frac.is_multiple_of(10) {
             frac /= 10;
             digits -= 1;
         }

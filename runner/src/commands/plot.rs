@@ -14,7 +14,7 @@ use plotters::prelude::*;
 use crate::cli::{MatchArg, PlotArgs};
 use crate::commands::compare::{CsvTable, Keyed, observed_series};
 use crate::commands::keeling::SampleReader;
-use crate::commands::run::PERIOD_COLUMNS;
+use crate::simulate::PERIOD_COLUMNS;
 use crate::error::{Error, Result};
 use crate::forcing::time::LocalTime;
 use crate::output::write_atomic;
