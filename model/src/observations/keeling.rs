@@ -412,7 +412,21 @@ impl<'a> KeelingData<'a> {
         let limit = (2.0 * source_se).max(INFLUENCE_FLOOR_PERMIL);
         let shifted = |loo_source: f64| (loo_source - source).abs() > limit;
         match (method, sums) {
-            (KeelingMethod::York, _) | (_, None) => (0..n).any(|skip| {
+            // Refitting York once per left-out sample would cost O(n²) per group: York's
+            // influence is judged on the OLS line of the same points (x = 1/c, y = δ), whose
+            // leave-one-out fits cost O(1) each from the sums, against York's own SE.
+            (KeelingMethod::York, _) => {
+                let ols = Sums::from_view(n, |i| {
+                    let p = self.point(KeelingMethod::Ols, i);
+                    (p.x, p.y)
+                });
+                let full = ols.ols_line().0;
+                (0..n).any(|i| {
+                    let p = self.point(KeelingMethod::Ols, i);
+                    (ols.without(p.x, p.y).ols_line().0 - full).abs() > limit
+                })
+            }
+            (_, None) => (0..n).any(|skip| {
                 let index = |j: usize| if j < skip { j } else { j + 1 };
                 let (loo, _, _) = self.fit_view(method, n - 1, index, settings);
                 shifted(source_of(method, &loo).0)

@@ -14,10 +14,10 @@ use plotters::prelude::*;
 use crate::cli::{MatchArg, PlotArgs};
 use crate::commands::compare::{CsvTable, Keyed, observed_series};
 use crate::commands::keeling::SampleReader;
-use crate::simulate::PERIOD_COLUMNS;
 use crate::error::{Error, Result};
 use crate::forcing::time::LocalTime;
 use crate::output::write_atomic;
+use crate::simulate::PERIOD_COLUMNS;
 
 /// Figure size (pixels).
 const SIZE: (u32, u32) = (960, 600);
