@@ -411,3 +411,102 @@ fn demo_respiration_lags_the_assimilate_by_days_and_old_carbon_is_less_depleted(
     assert_eq!(pools.rows.len(), 365);
     assert!(pools.header.iter().any(|h| h == "d13c_soil"));
 }
+
+#[test]
+fn every_bad_weather_input_names_line_and_column_and_leaves_the_folder_as_it_was() {
+    // One case per bad input the weather reader refuses (common practice for data files): the
+    // message names the line and column, and an earlier result folder survives untouched.
+    let good = "2025-03-21T10:00,22,0.6,1800,0\n2025-03-21T11:00,23,0.7,1700,0\n";
+    let cases: &[(&str, &str, &str)] = &[
+        (
+            "unparsable number",
+            "2025-03-21T12:00,2x3,0.7,1700,0\n",
+            "(no. 2)",
+        ),
+        (
+            "unparsable time",
+            "2025-03-21T1200,23,0.7,1700,0\n",
+            "(no. 1)",
+        ),
+        (
+            "time going backwards",
+            "2025-03-21T09:00,23,0.7,1700,0\n",
+            "(no. 1)",
+        ),
+        (
+            "repeated time",
+            "2025-03-21T11:00,23,0.7,1700,0\n",
+            "(no. 1)",
+        ),
+        (
+            "irregular step",
+            "2025-03-21T12:30,23,0.7,1700,0\n",
+            "(no. 1)",
+        ),
+        (
+            "kelvin-looking temperature",
+            "2025-03-21T12:00,296.2,0.7,1700,0\n",
+            "(no. 2)",
+        ),
+        (
+            "strongly negative radiation",
+            "2025-03-21T12:00,23,0.7,-400,0\n",
+            "(no. 4)",
+        ),
+    ];
+    for (what, bad_row, column) in cases {
+        let dir = tempfile::tempdir().unwrap();
+        let out = dir.path().join("out");
+        fs::create_dir(&out).unwrap();
+        fs::write(out.join("keep.txt"), "earlier results").unwrap();
+        let weather = format!("time,t,vpd,ppfd,p\n{good}{bad_row}");
+        let site = write_site(dir.path(), 1.0, 2.0, None, &weather);
+        let err = run(&[
+            "run",
+            site.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+            "--overwrite",
+        ])
+        .expect_err(what);
+        assert!(
+            err.contains("line 4") && err.contains(column),
+            "{what}: {err}"
+        );
+        assert_eq!(
+            fs::read_dir(&out).unwrap().count(),
+            1,
+            "{what}: folder changed"
+        );
+        assert_eq!(
+            fs::read_to_string(out.join("keep.txt")).unwrap(),
+            "earlier results"
+        );
+    }
+    // RH above 105 % needs an RH column.
+    let dir = tempfile::tempdir().unwrap();
+    let site = write_site(
+        dir.path(),
+        1.0,
+        2.0,
+        None,
+        "time,t,rh,ppfd,p\n2025-03-21T10:00,22,60,1800,0\n2025-03-21T11:00,22,120,1800,0\n",
+    );
+    let text = fs::read_to_string(&site)
+        .unwrap()
+        .replace("vpd = \"vpd\"", "rh = \"rh\"");
+    fs::write(&site, text).unwrap();
+    let out = dir.path().join("out");
+    let err = run(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ])
+    .unwrap_err();
+    assert!(
+        err.contains("line 3") && err.contains("(no. 3)") && err.contains("120"),
+        "{err}"
+    );
+    assert!(!out.exists());
+}
