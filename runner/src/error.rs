@@ -80,9 +80,29 @@ macro_rules! from_error {
         }
     )*};
 }
-from_error!(
-    std::io::Error,
-    csv::Error,
-    serde_json::Error,
-    isodisc_model::ModelError
-);
+impl From<std::io::Error> for Error {
+    fn from(e: std::io::Error) -> Self {
+        Error {
+            message: "input/output".into(),
+            source: Some(Box::new(e)),
+        }
+    }
+}
+
+impl Error {
+    /// True when the cause is a closed output pipe (`isodisc … | head`): not an error to report.
+    pub fn is_broken_pipe(&self) -> bool {
+        let mut cur: Option<&(dyn StdError + 'static)> = Some(self);
+        while let Some(e) = cur {
+            if let Some(io) = e.downcast_ref::<std::io::Error>()
+                && io.kind() == std::io::ErrorKind::BrokenPipe
+            {
+                return true;
+            }
+            cur = e.source();
+        }
+        false
+    }
+}
+
+from_error!(csv::Error, serde_json::Error, isodisc_model::ModelError);

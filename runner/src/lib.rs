@@ -22,6 +22,7 @@ use error::Result;
 pub fn main_entry() -> ExitCode {
     match run(Cli::parse()) {
         Ok(()) => ExitCode::SUCCESS,
+        Err(e) if e.is_broken_pipe() => ExitCode::SUCCESS,
         Err(e) => {
             eprintln!("isodisc: error: {}", e.chain());
             ExitCode::from(2)

@@ -21,7 +21,7 @@
 
 use std::collections::BTreeMap;
 
-use serde::Deserialize;
+use serde::{Deserialize, Serialize};
 
 use super::integrate::{DEFAULT_ATOL, DEFAULT_RTOL, Method, PoolSettings};
 use super::network::{DAYS_PER_YEAR, DEFAULT_CUE, PoolKind, PoolNetwork, PoolSpec};
@@ -32,7 +32,7 @@ use super::state::R_VPDB_DEFAULT;
 use crate::error::{ModelError, Result, closest_name};
 
 /// Integration method named in a site file.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Deserialize, Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum MethodName {
     /// Exact exponential (default).
@@ -43,7 +43,7 @@ pub enum MethodName {
 }
 
 /// Temperature response named in a site file.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Deserialize, Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum TemperatureResponseName {
     /// Q10 with `q10` and `t_ref_c` (default).
@@ -54,7 +54,7 @@ pub enum TemperatureResponseName {
 }
 
 /// The `[pools]` block. Every field has a default, so an absent block means the default model.
-#[derive(Debug, Clone, PartialEq, Deserialize)]
+#[derive(Debug, Clone, PartialEq, Deserialize, Serialize)]
 #[serde(deny_unknown_fields, default)]
 pub struct PoolsConfig {
     /// Integration method; default `exact`.
@@ -98,7 +98,7 @@ impl Default for PoolsConfig {
 }
 
 /// One `[[pools.pool]]` entry; see [`PoolSpec`] for the meaning and ranges of the fields.
-#[derive(Debug, Clone, PartialEq, Deserialize)]
+#[derive(Debug, Clone, PartialEq, Deserialize, Serialize)]
 #[serde(deny_unknown_fields)]
 pub struct PoolEntry {
     /// Unique pool name.

@@ -8,7 +8,7 @@
 
 use std::collections::HashSet;
 
-use serde::Deserialize;
+use serde::{Deserialize, Serialize};
 
 use crate::error::{ModelError, Result, check_range};
 
@@ -23,7 +23,7 @@ pub const MAX_ABS_EPSILON_PERMIL: f64 = 100.0;
 
 /// Whose respiration a pool's respired flux counts as (`"autotrophic"` or `"heterotrophic"` in
 /// a site file).
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum PoolKind {
     /// Plant (autotrophic) respiration, Ra.

@@ -358,7 +358,8 @@ impl RunPlan {
                 "pools_daily.csv": {"c_<pool>": "gC m-2", "d13c_<pool>": "permil VPDB"},
             },
             "pools": {
-                "network": sim.pools.pool_names,
+                "settings": serde_json::to_value(&site.pools)?,
+                "network": resolved_network(site)?,
                 "spin_up": {
                     "with_atmospheric_history": sim.pools.with_history,
                     "history_file": site.file.atmosphere.history.as_ref().map(|h| h.display().to_string()),
@@ -380,6 +381,28 @@ impl RunPlan {
         writeln!(f.writer())?;
         f.commit()
     }
+}
+
+/// The pool network actually used, every default filled in, for `run.json`.
+fn resolved_network(site: &Site) -> Result<serde_json::Value> {
+    let (network, _) = site.pools.build()?;
+    Ok(network
+        .pools()
+        .iter()
+        .map(|p| {
+            serde_json::json!({
+                "name": p.name,
+                "turnover_days": p.turnover_days,
+                "respired_fraction": p.respired_fraction,
+                "kind": p.kind,
+                "transfers": p.transfers.iter().cloned().collect::<std::collections::BTreeMap<_, _>>(),
+                "assimilation_share": p.assimilation_share,
+                "responds_to_environment": p.responds_to_environment,
+                "epsilon_respiration_permil": p.epsilon_respiration_permil,
+                "epsilon_transfer_permil": p.epsilon_transfer_permil,
+            })
+        })
+        .collect())
 }
 
 /// FNV-1a 64-bit hash of the bytes, as 16 hex digits: a checksum to tell whether an input changed.
