@@ -1,0 +1,190 @@
+//! `isodisc cluster-script`: writes a ready, commented submission script that runs a batch as a
+//! Slurm array job (one task per shard, each taking its shard from the array-job environment with
+//! `--shard env`) and a merge job that starts only when every task succeeded
+//! (`--dependency=afterok`). The user reads it, edits the resources, and runs it with bash.
+
+use std::fmt::Write as _;
+use std::path::{Path, PathBuf};
+
+use crate::cli::ClusterScriptArgs;
+use crate::error::{Context, Error, Result};
+use crate::output::write_atomic;
+
+/// A validated `isodisc cluster-script`.
+#[derive(Debug, Clone)]
+pub struct ClusterScriptPlan {
+    manifest: PathBuf,
+    results: PathBuf,
+    isodisc: PathBuf,
+    shards: u32,
+    threads: u32,
+    time: String,
+    mem: String,
+    partition: Option<String>,
+    account: Option<String>,
+    ensemble: Option<(PathBuf, u32, u64)>,
+    out: PathBuf,
+}
+
+fn absolute(p: &Path) -> Result<PathBuf> {
+    std::path::absolute(p).with_context(|| format!("cannot make {} absolute", p.display()))
+}
+
+/// `HH:MM:SS` or `D-HH:MM:SS`, as Slurm takes a time limit.
+fn valid_time(t: &str) -> bool {
+    let (days, rest) = match t.split_once('-') {
+        Some((d, r)) => (Some(d), r),
+        None => (None, t),
+    };
+    let parts: Vec<&str> = rest.split(':').collect();
+    days.is_none_or(|d| !d.is_empty() && d.bytes().all(|b| b.is_ascii_digit()))
+        && parts.len() == 3
+        && parts.iter().all(|p| !p.is_empty() && p.bytes().all(|b| b.is_ascii_digit()))
+}
+
+/// A memory request as Slurm takes it: a number with an optional K, M, G or T.
+fn valid_mem(m: &str) -> bool {
+    let digits = m.trim_end_matches(['K', 'M', 'G', 'T']);
+    !digits.is_empty() && digits.bytes().all(|b| b.is_ascii_digit()) && m.len() - digits.len() <= 1
+}
+
+impl ClusterScriptPlan {
+    /// Checks the arguments; every path in the script is made absolute, since jobs start elsewhere.
+    pub fn from_args(a: &ClusterScriptArgs) -> Result<Self> {
+        if !a.manifest.is_file() {
+            return Err(Error::msg(format!("manifest {} not found", a.manifest.display())));
+        }
+        if a.shards == 0 || a.shards > 100_000 {
+            return Err(Error::msg(format!("--shards {}: use 1 to 100000", a.shards)));
+        }
+        if a.threads == 0 || a.threads > 1024 {
+            return Err(Error::msg(format!("--threads {}: use 1 to 1024", a.threads)));
+        }
+        if !valid_time(&a.time) {
+            return Err(Error::msg(format!(
+                "--time `{}`: expected HH:MM:SS or D-HH:MM:SS",
+                a.time
+            )));
+        }
+        if !valid_mem(&a.mem) {
+            return Err(Error::msg(format!("--mem `{}`: expected e.g. 2G or 500M", a.mem)));
+        }
+        let isodisc = match &a.isodisc {
+            Some(p) => absolute(p)?,
+            None => std::env::current_exe().context("cannot find the isodisc program's path")?,
+        };
+        let ensemble = match (&a.spec, a.members) {
+            (Some(s), Some(n)) => Some((absolute(s)?, n, a.seed)),
+            (None, None) => None,
+            _ => return Err(Error::msg("--spec and --members go together")),
+        };
+        Ok(Self {
+            manifest: absolute(&a.manifest)?,
+            results: absolute(&a.results)?,
+            isodisc,
+            shards: a.shards,
+            threads: a.threads,
+            time: a.time.clone(),
+            mem: a.mem.clone(),
+            partition: a.partition.clone(),
+            account: a.account.clone(),
+            ensemble,
+            out: a.out.clone(),
+        })
+    }
+
+    /// The script's text.
+    pub fn script(&self) -> String {
+        let q = |p: &Path| shell_quote(&p.display().to_string());
+        let mut s = String::new();
+        let _ = writeln!(s, "#!/usr/bin/env bash");
+        let _ = writeln!(
+            s,
+            "# Runs an isodisc batch on a Slurm cluster: an array job of {} tasks, one per shard of the\n\
+             # manifest, then a merge job that starts only if every task succeeded. Written by\n\
+             # isodisc {} (`isodisc cluster-script`). Read it, adjust the resources, then submit with\n\
+             #     bash {}\n\
+             # It submits two jobs and returns at once; `squeue -u $USER` shows them. A shard that\n\
+             # fails can be re-run alone (`sbatch --array=K ...`): finished sites are skipped.",
+            self.shards,
+            env!("CARGO_PKG_VERSION"),
+            self.out.display()
+        );
+        let _ = writeln!(s, "set -euo pipefail\n");
+        let _ = writeln!(s, "ISODISC={}", q(&self.isodisc));
+        let _ = writeln!(s, "MANIFEST={}", q(&self.manifest));
+        let _ = writeln!(s, "RESULTS={}        # shards in $RESULTS/shards, merged output in $RESULTS/merged", q(&self.results));
+        let _ = writeln!(s, "SHARDS={}", self.shards);
+        let _ = writeln!(s, "THREADS={}             # threads per task (--cpus-per-task)", self.threads);
+        let _ = writeln!(s, "TIME={}        # wall-time limit per task", shell_quote(&self.time));
+        let _ = writeln!(s, "MEM={}              # memory per task", shell_quote(&self.mem));
+        let mut extra = String::new();
+        if let Some(p) = &self.partition {
+            let _ = write!(extra, "\n#SBATCH --partition={p}");
+        }
+        if let Some(acc) = &self.account {
+            let _ = write!(extra, "\n#SBATCH --account={acc}");
+        }
+        let ensemble = match &self.ensemble {
+            Some((spec, n, seed)) => format!(" --spec {} --members {n} --seed {seed}", q(spec)),
+            None => String::new(),
+        };
+        let _ = writeln!(
+            s,
+            "\nmkdir -p \"$RESULTS/logs\" \"$RESULTS/shards\"\n\n\
+             # Task K (1..SHARDS) runs the sites whose index mod SHARDS = K - 1; `--shard env` reads K and\n\
+             # SHARDS from SLURM_ARRAY_TASK_ID and SLURM_ARRAY_TASK_COUNT.\n\
+             array_job=$(sbatch --parsable <<EOF\n\
+             #!/usr/bin/env bash\n\
+             #SBATCH --job-name=isodisc-batch\n\
+             #SBATCH --array=1-$SHARDS\n\
+             #SBATCH --cpus-per-task=$THREADS\n\
+             #SBATCH --mem=$MEM\n\
+             #SBATCH --time=$TIME\n\
+             #SBATCH --output=$RESULTS/logs/shard_%a.out{extra}\n\
+             set -euo pipefail\n\
+             \"$ISODISC\" batch \"$MANIFEST\" --out \"$RESULTS/shards/shard_\\${{SLURM_ARRAY_TASK_ID}}\" --shard env --threads $THREADS --quiet{ensemble}\n\
+             EOF\n\
+             )\n\
+             array_job=${{array_job%%;*}}\n\n\
+             # The merge refuses overlapping or missing shards, so it only succeeds on a complete batch.\n\
+             merge_job=$(sbatch --parsable --dependency=afterok:$array_job <<EOF\n\
+             #!/usr/bin/env bash\n\
+             #SBATCH --job-name=isodisc-merge\n\
+             #SBATCH --cpus-per-task=1\n\
+             #SBATCH --mem=$MEM\n\
+             #SBATCH --time=$TIME\n\
+             #SBATCH --output=$RESULTS/logs/merge.out{extra}\n\
+             set -euo pipefail\n\
+             \"$ISODISC\" merge \"$RESULTS\"/shards/shard_* --out \"$RESULTS/merged\" --overwrite\n\
+             EOF\n\
+             )\n\
+             merge_job=${{merge_job%%;*}}\n\n\
+             echo \"submitted array job $array_job ($SHARDS tasks) and merge job $merge_job\"\n\
+             echo \"merged priors will be in $RESULTS/merged\""
+        );
+        s
+    }
+
+    /// Writes the script (atomically, executable).
+    pub fn run(&self) -> Result<()> {
+        write_atomic(&self.out, self.script().as_bytes())?;
+        #[cfg(unix)]
+        {
+            use std::os::unix::fs::PermissionsExt;
+            std::fs::set_permissions(&self.out, std::fs::Permissions::from_mode(0o755))
+                .with_context(|| format!("cannot make {} executable", self.out.display()))?;
+        }
+        println!("wrote {}: submit with `bash {}`", self.out.display(), self.out.display());
+        Ok(())
+    }
+}
+
+/// Quotes a word for bash with single quotes.
+fn shell_quote(s: &str) -> String {
+    if !s.is_empty() && s.bytes().all(|b| b.is_ascii_alphanumeric() || b"/._-:+=,".contains(&b)) {
+        s.to_string()
+    } else {
+        format!("'{}'", s.replace('\'', "'\\''"))
+    }
+}
