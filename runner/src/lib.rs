@@ -5,11 +5,14 @@
 
 pub mod cli;
 pub mod commands;
+pub mod ensemble;
 pub mod error;
 pub mod forcing;
 pub mod output;
+pub mod priors;
 pub mod simulate;
 pub mod site;
+pub mod site_params;
 
 use std::process::ExitCode;
 
@@ -34,5 +37,8 @@ pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Leaf(args) => commands::leaf::LeafPlan::from_args(&args)?.run(),
         Command::Run(args) => commands::run::RunPlan::from_args(&args)?.run(),
+        Command::Ensemble(args) => commands::ensemble::EnsemblePlan::from_args(&args)?.run(),
+        Command::Batch(args) => commands::batch::BatchPlan::from_args(&args)?.run(),
+        Command::Merge(args) => commands::merge::MergePlan::from_args(&args)?.run(),
     }
 }
