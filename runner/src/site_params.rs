@@ -110,6 +110,31 @@ impl Site {
         Ok(())
     }
 
+    /// Sets several parameters as one change. `pools.cue` goes first (setting a pool parameter
+    /// writes the default network out with the current CUE); a value refused only because of
+    /// another not yet set (two covers whose sum passes 1 in between) is retried after the rest.
+    /// On error the first refusal is returned and the site may hold part of the change.
+    pub fn set_params(&mut self, values: &[(&str, f64)]) -> Result<()> {
+        let mut pending: Vec<(&str, f64)> = values.to_vec();
+        pending.sort_by_key(|(p, _)| *p != "pools.cue");
+        loop {
+            let before = pending.len();
+            let mut first_error = None;
+            pending.retain(|(p, v)| match self.set_param(p, *v) {
+                Ok(()) => false,
+                Err(e) => {
+                    first_error.get_or_insert(e);
+                    true
+                }
+            });
+            match first_error {
+                None => return Ok(()),
+                Some(e) if pending.len() == before => return Err(e),
+                Some(_) => {}
+            }
+        }
+    }
+
     /// The current value of the parameter at `path` (units as in [`Site::set_param`]), or None
     /// when the path is unknown or the value comes from the weather file.
     pub fn param_value(&self, path: &str) -> Option<f64> {

@@ -148,9 +148,8 @@ impl Manifest {
                 }
             }
             overrides.extend(r.set.iter().map(|(k, v)| (k.clone(), *v)));
-            for (k, v) in &overrides {
-                site.set_param(k, *v).map_err(|e| at(e.chain()))?;
-            }
+            let pairs: Vec<(&str, f64)> = overrides.iter().map(|(k, v)| (k.as_str(), *v)).collect();
+            site.set_params(&pairs).map_err(|e| at(e.chain()))?;
             if let Some(f) = &r.forcing {
                 let p = std::fs::canonicalize(dir.join(f))
                     .map_err(|e| at(format!("forcing `{}`: {e}", dir.join(f).display())))?;

@@ -93,15 +93,16 @@ impl Member {
     }
 }
 
-/// Applies a member's values to a copy of the site. `pools.cue` goes first because setting a pool
-/// parameter writes the default network out with the current CUE.
+/// Applies a member's values (spec order) to a copy of the site.
 pub fn member_site(site: &Site, spec: &EnsembleSpec, values: &[f64]) -> crate::error::Result<Site> {
     let mut s = site.clone();
-    let mut order: Vec<usize> = (0..spec.params.len()).collect();
-    order.sort_by_key(|&j| spec.params[j].path != "pools.cue");
-    for j in order {
-        s.set_param(&spec.params[j].path, values[j])?;
-    }
+    let pairs: Vec<(&str, f64)> = spec
+        .params
+        .iter()
+        .zip(values)
+        .map(|(p, v)| (p.path.as_str(), *v))
+        .collect();
+    s.set_params(&pairs)?;
     Ok(s)
 }
 
