@@ -27,6 +27,12 @@ pub enum Command {
     Compare(CompareArgs),
     /// SVG figures from a run folder (and Keeling fits, observations).
     Plot(PlotArgs),
+    /// A parameter ensemble of one site: members sampled from a spec, run in parallel, summarised.
+    Ensemble(EnsembleArgs),
+    /// Many sites from a manifest, optionally each as an ensemble; shardable, resumable; priors.
+    Batch(BatchArgs),
+    /// Joins the output folders of a batch's shards into one.
+    Merge(MergeArgs),
 }
 
 /// `isodisc run`.
@@ -276,4 +282,89 @@ pub struct PlotArgs {
     /// Column of the observed file.
     #[arg(long, default_value = "d13c_respiration", requires = "observed")]
     pub observed_column: String,
+}
+
+/// `isodisc ensemble`.
+#[derive(Debug, clap::Args)]
+pub struct EnsembleArgs {
+    /// The site file (TOML).
+    pub site: PathBuf,
+    /// The ensemble spec (TOML; see docs/ensembles.md).
+    #[arg(long)]
+    pub spec: PathBuf,
+    /// Number of members.
+    #[arg(long)]
+    pub members: usize,
+    /// Seed of the sampling: the same seed gives the same members on any number of threads.
+    #[arg(long)]
+    pub seed: u64,
+    /// Folder for the results (created; an existing non-empty folder needs --overwrite).
+    #[arg(long)]
+    pub out: PathBuf,
+    /// Worker threads [default: one per core].
+    #[arg(long)]
+    pub threads: Option<usize>,
+    /// First day to run, YYYY-MM-DD (local standard time).
+    #[arg(long)]
+    pub from: Option<String>,
+    /// Last day to run, YYYY-MM-DD, inclusive.
+    #[arg(long)]
+    pub to: Option<String>,
+    /// Replace the results folder if it exists.
+    #[arg(long)]
+    pub overwrite: bool,
+    /// No progress bar and no summary.
+    #[arg(long)]
+    pub quiet: bool,
+}
+
+/// `isodisc batch`.
+#[derive(Debug, clap::Args)]
+pub struct BatchArgs {
+    /// The manifest (TOML; see docs/ensembles.md).
+    pub manifest: PathBuf,
+    /// Folder for the results; an interrupted batch re-run into it resumes.
+    #[arg(long)]
+    pub out: PathBuf,
+    /// Run only shard K of N (sites whose 0-based index mod N is K - 1), e.g. 2/3.
+    #[arg(long, value_name = "K/N")]
+    pub shard: Option<String>,
+    /// Run every site as an ensemble of this spec (needs --members and --seed).
+    #[arg(long, requires_all = ["members", "seed"])]
+    pub spec: Option<PathBuf>,
+    /// Members per site.
+    #[arg(long, requires = "spec")]
+    pub members: Option<usize>,
+    /// Seed of the sampling.
+    #[arg(long, requires = "spec")]
+    pub seed: Option<u64>,
+    /// Worker threads [default: one per core].
+    #[arg(long)]
+    pub threads: Option<usize>,
+    /// First day to run, YYYY-MM-DD (local standard time).
+    #[arg(long)]
+    pub from: Option<String>,
+    /// Last day to run, YYYY-MM-DD, inclusive.
+    #[arg(long)]
+    pub to: Option<String>,
+    /// No progress bar and no summary.
+    #[arg(long)]
+    pub quiet: bool,
+}
+
+/// `isodisc merge`.
+#[derive(Debug, clap::Args)]
+pub struct MergeArgs {
+    /// The shards' output folders.
+    #[arg(required = true)]
+    pub shards: Vec<PathBuf>,
+    /// Folder for the merged results.
+    #[arg(long)]
+    pub out: PathBuf,
+    /// Replace the folder if it exists.
+    #[arg(long)]
+    pub overwrite: bool,
+    /// Print nothing on success.
+    #[arg(long)]
+    pub quiet: bool,
 }

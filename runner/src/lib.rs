@@ -5,11 +5,14 @@
 
 pub mod cli;
 pub mod commands;
+pub mod ensemble;
 pub mod error;
 pub mod forcing;
 pub mod output;
+pub mod priors;
 pub mod simulate;
 pub mod site;
+pub mod site_params;
 
 use std::process::ExitCode;
 
@@ -38,5 +41,8 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Keeling(args) => commands::keeling::KeelingPlan::from_args(&args)?.run(),
         Command::Compare(args) => commands::compare::ComparePlan::from_args(&args)?.run(),
         Command::Plot(args) => commands::plot::PlotPlan::from_args(&args)?.run(),
+        Command::Ensemble(args) => commands::ensemble::EnsemblePlan::from_args(&args)?.run(),
+        Command::Batch(args) => commands::batch::BatchPlan::from_args(&args)?.run(),
+        Command::Merge(args) => commands::merge::MergePlan::from_args(&args)?.run(),
     }
 }

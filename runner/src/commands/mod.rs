@@ -4,4 +4,7 @@ pub mod compare;
 pub mod keeling;
 pub mod leaf;
 pub mod plot;
+pub mod batch;
+pub mod ensemble;
+pub mod merge;
 pub mod run;

@@ -415,7 +415,7 @@ pub fn fnv1a64(bytes: &[u8]) -> String {
     format!("{h:016x}")
 }
 
-fn sibling(dir: &Path, tag: &str) -> PathBuf {
+pub(crate) fn sibling(dir: &Path, tag: &str) -> PathBuf {
     let name = dir
         .file_name()
         .map(|n| n.to_string_lossy().into_owned())
@@ -425,7 +425,7 @@ fn sibling(dir: &Path, tag: &str) -> PathBuf {
 
 /// Puts the finished folder `tmp` in place of `out`. An existing `out` is first moved aside and
 /// removed only after the new one is in place.
-fn replace_dir(tmp: &Path, out: &Path, overwrite: bool) -> Result<()> {
+pub(crate) fn replace_dir(tmp: &Path, out: &Path, overwrite: bool) -> Result<()> {
     if out.exists() {
         if !overwrite && fs::read_dir(out)?.next().is_some() {
             return Err(Error::msg(format!(

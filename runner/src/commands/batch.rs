@@ -1,0 +1,374 @@
+//! `isodisc batch MANIFEST.toml --out DIR [--shard K/N] [--spec SPEC --members N --seed S]`: many
+//! sites, in parallel, each a single run or an ensemble, and the monthly priors of them all.
+//!
+//! Layout of DIR (one shard's folder; shards on other machines write their own folders, which
+//! `isodisc merge` joins):
+//!
+//! - `batch.json`: what the batch is (manifest and spec checksums, members, seed, period, every
+//!   manifest site with its coordinates and weight) and which shard this folder holds;
+//! - `sites/<id>/`: one finished site — `monthly.csv`, `annual.csv` (single run) or `members.csv`,
+//!   `quantiles_*.csv`, `sensitivity.csv` (ensemble), its `priors.csv`, and `done.json`, the
+//!   marker with the checksums of its inputs. A site folder is moved into place whole, so it
+//!   exists only when finished; on a re-run a site whose marker matches is skipped;
+//! - `priors.csv`, `priors.nc`: the shard's sites in manifest order; `run.json`: this invocation.
+
+use std::fmt::Write as _;
+use std::fs;
+use std::path::{Path, PathBuf};
+use std::time::Instant;
+
+use indicatif::{ParallelProgressIterator, ProgressBar};
+use rayon::prelude::*;
+
+use super::ensemble::{
+    Period, check_spec_paths, parse_period, read_steps, thread_pool, write_ensemble_files,
+    write_json,
+};
+use crate::cli::BatchArgs;
+use crate::commands::run::{fnv1a64, replace_dir, sibling, write_periods};
+use crate::ensemble::manifest::{Manifest, ManifestSite};
+use crate::ensemble::spec::EnsembleSpec;
+use crate::ensemble::{Member, MemberPeriods, MemberStatus, run_members};
+use crate::error::{Context, Error, Result};
+use crate::output::write_atomic;
+use crate::priors::{PriorRow, prior_rows, read_priors_csv, write_priors, write_priors_csv};
+use crate::simulate::{NoSink, simulate};
+
+/// An ensemble applied to every site.
+#[derive(Debug, Clone)]
+pub(crate) struct SiteEnsemble {
+    spec: EnsembleSpec,
+    members: usize,
+    seed: u64,
+}
+
+/// A validated `isodisc batch`.
+#[derive(Debug)]
+pub struct BatchPlan {
+    manifest: Manifest,
+    out: PathBuf,
+    shard: (usize, usize),
+    ensemble: Option<SiteEnsemble>,
+    threads: Option<usize>,
+    period: Period,
+    from_to: (Option<String>, Option<String>),
+    quiet: bool,
+    command: String,
+}
+
+/// Parses `K/N` (1 ≤ K ≤ N).
+fn parse_shard(s: &str) -> Result<(usize, usize)> {
+    let bad = || {
+        Error::msg(format!(
+            "--shard `{s}`: expected K/N with 1 <= K <= N, e.g. 2/3"
+        ))
+    };
+    let (k, n) = s.split_once('/').ok_or_else(bad)?;
+    let (k, n): (usize, usize) = (
+        k.trim().parse().map_err(|_| bad())?,
+        n.trim().parse().map_err(|_| bad())?,
+    );
+    if k == 0 || k > n {
+        return Err(bad());
+    }
+    Ok((k, n))
+}
+
+/// The part of `batch.json` that every shard of one batch shares.
+pub(crate) fn batch_identity(
+    manifest: &Manifest,
+    ensemble: Option<&SiteEnsemble>,
+    from_to: &(Option<String>, Option<String>),
+) -> serde_json::Value {
+    let file = |p: &Path| {
+        p.file_name()
+            .map_or(String::new(), |n| n.to_string_lossy().into_owned())
+    };
+    // The canonical command, without shard flags or folders, so that a merged batch and a
+    // one-shot batch carry the same history.
+    let mut history = format!(
+        "isodisc {}: isodisc batch {}",
+        env!("CARGO_PKG_VERSION"),
+        file(&manifest.path)
+    );
+    if let Some(e) = ensemble {
+        let _ = write!(
+            history,
+            " --spec {} --members {} --seed {}",
+            file(&e.spec.path),
+            e.members,
+            e.seed
+        );
+    }
+    if let Some(f) = &from_to.0 {
+        let _ = write!(history, " --from {f}");
+    }
+    if let Some(t) = &from_to.1 {
+        let _ = write!(history, " --to {t}");
+    }
+    serde_json::json!({
+        "isodisc_version": env!("CARGO_PKG_VERSION"),
+        "manifest": {"file": file(&manifest.path), "fnv1a64": fnv1a64(manifest.text.as_bytes())},
+        "title": manifest.title.clone().unwrap_or_else(|| "isodisc land priors".into()),
+        "history": history,
+        "ensemble": ensemble.map(|e| serde_json::json!({
+            "spec": file(&e.spec.path), "spec_fnv1a64": fnv1a64(e.spec.text.as_bytes()),
+            "members": e.members, "seed": e.seed})),
+        "from": from_to.0, "to": from_to.1,
+        "sites": manifest.sites.iter().map(|s| serde_json::json!({
+            "id": s.id,
+            "latitude": s.site.settings.location.latitude_deg(),
+            "longitude": s.site.settings.location.longitude_deg(),
+            "weight": s.weight,
+        })).collect::<Vec<_>>(),
+    })
+}
+
+/// Reads and merges the priors of the listed site folders (in the given order) and writes
+/// `priors.csv` and `priors.nc` into `dir`.
+pub(crate) fn combine_priors(dir: &Path, ids: &[&str], identity: &serde_json::Value) -> Result<()> {
+    let mut rows: Vec<PriorRow> = Vec::new();
+    for id in ids {
+        rows.extend(read_priors_csv(
+            &dir.join("sites").join(id).join("priors.csv"),
+        )?);
+    }
+    let s = |k: &str| identity[k].as_str().unwrap_or_default().to_string();
+    write_priors(dir, &rows, &s("title"), &s("history"))
+}
+
+impl BatchPlan {
+    /// Reads the manifest, its sites and the spec, and checks the flags, before any work starts.
+    pub fn from_args(args: &BatchArgs) -> Result<Self> {
+        let manifest = Manifest::load(&args.manifest)?;
+        let shard = args.shard.as_deref().map_or(Ok((1, 1)), parse_shard)?;
+        let ensemble = match (&args.spec, args.members, args.seed) {
+            (Some(spec), Some(members), Some(seed)) => {
+                let spec = EnsembleSpec::load(spec)?;
+                for s in &manifest.sites {
+                    check_spec_paths(&spec, &s.site)
+                        .with_context(|| format!("manifest site `{}`", s.id))?;
+                }
+                if members == 0 {
+                    return Err(Error::msg("--members must be at least 1"));
+                }
+                Some(SiteEnsemble {
+                    spec,
+                    members,
+                    seed,
+                })
+            }
+            (None, None, None) => None,
+            _ => return Err(Error::msg("--spec, --members and --seed go together")),
+        };
+        if args.threads == Some(0) {
+            return Err(Error::msg("--threads must be at least 1"));
+        }
+        if args.out.exists() && !args.out.is_dir() {
+            return Err(Error::msg(format!(
+                "--out {}: exists and is not a folder",
+                args.out.display()
+            )));
+        }
+        Ok(Self {
+            manifest,
+            out: args.out.clone(),
+            shard,
+            ensemble,
+            threads: args.threads,
+            period: parse_period(&args.from, &args.to)?,
+            from_to: (args.from.clone(), args.to.clone()),
+            quiet: args.quiet,
+            command: std::env::args().collect::<Vec<_>>().join(" "),
+        })
+    }
+
+    /// The sites of this shard, in manifest order.
+    fn shard_sites(&self) -> Vec<&ManifestSite> {
+        let (k, n) = self.shard;
+        self.manifest
+            .sites
+            .iter()
+            .enumerate()
+            .filter(|(i, _)| i % n == k - 1)
+            .map(|(_, s)| s)
+            .collect()
+    }
+
+    /// The marker a finished site carries: checksums of everything its outputs depend on.
+    fn marker(&self, s: &ManifestSite) -> Result<String> {
+        let forcing = s.forcing_path();
+        let bytes = fs::read(&forcing)
+            .with_context(|| format!("site `{}`: cannot read {}", s.id, forcing.display()))?;
+        let overrides: String = s
+            .overrides
+            .iter()
+            .map(|(k, v)| format!("{k}={v:?}\n"))
+            .collect();
+        let value = serde_json::json!({
+            "site": s.id,
+            "isodisc_version": env!("CARGO_PKG_VERSION"),
+            "inputs": {
+                "site_file_fnv1a64": fnv1a64(s.site.text.as_bytes()),
+                "forcing_fnv1a64": fnv1a64(&bytes),
+                "overrides_fnv1a64": fnv1a64(overrides.as_bytes()),
+                "spec_fnv1a64": self.ensemble.as_ref().map(|e| fnv1a64(e.spec.text.as_bytes())),
+                "members": self.ensemble.as_ref().map(|e| e.members),
+                "seed": self.ensemble.as_ref().map(|e| e.seed),
+                "weight": s.weight,
+                "from": self.from_to.0, "to": self.from_to.1,
+            }
+        });
+        Ok(serde_json::to_string_pretty(&value)? + "\n")
+    }
+
+    /// Runs one site into `sites/<id>` unless its marker matches. Returns true when it ran.
+    fn run_site(&self, s: &ManifestSite, sites_dir: &Path) -> Result<bool> {
+        let marker = self.marker(s)?;
+        let dir = sites_dir.join(&s.id);
+        if fs::read_to_string(dir.join("done.json")).is_ok_and(|m| m == marker) {
+            return Ok(false);
+        }
+        let tmp = sibling(&dir, "tmp");
+        if tmp.exists() {
+            fs::remove_dir_all(&tmp)?;
+        }
+        fs::create_dir_all(&tmp)?;
+        let result = (|| -> Result<()> {
+            let (steps, report) = read_steps(&s.site, self.period)?;
+            let members: Vec<Member> = match &self.ensemble {
+                Some(e) => {
+                    let m = run_members(
+                        &s.site,
+                        &steps,
+                        report.step_minutes,
+                        &e.spec,
+                        e.members,
+                        e.seed,
+                        &ProgressBar::hidden(),
+                    );
+                    write_ensemble_files(&tmp, &e.spec, &m)?;
+                    m
+                }
+                None => {
+                    let sim = simulate(
+                        &s.site,
+                        steps.iter().cloned().map(Ok),
+                        report.step_minutes,
+                        &mut NoSink,
+                    )?;
+                    write_periods(&tmp.join("monthly.csv"), &sim.periods[1])?;
+                    write_periods(&tmp.join("annual.csv"), &sim.periods[2])?;
+                    vec![Member {
+                        params: Vec::new(),
+                        status: MemberStatus::Ok(MemberPeriods::from_simulated(&sim)),
+                    }]
+                }
+            };
+            if !members.iter().any(|m| m.periods().is_some()) {
+                return Err(Error::msg("no member ran"));
+            }
+            let loc = &s.site.settings.location;
+            let rows = prior_rows(
+                &s.id,
+                loc.latitude_deg(),
+                loc.longitude_deg(),
+                s.weight,
+                &members,
+            );
+            write_priors_csv(&tmp.join("priors.csv"), &rows)?;
+            write_atomic(&tmp.join("done.json"), marker.as_bytes())?;
+            replace_dir(&tmp, &dir, true)
+        })();
+        if result.is_err() {
+            let _ = fs::remove_dir_all(&tmp);
+        }
+        result.with_context(|| format!("site `{}`", s.id))?;
+        Ok(true)
+    }
+
+    /// Runs the shard's sites and writes its priors.
+    pub fn run(&self) -> Result<()> {
+        let started = Instant::now();
+        let identity = batch_identity(&self.manifest, self.ensemble.as_ref(), &self.from_to);
+        let mut batch = identity.clone();
+        batch["shard"] = format!("{}/{}", self.shard.0, self.shard.1).into();
+        let batch_file = self.out.join("batch.json");
+        if let Ok(text) = fs::read_to_string(&batch_file) {
+            let mut old: serde_json::Value = serde_json::from_str(&text)
+                .with_context(|| format!("{} is not a batch file", batch_file.display()))?;
+            old.as_object_mut().map(|o| o.remove("shard"));
+            if old != identity {
+                return Err(Error::msg(format!(
+                    "--out {} holds another batch (manifest, spec, members, seed or period differ); \
+                     use another folder",
+                    self.out.display()
+                )));
+            }
+        } else if self.out.exists() && fs::read_dir(&self.out)?.next().is_some() {
+            return Err(Error::msg(format!(
+                "--out {}: the folder is not empty and holds no batch.json",
+                self.out.display()
+            )));
+        }
+        let sites_dir = self.out.join("sites");
+        fs::create_dir_all(&sites_dir)
+            .with_context(|| format!("cannot create {}", sites_dir.display()))?;
+        write_json(&batch_file, &batch)?;
+
+        let sites = self.shard_sites();
+        let pool = thread_pool(self.threads)?;
+        let progress = if self.quiet {
+            ProgressBar::hidden()
+        } else {
+            ProgressBar::new(sites.len() as u64)
+        };
+        let outcomes: Vec<Result<bool>> = pool.install(|| {
+            sites
+                .par_iter()
+                .progress_with(progress.clone())
+                .map(|s| self.run_site(s, &sites_dir))
+                .collect()
+        });
+        progress.finish_and_clear();
+        let ran = outcomes.iter().filter(|o| matches!(o, Ok(true))).count();
+        let skipped = outcomes.iter().filter(|o| matches!(o, Ok(false))).count();
+        let failed: Vec<String> = outcomes
+            .iter()
+            .filter_map(|o| o.as_ref().err().map(Error::chain))
+            .collect();
+        let log = serde_json::json!({
+            "isodisc_version": env!("CARGO_PKG_VERSION"),
+            "command": self.command,
+            "shard": format!("{}/{}", self.shard.0, self.shard.1),
+            "sites_in_shard": sites.len(),
+            "ran": ran,
+            "skipped_as_done": skipped,
+            "failed": failed,
+            "threads": pool.current_num_threads(),
+            "wall_time_s": started.elapsed().as_secs_f64(),
+        });
+        write_json(&self.out.join("run.json"), &log)?;
+        if !failed.is_empty() {
+            return Err(Error::msg(format!(
+                "{} of {} sites failed (finished sites are kept; re-run to resume): {}",
+                failed.len(),
+                sites.len(),
+                failed.join("; ")
+            )));
+        }
+        let ids: Vec<&str> = sites.iter().map(|s| s.id.as_str()).collect();
+        combine_priors(&self.out, &ids, &identity)?;
+        if !self.quiet {
+            println!(
+                "isodisc batch: shard {}/{}: {} sites ({ran} run, {skipped} already done) in {:.1} s\nresults: {}",
+                self.shard.0,
+                self.shard.1,
+                sites.len(),
+                started.elapsed().as_secs_f64(),
+                self.out.display()
+            );
+        }
+        Ok(())
+    }
+}

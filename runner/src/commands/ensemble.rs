@@ -1,0 +1,291 @@
+//! `isodisc ensemble SITE.toml --spec SPEC.toml --members N --seed S --out DIR`: a parameter
+//! ensemble of one site. The weather is read once; members run in parallel on a local pool of
+//! `--threads` threads; `members.csv`, `quantiles_monthly.csv`, `quantiles_annual.csv`,
+//! `sensitivity.csv` and `run.json` are written into a temporary folder that replaces DIR only
+//! when all are written. Member i depends only on (seed, i), so the files (all but `run.json`)
+//! are byte-identical for any thread count.
+
+use std::fs;
+use std::io::Write;
+use std::path::{Path, PathBuf};
+use std::time::Instant;
+
+use indicatif::ProgressBar;
+
+use crate::cli::EnsembleArgs;
+use crate::commands::run::{fnv1a64, replace_dir, sibling};
+use crate::ensemble::spec::EnsembleSpec;
+use crate::ensemble::summary::{write_members, write_quantiles, write_sensitivity};
+use crate::ensemble::{Member, MemberStatus, run_members};
+use crate::error::{Context, Error, Result};
+use crate::forcing::{ForcingReader, ForcingReport, ForcingStep, LocalTime};
+use crate::output::AtomicFile;
+use crate::site::Site;
+
+/// The `--from`/`--to` days as reader bounds (inclusive start, exclusive end).
+pub(crate) type Period = (Option<LocalTime>, Option<LocalTime>);
+
+/// Parses `--from` and `--to` (YYYY-MM-DD; `--to` inclusive).
+pub(crate) fn parse_period(from: &Option<String>, to: &Option<String>) -> Result<Period> {
+    let parse = |flag: &str, s: &Option<String>| -> Result<Option<LocalTime>> {
+        s.as_deref()
+            .map(|d| {
+                LocalTime::parse_date(d)
+                    .map_err(|e| Error::msg(format!("--{flag} `{d}`: {e} (expected YYYY-MM-DD)")))
+            })
+            .transpose()
+    };
+    let from = parse("from", from)?;
+    let to = parse("to", to)?.map(|t| t.plus_minutes(24 * 60));
+    if let (Some(f), Some(t)) = (from, to)
+        && f >= t
+    {
+        return Err(Error::msg("--from must not be after --to"));
+    }
+    Ok((from, to))
+}
+
+/// Refuses an `--out` that is a file, or a non-empty folder without `--overwrite`.
+pub(crate) fn check_out_dir(out: &Path, overwrite: bool) -> Result<()> {
+    if out.exists() {
+        if !out.is_dir() {
+            return Err(Error::msg(format!(
+                "--out {}: exists and is not a folder",
+                out.display()
+            )));
+        }
+        if fs::read_dir(out)?.next().is_some() && !overwrite {
+            return Err(Error::msg(format!(
+                "--out {}: the folder exists and is not empty; pass --overwrite to replace it",
+                out.display()
+            )));
+        }
+    }
+    Ok(())
+}
+
+/// Reads a site's weather once into memory, for every member to replay.
+pub(crate) fn read_steps(site: &Site, period: Period) -> Result<(Vec<ForcingStep>, ForcingReport)> {
+    let mut reader = ForcingReader::open(
+        &site.file.forcing,
+        &site.dir(),
+        site.file.site.elevation_m,
+        period.0,
+        period.1,
+    )
+    .with_context(|| format!("site {}", site.path.display()))?;
+    let steps = reader
+        .by_ref()
+        .collect::<std::result::Result<Vec<_>, _>>()
+        .with_context(|| format!("site {}", site.path.display()))?;
+    Ok((steps, reader.report()))
+}
+
+/// A rayon pool of `threads` threads (None: one per core).
+pub(crate) fn thread_pool(threads: Option<usize>) -> Result<rayon::ThreadPool> {
+    if threads == Some(0) {
+        return Err(Error::msg("--threads must be at least 1"));
+    }
+    rayon::ThreadPoolBuilder::new()
+        .num_threads(threads.unwrap_or(0))
+        .build()
+        .map_err(|e| Error::msg(format!("cannot start the worker threads: {e}")))
+}
+
+/// Checks that every path of the spec names a parameter of the site.
+pub(crate) fn check_spec_paths(spec: &EnsembleSpec, site: &Site) -> Result<()> {
+    for p in &spec.params {
+        if site.param_value(&p.path).is_none() {
+            // set_param's error names the closest known path.
+            let mut probe = site.clone();
+            let why = probe
+                .set_param(&p.path, f64::NAN)
+                .err()
+                .map_or_else(|| "not a parameter of this site".into(), |e| e.chain());
+            return Err(Error::msg(format!(
+                "{}: line {}: [param.\"{}\"]: {why}",
+                spec.path.display(),
+                p.line,
+                p.path
+            )));
+        }
+    }
+    Ok(())
+}
+
+/// Members that did not run, as JSON for run logs.
+pub(crate) fn failures_json(members: &[Member]) -> serde_json::Value {
+    members
+        .iter()
+        .enumerate()
+        .filter_map(|(i, m)| match &m.status {
+            MemberStatus::Ok(_) => None,
+            MemberStatus::Invalid(e) => {
+                Some(serde_json::json!({"member": i, "status": "invalid", "message": e}))
+            }
+            MemberStatus::Failed(e) => {
+                Some(serde_json::json!({"member": i, "status": "failed", "message": e}))
+            }
+        })
+        .collect()
+}
+
+/// The spec as JSON for run logs.
+pub(crate) fn spec_json(spec: &EnsembleSpec) -> serde_json::Value {
+    serde_json::json!({
+        "file": spec.path.display().to_string(),
+        "fnv1a64": fnv1a64(spec.text.as_bytes()),
+        "sampling": spec.sampling.as_str(),
+        "params": spec.params.iter().map(|p| (p.path.clone(), format!("{:?}", p.dist).into()))
+            .collect::<serde_json::Map<String, serde_json::Value>>(),
+    })
+}
+
+/// Writes the ensemble files of one site into `dir`.
+pub(crate) fn write_ensemble_files(
+    dir: &Path,
+    spec: &EnsembleSpec,
+    members: &[Member],
+) -> Result<()> {
+    write_members(&dir.join("members.csv"), spec, members)?;
+    write_quantiles(&dir.join("quantiles_monthly.csv"), members, false)?;
+    write_quantiles(&dir.join("quantiles_annual.csv"), members, true)?;
+    write_sensitivity(&dir.join("sensitivity.csv"), spec, members)
+}
+
+/// Writes `run.json`.
+pub(crate) fn write_json(path: &Path, value: &serde_json::Value) -> Result<()> {
+    let mut f = AtomicFile::create(path)?;
+    serde_json::to_writer_pretty(f.writer(), value)?;
+    writeln!(f.writer())?;
+    f.commit()
+}
+
+/// A validated `isodisc ensemble`.
+#[derive(Debug)]
+pub struct EnsemblePlan {
+    site: Site,
+    spec: EnsembleSpec,
+    members: usize,
+    seed: u64,
+    out: PathBuf,
+    threads: Option<usize>,
+    period: Period,
+    overwrite: bool,
+    quiet: bool,
+    command: String,
+}
+
+impl EnsemblePlan {
+    /// Reads and validates the site, the spec and the flags before any work starts.
+    pub fn from_args(args: &EnsembleArgs) -> Result<Self> {
+        let site = Site::load(&args.site)?;
+        let spec = EnsembleSpec::load(&args.spec)?;
+        check_spec_paths(&spec, &site)?;
+        if args.members == 0 {
+            return Err(Error::msg("--members must be at least 1"));
+        }
+        if args.threads == Some(0) {
+            return Err(Error::msg("--threads must be at least 1"));
+        }
+        check_out_dir(&args.out, args.overwrite)?;
+        Ok(Self {
+            site,
+            spec,
+            members: args.members,
+            seed: args.seed,
+            out: args.out.clone(),
+            threads: args.threads,
+            period: parse_period(&args.from, &args.to)?,
+            overwrite: args.overwrite,
+            quiet: args.quiet,
+            command: std::env::args().collect::<Vec<_>>().join(" "),
+        })
+    }
+
+    /// Runs the members and writes the results.
+    pub fn run(&self) -> Result<()> {
+        let started = Instant::now();
+        let tmp = sibling(&self.out, "tmp");
+        if tmp.exists() {
+            fs::remove_dir_all(&tmp)?;
+        }
+        fs::create_dir_all(&tmp)
+            .with_context(|| format!("cannot create the folder {}", tmp.display()))?;
+        match self.run_into(&tmp, started) {
+            Ok(summary) => {
+                replace_dir(&tmp, &self.out, self.overwrite)?;
+                if !self.quiet {
+                    print!("{summary}");
+                }
+                Ok(())
+            }
+            Err(e) => {
+                let _ = fs::remove_dir_all(&tmp);
+                Err(e)
+            }
+        }
+    }
+
+    fn run_into(&self, dir: &Path, started: Instant) -> Result<String> {
+        let (steps, report) = read_steps(&self.site, self.period)?;
+        let pool = thread_pool(self.threads)?;
+        let progress = if self.quiet {
+            ProgressBar::hidden()
+        } else {
+            ProgressBar::new(self.members as u64)
+        };
+        let members = pool.install(|| {
+            run_members(
+                &self.site,
+                &steps,
+                report.step_minutes,
+                &self.spec,
+                self.members,
+                self.seed,
+                &progress,
+            )
+        });
+        progress.finish_and_clear();
+        drop(steps);
+        write_ensemble_files(dir, &self.spec, &members)?;
+        let ok = members.iter().filter(|m| m.periods().is_some()).count();
+        if ok == 0 {
+            let first = failures_json(&members);
+            return Err(Error::msg(format!(
+                "no member ran; the first failure: {}",
+                first[0]["message"]
+            )));
+        }
+        let forcing_bytes = fs::read(&report.path)
+            .with_context(|| format!("cannot read {}", report.path.display()))?;
+        let log = serde_json::json!({
+            "isodisc_version": env!("CARGO_PKG_VERSION"),
+            "command": self.command,
+            "site_file": {"path": self.site.path.display().to_string(), "fnv1a64": fnv1a64(self.site.text.as_bytes())},
+            "forcing": {"path": report.path.display().to_string(), "fnv1a64": fnv1a64(&forcing_bytes),
+                "steps": report.steps, "first_step": report.first.map(|t| t.to_string()),
+                "last_step": report.last.map(|t| t.to_string())},
+            "spec": spec_json(&self.spec),
+            "members": self.members,
+            "seed": self.seed,
+            "threads": pool.current_num_threads(),
+            "members_ok": ok,
+            "members_not_run": failures_json(&members),
+            "quantiles": "R type 8 (Hyndman & Fan 1996), statrs Data::quantile; sd with n - 1",
+            "sensitivity": "Spearman rank correlation with annual discrimination and d13c_respiration; t-test p-value",
+            "wall_time_s": started.elapsed().as_secs_f64(),
+        });
+        write_json(&dir.join("run.json"), &log)?;
+        Ok(format!(
+            "isodisc ensemble: {} members of {} ({} ran, {} not) in {:.1} s on {} threads\nresults: {}\n",
+            self.members,
+            self.site.file.site.name,
+            ok,
+            self.members - ok,
+            started.elapsed().as_secs_f64(),
+            pool.current_num_threads(),
+            self.out.display()
+        ))
+    }
+}
