@@ -33,6 +33,8 @@ pub enum Command {
     Batch(BatchArgs),
     /// Joins the output folders of a batch's shards into one.
     Merge(MergeArgs),
+    /// Writes a Slurm submission script: an array job over the shards and a merge job after it.
+    ClusterScript(ClusterScriptArgs),
 }
 
 /// `isodisc run`.
@@ -326,8 +328,9 @@ pub struct BatchArgs {
     /// Folder for the results; an interrupted batch re-run into it resumes.
     #[arg(long)]
     pub out: PathBuf,
-    /// Run only shard K of N (sites whose 0-based index mod N is K - 1), e.g. 2/3.
-    #[arg(long, value_name = "K/N")]
+    /// Run only shard K of N (sites whose 0-based index mod N is K - 1), e.g. 2/3; or `env`: the
+    /// shard of this Slurm array task (SLURM_ARRAY_TASK_ID, _MIN and _COUNT).
+    #[arg(long, value_name = "K/N|env")]
     pub shard: Option<String>,
     /// Run every site as an ensemble of this spec (needs --members and --seed).
     #[arg(long, requires_all = ["members", "seed"])]
@@ -367,4 +370,47 @@ pub struct MergeArgs {
     /// Print nothing on success.
     #[arg(long)]
     pub quiet: bool,
+}
+
+/// `isodisc cluster-script`.
+#[derive(Debug, clap::Args)]
+pub struct ClusterScriptArgs {
+    /// The batch manifest (TOML).
+    pub manifest: PathBuf,
+    /// Number of shards, one array task each.
+    #[arg(long)]
+    pub shards: u32,
+    /// Folder for the results on the cluster's shared file system.
+    #[arg(long)]
+    pub results: PathBuf,
+    /// The script to write.
+    #[arg(long, default_value = "submit_batch.sh")]
+    pub out: PathBuf,
+    /// Threads per task (--cpus-per-task).
+    #[arg(long, default_value_t = 1)]
+    pub threads: u32,
+    /// Wall-time limit per task, HH:MM:SS or D-HH:MM:SS.
+    #[arg(long, default_value = "02:00:00")]
+    pub time: String,
+    /// Memory per task (e.g. 2G).
+    #[arg(long, default_value = "2G")]
+    pub mem: String,
+    /// Slurm partition [default: the cluster's default].
+    #[arg(long)]
+    pub partition: Option<String>,
+    /// Slurm account to charge [default: yours].
+    #[arg(long)]
+    pub account: Option<String>,
+    /// The isodisc program the jobs run [default: this one].
+    #[arg(long)]
+    pub isodisc: Option<PathBuf>,
+    /// Ensemble spec for every site (with --members).
+    #[arg(long)]
+    pub spec: Option<PathBuf>,
+    /// Ensemble members per site (with --spec).
+    #[arg(long)]
+    pub members: Option<u32>,
+    /// Ensemble seed.
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
 }

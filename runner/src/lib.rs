@@ -44,5 +44,8 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Ensemble(args) => commands::ensemble::EnsemblePlan::from_args(&args)?.run(),
         Command::Batch(args) => commands::batch::BatchPlan::from_args(&args)?.run(),
         Command::Merge(args) => commands::merge::MergePlan::from_args(&args)?.run(),
+        Command::ClusterScript(args) => {
+            commands::cluster::ClusterScriptPlan::from_args(&args)?.run()
+        }
     }
 }

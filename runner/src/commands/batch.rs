@@ -56,8 +56,11 @@ pub struct BatchPlan {
     command: String,
 }
 
-/// Parses `K/N` (1 ≤ K ≤ N).
+/// Parses `K/N` (1 ≤ K ≤ N), or `env`: the shard of a Slurm array task (see [`shard_from_env`]).
 fn parse_shard(s: &str) -> Result<(usize, usize)> {
+    if s == "env" {
+        return shard_from_env(|name| std::env::var(name).ok());
+    }
     let bad = || {
         Error::msg(format!(
             "--shard `{s}`: expected K/N with 1 <= K <= N, e.g. 2/3"
@@ -72,6 +75,43 @@ fn parse_shard(s: &str) -> Result<(usize, usize)> {
         return Err(bad());
     }
     Ok((k, n))
+}
+
+/// The shard of a Slurm array task: K = SLURM_ARRAY_TASK_ID − SLURM_ARRAY_TASK_MIN + 1 (MIN
+/// defaults to 1) and N = SLURM_ARRAY_TASK_COUNT (or MAX − MIN + 1). `get` reads a variable, so one
+/// command line serves every task of an array job.
+pub fn shard_from_env(get: impl Fn(&str) -> Option<String>) -> Result<(usize, usize)> {
+    let num = |name: &str| -> Result<Option<usize>> {
+        match get(name) {
+            None => Ok(None),
+            Some(v) => v.trim().parse().map(Some).map_err(|_| {
+                Error::msg(format!("--shard env: {name} = `{v}` is not a whole number"))
+            }),
+        }
+    };
+    let id = num("SLURM_ARRAY_TASK_ID")?.ok_or_else(|| {
+        Error::msg(
+            "--shard env: SLURM_ARRAY_TASK_ID is not set; run inside a Slurm array job \
+             (sbatch --array=1-N) or give --shard K/N",
+        )
+    })?;
+    let min = num("SLURM_ARRAY_TASK_MIN")?.unwrap_or(1);
+    let count = match num("SLURM_ARRAY_TASK_COUNT")? {
+        Some(c) => c,
+        None => num("SLURM_ARRAY_TASK_MAX")?
+            .map(|max| max + 1 - min.min(max + 1))
+            .ok_or_else(|| {
+                Error::msg(
+                    "--shard env: neither SLURM_ARRAY_TASK_COUNT nor SLURM_ARRAY_TASK_MAX is set",
+                )
+            })?,
+    };
+    if id < min || id - min + 1 > count {
+        return Err(Error::msg(format!(
+            "--shard env: task {id} lies outside the array (min {min}, count {count})"
+        )));
+    }
+    Ok((id - min + 1, count))
 }
 
 /// The part of `batch.json` that every shard of one batch shares.

@@ -39,7 +39,9 @@ fn valid_time(t: &str) -> bool {
     let parts: Vec<&str> = rest.split(':').collect();
     days.is_none_or(|d| !d.is_empty() && d.bytes().all(|b| b.is_ascii_digit()))
         && parts.len() == 3
-        && parts.iter().all(|p| !p.is_empty() && p.bytes().all(|b| b.is_ascii_digit()))
+        && parts
+            .iter()
+            .all(|p| !p.is_empty() && p.bytes().all(|b| b.is_ascii_digit()))
 }
 
 /// A memory request as Slurm takes it: a number with an optional K, M, G or T.
@@ -52,13 +54,22 @@ impl ClusterScriptPlan {
     /// Checks the arguments; every path in the script is made absolute, since jobs start elsewhere.
     pub fn from_args(a: &ClusterScriptArgs) -> Result<Self> {
         if !a.manifest.is_file() {
-            return Err(Error::msg(format!("manifest {} not found", a.manifest.display())));
+            return Err(Error::msg(format!(
+                "manifest {} not found",
+                a.manifest.display()
+            )));
         }
         if a.shards == 0 || a.shards > 100_000 {
-            return Err(Error::msg(format!("--shards {}: use 1 to 100000", a.shards)));
+            return Err(Error::msg(format!(
+                "--shards {}: use 1 to 100000",
+                a.shards
+            )));
         }
         if a.threads == 0 || a.threads > 1024 {
-            return Err(Error::msg(format!("--threads {}: use 1 to 1024", a.threads)));
+            return Err(Error::msg(format!(
+                "--threads {}: use 1 to 1024",
+                a.threads
+            )));
         }
         if !valid_time(&a.time) {
             return Err(Error::msg(format!(
@@ -67,7 +78,10 @@ impl ClusterScriptPlan {
             )));
         }
         if !valid_mem(&a.mem) {
-            return Err(Error::msg(format!("--mem `{}`: expected e.g. 2G or 500M", a.mem)));
+            return Err(Error::msg(format!(
+                "--mem `{}`: expected e.g. 2G or 500M",
+                a.mem
+            )));
         }
         let isodisc = match &a.isodisc {
             Some(p) => absolute(p)?,
@@ -113,11 +127,27 @@ impl ClusterScriptPlan {
         let _ = writeln!(s, "set -euo pipefail\n");
         let _ = writeln!(s, "ISODISC={}", q(&self.isodisc));
         let _ = writeln!(s, "MANIFEST={}", q(&self.manifest));
-        let _ = writeln!(s, "RESULTS={}        # shards in $RESULTS/shards, merged output in $RESULTS/merged", q(&self.results));
+        let _ = writeln!(
+            s,
+            "RESULTS={}        # shards in $RESULTS/shards, merged output in $RESULTS/merged",
+            q(&self.results)
+        );
         let _ = writeln!(s, "SHARDS={}", self.shards);
-        let _ = writeln!(s, "THREADS={}             # threads per task (--cpus-per-task)", self.threads);
-        let _ = writeln!(s, "TIME={}        # wall-time limit per task", shell_quote(&self.time));
-        let _ = writeln!(s, "MEM={}              # memory per task", shell_quote(&self.mem));
+        let _ = writeln!(
+            s,
+            "THREADS={}             # threads per task (--cpus-per-task)",
+            self.threads
+        );
+        let _ = writeln!(
+            s,
+            "TIME={}        # wall-time limit per task",
+            shell_quote(&self.time)
+        );
+        let _ = writeln!(
+            s,
+            "MEM={}              # memory per task",
+            shell_quote(&self.mem)
+        );
         let mut extra = String::new();
         if let Some(p) = &self.partition {
             let _ = write!(extra, "\n#SBATCH --partition={p}");
@@ -175,14 +205,21 @@ impl ClusterScriptPlan {
             std::fs::set_permissions(&self.out, std::fs::Permissions::from_mode(0o755))
                 .with_context(|| format!("cannot make {} executable", self.out.display()))?;
         }
-        println!("wrote {}: submit with `bash {}`", self.out.display(), self.out.display());
+        println!(
+            "wrote {}: submit with `bash {}`",
+            self.out.display(),
+            self.out.display()
+        );
         Ok(())
     }
 }
 
 /// Quotes a word for bash with single quotes.
 fn shell_quote(s: &str) -> String {
-    if !s.is_empty() && s.bytes().all(|b| b.is_ascii_alphanumeric() || b"/._-:+=,".contains(&b)) {
+    if !s.is_empty()
+        && s.bytes()
+            .all(|b| b.is_ascii_alphanumeric() || b"/._-:+=,".contains(&b))
+    {
         s.to_string()
     } else {
         format!("'{}'", s.replace('\'', "'\\''"))

@@ -406,3 +406,104 @@ fn shards_merge_to_the_one_shot_batch_and_resume() {
     }
     assert!(attrs.contains(&("Conventions".into(), "CF-1.8".into())));
 }
+
+#[test]
+fn slurm_array_environment_gives_the_shard() {
+    // Slurm's array-job variables (sbatch documentation, from memory): task IDs run from
+    // SLURM_ARRAY_TASK_MIN to _MAX, SLURM_ARRAY_TASK_COUNT tasks in all.
+    use isodisc_runner::commands::batch::shard_from_env;
+    fn env<'a>(vars: &'a [(&'static str, &'static str)]) -> impl Fn(&str) -> Option<String> + 'a {
+        move |name: &str| {
+            vars.iter()
+                .find(|(k, _)| *k == name)
+                .map(|(_, v)| v.to_string())
+        }
+    }
+    let four = [
+        ("SLURM_ARRAY_TASK_ID", "3"),
+        ("SLURM_ARRAY_TASK_COUNT", "4"),
+        ("SLURM_ARRAY_TASK_MIN", "1"),
+    ];
+    assert_eq!(shard_from_env(env(&four)).unwrap(), (3, 4));
+    // Arrays may start at 0: task 0 of 0-3 is shard 1 of 4.
+    let zero = [
+        ("SLURM_ARRAY_TASK_ID", "0"),
+        ("SLURM_ARRAY_TASK_MIN", "0"),
+        ("SLURM_ARRAY_TASK_MAX", "3"),
+    ];
+    assert_eq!(shard_from_env(env(&zero)).unwrap(), (1, 4));
+    let missing: &[(&str, &str)] = &[];
+    let err = shard_from_env(env(missing)).unwrap_err().chain();
+    assert!(err.contains("SLURM_ARRAY_TASK_ID"), "{err}");
+    let outside = [
+        ("SLURM_ARRAY_TASK_ID", "9"),
+        ("SLURM_ARRAY_TASK_COUNT", "4"),
+    ];
+    assert!(shard_from_env(env(&outside)).is_err());
+}
+
+#[test]
+fn cluster_script_submits_an_array_and_a_dependent_merge() {
+    // The script must be valid bash (bash -n, common practice) and hold the array job over the
+    // shards, `--shard env`, and a merge that waits for every task (`--dependency=afterok`).
+    let dir = tempfile::tempdir().unwrap();
+    let script = dir.path().join("submit.sh");
+    let manifest =
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("../forcing-demo/batch/manifest.toml");
+    let cli = Cli::try_parse_from([
+        "isodisc",
+        "cluster-script",
+        manifest.to_str().unwrap(),
+        "--shards",
+        "4",
+        "--results",
+        dir.path().join("res").to_str().unwrap(),
+        "--out",
+        script.to_str().unwrap(),
+        "--partition",
+        "short",
+        "--time",
+        "00:30:00",
+        "--mem",
+        "3G",
+    ])
+    .unwrap();
+    isodisc_runner::run(cli).unwrap();
+    let text = fs::read_to_string(&script).unwrap();
+    for needle in [
+        "--array=1-$SHARDS",
+        "SHARDS=4",
+        "--shard env",
+        "--dependency=afterok:$array_job",
+        "#SBATCH --partition=short",
+        "TIME=00:30:00",
+        "MEM=3G",
+        " merge ",
+    ] {
+        assert!(text.contains(needle), "script lacks {needle}:\n{text}");
+    }
+    let ok = std::process::Command::new("bash")
+        .arg("-n")
+        .arg(&script)
+        .status()
+        .unwrap();
+    assert!(ok.success(), "bash -n refuses the script");
+    let bad = Cli::try_parse_from([
+        "isodisc",
+        "cluster-script",
+        manifest.to_str().unwrap(),
+        "--shards",
+        "4",
+        "--results",
+        "r",
+        "--time",
+        "3 hours",
+    ])
+    .unwrap();
+    assert!(
+        isodisc_runner::run(bad)
+            .unwrap_err()
+            .chain()
+            .contains("--time")
+    );
+}
