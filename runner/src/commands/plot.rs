@@ -86,11 +86,15 @@ pub struct PlotPlan {
 }
 
 impl PlotPlan {
-    /// Checks that the run folder has a daily.csv and builds the output folder's path.
+    /// Checks that the folder holds a run (daily.csv) or an ensemble (quantiles_monthly.csv) and
+    /// builds the output folder's path.
     pub fn from_args(args: &PlotArgs) -> Result<Self> {
-        if !args.dir.join("daily.csv").is_file() {
+        if !args.dir.join("daily.csv").is_file()
+            && !args.dir.join("quantiles_monthly.csv").is_file()
+        {
             return Err(Error::msg(format!(
-                "{}: no daily.csv here; give the folder written by `isodisc run --out`",
+                "{}: neither daily.csv nor quantiles_monthly.csv here; give the folder written by \
+                 `isodisc run --out` or `isodisc ensemble --out`",
                 args.dir.display()
             )));
         }
@@ -120,7 +124,12 @@ impl PlotPlan {
     pub fn draw(&self) -> Result<Vec<PathBuf>> {
         std::fs::create_dir_all(&self.out)
             .map_err(|e| Error::msg(format!("cannot create {}: {e}", self.out.display())))?;
-        let daily = CsvTable::read(&self.dir.join("daily.csv"))?;
+        let daily_path = self.dir.join("daily.csv");
+        let daily = if daily_path.is_file() {
+            Some(CsvTable::read(&daily_path)?)
+        } else {
+            None
+        };
         let mut written = Vec::new();
         let mut save = |name: &str, fig: Figure| -> Result<()> {
             let path = self.out.join(name);
@@ -128,9 +137,11 @@ impl PlotPlan {
             written.push(path);
             Ok(())
         };
-        save("discrimination_daily.svg", discrimination_figure(&daily)?)?;
-        if let Some(fig) = respiration_figure(&daily, self.observed.as_ref())? {
-            save("d13c_respiration.svg", fig)?;
+        if let Some(daily) = &daily {
+            save("discrimination_daily.svg", discrimination_figure(daily)?)?;
+            if let Some(fig) = respiration_figure(daily, self.observed.as_ref())? {
+                save("d13c_respiration.svg", fig)?;
+            }
         }
         if let Some((fits, samples, groups)) = &self.keeling {
             for (group, fig) in keeling_figures(fits, samples, groups)? {
@@ -373,7 +384,8 @@ fn keeling_figures(
 /// Envelopes of an ensemble: per variable, the 5–95 % and 25–75 % bands, the median and the mean,
 /// by month in file order.
 fn ensemble_figures(q: &CsvTable) -> Result<Vec<(String, Figure)>> {
-    let month_col = q.column("month")?;
+    // The ensemble writes `period` (YYYY-MM); `month` is accepted too.
+    let month_col = q.column("period").or_else(|_| q.column("month"))?;
     let var_col = q.column("variable")?;
     let cols =
         ["mean", "p05", "p25", "p50", "p75", "p95"].map(|c| q.column(c).and_then(|i| q.numbers(i)));

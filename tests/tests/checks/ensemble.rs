@@ -507,3 +507,37 @@ fn cluster_script_submits_an_array_and_a_dependent_merge() {
             .contains("--time")
     );
 }
+
+#[test]
+fn an_ensemble_folder_plots_its_envelopes() {
+    // `isodisc plot` reads what `isodisc ensemble` writes (common practice: the tools of one
+    // package read each other's files); the envelope figure is valid SVG with its axis labels.
+    let t = tempfile::tempdir().unwrap();
+    let ens = t.path().join("ens");
+    let figs = t.path().join("figs");
+    run(&[
+        "ensemble",
+        &demo("site.toml"),
+        "--spec",
+        &demo("ensemble.toml"),
+        "--members",
+        "4",
+        "--seed",
+        "3",
+        "--out",
+        s(&ens),
+        "--from",
+        FROM,
+        "--to",
+        TO,
+        "--quiet",
+    ])
+    .unwrap();
+    run(&["plot", s(&ens), "--out", s(&figs)]).unwrap();
+    let svg = fs::read_to_string(figs.join("ensemble_discrimination.svg")).unwrap();
+    assert!(svg.trim_start().starts_with("<svg") && svg.trim_end().ends_with("</svg>"));
+    assert!(
+        svg.contains("month") && svg.contains("5–95 %"),
+        "labels missing"
+    );
+}

@@ -548,7 +548,7 @@ fn plot_writes_svg_figures_with_their_axis_labels() {
         daily.push_str(&format!("{},12,{c3},{c4},-25\n", date_2025(d)));
     }
     fs::write(run_dir.join("daily.csv"), daily).unwrap();
-    let mut q = String::from("month,variable,mean,sd,p05,p25,p50,p75,p95\n");
+    let mut q = String::from("period,variable,mean,sd,p05,p25,p50,p75,p95\n");
     for m in 1..=12 {
         q.push_str(&format!("2025-{m:02},discrimination,15,1,13,14,15,16,17\n"));
     }
