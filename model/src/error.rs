@@ -75,29 +75,44 @@ impl std::error::Error for ModelError {}
 pub type Result<T> = std::result::Result<T, ModelError>;
 
 /// Checks that `value` is finite and within `[min, max]`, naming the parameter if not.
+#[inline]
 pub fn check_range(name: &str, value: f64, min: f64, max: f64) -> Result<f64> {
     if value.is_finite() && value >= min && value <= max {
         Ok(value)
     } else {
-        Err(ModelError::InvalidParameter {
-            name: name.to_string(),
-            value,
-            min,
-            max,
-        })
+        Err(parameter_error(name, value, min, max))
     }
 }
 
-/// Checks that an input (driver) value is finite and within `[min, max]`.
+#[cold]
+#[inline(never)]
+fn parameter_error(name: &str, value: f64, min: f64, max: f64) -> ModelError {
+    ModelError::InvalidParameter {
+        name: name.to_string(),
+        value,
+        min,
+        max,
+    }
+}
+
+/// Checks that an input (driver) value is finite and within `[min, max]`. Called in every step's
+/// hot path, so the error is built out of line.
+#[inline]
 pub fn check_input(name: &str, value: f64, min: f64, max: f64) -> Result<f64> {
     if value.is_finite() && value >= min && value <= max {
         Ok(value)
     } else {
-        Err(ModelError::InvalidInput {
-            name: name.to_string(),
-            value,
-            reason: format!("valid range is [{min}, {max}]"),
-        })
+        Err(input_error(name, value, min, max))
+    }
+}
+
+#[cold]
+#[inline(never)]
+fn input_error(name: &str, value: f64, min: f64, max: f64) -> ModelError {
+    ModelError::InvalidInput {
+        name: name.to_string(),
+        value,
+        reason: format!("valid range is [{min}, {max}]"),
     }
 }
 

@@ -209,8 +209,7 @@ impl SiteModel {
     pub fn step(&mut self, d: &SiteDrivers) -> Result<SiteStep> {
         let step_s = (d.hour_end - d.hour_start) * 3600.0;
         let loc = &self.settings.location;
-        let cos_zenith = loc.mean_cos_zenith(d.year, d.day_of_year, d.hour_start, d.hour_end)?;
-        let et = loc.mean_extraterrestrial_horizontal_w_m2(
+        let (cos_zenith, et) = loc.mean_cos_zenith_and_extraterrestrial_w_m2(
             d.year,
             d.day_of_year,
             d.hour_start,

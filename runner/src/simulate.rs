@@ -256,7 +256,7 @@ pub fn simulate(
                        sink: &mut dyn StepSink|
      -> Result<()> {
         let resp = match (&d, &s) {
-            (Some(d), Some(s)) => Some(pools.step(d, s, step_days)?),
+            (Some(d), Some(s)) => Some(pools.step(f.time.date(), d, s, step_days)?),
             _ => None,
         };
         let view = StepView {
@@ -358,6 +358,8 @@ struct Pools {
     state: PoolState,
     t_soil_c: f64,
     last_d13c_assimilate: f64,
+    /// Soil temperature (°C) and moisture held for the day.
+    soil_of_day: Option<(LocalDate, f64, f64)>,
     r_standard: f64,
     diagnostics: PoolDiagnostics,
 }
@@ -439,6 +441,7 @@ impl Pools {
             state,
             t_soil_c: mean.t_soil_c,
             last_d13c_assimilate: steady_forcing.d13c_assimilate_permil,
+            soil_of_day: None,
             r_standard,
             diagnostics: PoolDiagnostics {
                 mean_age_respired_days: report.mean_age_respired_days,
@@ -454,18 +457,34 @@ impl Pools {
         })
     }
 
-    fn step(&mut self, d: &SiteDrivers, s: &SiteStep, step_days: f64) -> Result<RespirationStep> {
+    fn step(
+        &mut self,
+        date: LocalDate,
+        d: &SiteDrivers,
+        s: &SiteStep,
+        step_days: f64,
+    ) -> Result<RespirationStep> {
         // Soil temperature: running mean of air temperature with a time constant of a week.
         let w = 1.0 - (-step_days / SOIL_TEMPERATURE_LAG_DAYS).exp();
         self.t_soil_c += w * (d.t_air_c - self.t_soil_c);
         if s.d13c_assimilate_permil.is_finite() {
             self.last_d13c_assimilate = s.d13c_assimilate_permil;
         }
+        // Heterotrophic rates follow the soil's temperature and moisture as they stand at the first
+        // step of each day: the weekly running mean hardly moves within a day, and holding them lets
+        // the exact method reuse its matrix exponential for the rest of the day.
+        let (t_soil_c, moisture) = match self.soil_of_day {
+            Some((day, t, m)) if day == date => (t, m),
+            _ => {
+                self.soil_of_day = Some((date, self.t_soil_c, s.beta));
+                (self.t_soil_c, s.beta)
+            }
+        };
         let forcing = Forcing {
             assimilation_gc_m2_day: s.gpp_umol_m2_s * SECONDS_PER_DAY * GC_PER_UMOL,
             d13c_assimilate_permil: self.last_d13c_assimilate,
-            t_soil_c: self.t_soil_c,
-            moisture: s.beta,
+            t_soil_c,
+            moisture,
         };
         let r: StepResult = self.model.step(&mut self.state, &forcing, step_days)?;
         let per_s = 1.0 / (step_days * SECONDS_PER_DAY * GC_PER_UMOL);
@@ -523,12 +542,24 @@ enum PeriodKind {
     Annual,
 }
 
+/// A period's identity: (year, month, day) with the parts finer than the period set to 0.
+type PeriodKey = (i32, u32, u32);
+
 impl PeriodKind {
-    fn key(self, t: LocalTime) -> String {
+    fn key(self, t: LocalTime) -> PeriodKey {
         match self {
-            PeriodKind::Daily => t.date().to_string(),
-            PeriodKind::Monthly => format!("{:04}-{:02}", t.year(), t.month()),
-            PeriodKind::Annual => format!("{:04}", t.year()),
+            PeriodKind::Daily => (t.year(), t.month(), t.day()),
+            PeriodKind::Monthly => (t.year(), t.month(), 0),
+            PeriodKind::Annual => (t.year(), 0, 0),
+        }
+    }
+
+    /// YYYY-MM-DD, YYYY-MM or YYYY.
+    fn label(self, (y, m, d): PeriodKey) -> String {
+        match self {
+            PeriodKind::Daily => format!("{y:04}-{m:02}-{d:02}"),
+            PeriodKind::Monthly => format!("{y:04}-{m:02}"),
+            PeriodKind::Annual => format!("{y:04}"),
         }
     }
 }
@@ -607,7 +638,7 @@ impl Sums {
 
 struct Aggregator {
     kind: PeriodKind,
-    current: Option<(String, Sums)>,
+    current: Option<(PeriodKey, Sums)>,
     current_date: Option<LocalDate>,
     rows: Vec<PeriodRow>,
 }
@@ -707,7 +738,7 @@ impl Aggregator {
     fn flush(&mut self) {
         if let Some((key, sums)) = self.current.take() {
             self.rows.push(PeriodRow {
-                key,
+                key: self.kind.label(key),
                 values: sums.row(),
             });
         }

@@ -289,6 +289,32 @@ impl Location {
         hour_start_lst: f64,
         hour_end_lst: f64,
     ) -> Result<f64> {
+        Ok(self
+            .mean_cos_zenith_and_distance(year, day_of_year, hour_start_lst, hour_end_lst)?
+            .0)
+    }
+
+    /// [`Location::mean_cos_zenith`] and [`Location::mean_extraterrestrial_horizontal_w_m2`]
+    /// (W m⁻²) together, from one evaluation of the Sun's position; arguments as there.
+    pub fn mean_cos_zenith_and_extraterrestrial_w_m2(
+        &self,
+        year: i32,
+        day_of_year: u32,
+        hour_start_lst: f64,
+        hour_end_lst: f64,
+    ) -> Result<(f64, f64)> {
+        let (mu, r) =
+            self.mean_cos_zenith_and_distance(year, day_of_year, hour_start_lst, hour_end_lst)?;
+        Ok((mu, SOLAR_CONSTANT_W_M2 / (r * r) * mu))
+    }
+
+    fn mean_cos_zenith_and_distance(
+        &self,
+        year: i32,
+        day_of_year: u32,
+        hour_start_lst: f64,
+        hour_end_lst: f64,
+    ) -> Result<(f64, f64)> {
         check_date(year, day_of_year)?;
         check_input("hour_start_lst", hour_start_lst, 0.0, 24.0)?;
         check_input(
@@ -298,10 +324,8 @@ impl Location {
             hour_start_lst + 24.0,
         )?;
         if hour_end_lst == hour_start_lst {
-            return Ok(self
-                .position(year, day_of_year, hour_start_lst)?
-                .cos_zenith
-                .max(0.0));
+            let p = self.position(year, day_of_year, hour_start_lst)?;
+            return Ok((p.cos_zenith.max(0.0), p.earth_sun_distance_au));
         }
         let mid = 0.5 * (hour_start_lst + hour_end_lst);
         let sun = SunTerms::at(julian_day(year, day_of_year, mid, self.utc_offset_h));
@@ -332,7 +356,7 @@ impl Location {
                 integral += a * (hi - lo) + b * (hi.sin() - lo.sin());
             }
         }
-        Ok((integral / (h1 - h0)).max(0.0))
+        Ok(((integral / (h1 - h0)).max(0.0), sun.distance_au))
     }
 
     /// Mean extraterrestrial irradiance on a horizontal surface (W m⁻²) over an interval, as
@@ -344,10 +368,14 @@ impl Location {
         hour_start_lst: f64,
         hour_end_lst: f64,
     ) -> Result<f64> {
-        let mu = self.mean_cos_zenith(year, day_of_year, hour_start_lst, hour_end_lst)?;
-        let mid = 0.5 * (hour_start_lst + hour_end_lst);
-        let r = SunTerms::at(julian_day(year, day_of_year, mid, self.utc_offset_h)).distance_au;
-        Ok(SOLAR_CONSTANT_W_M2 / (r * r) * mu)
+        Ok(self
+            .mean_cos_zenith_and_extraterrestrial_w_m2(
+                year,
+                day_of_year,
+                hour_start_lst,
+                hour_end_lst,
+            )?
+            .1)
     }
 }
 
