@@ -45,12 +45,9 @@ pub struct RunArgs {
     /// Folder for the results (created; an existing non-empty folder needs --overwrite).
     #[arg(long)]
     pub out: PathBuf,
-    /// First day to run, YYYY-MM-DD (local standard time).
-    #[arg(long)]
-    pub from: Option<String>,
-    /// Last day to run, YYYY-MM-DD, inclusive.
-    #[arg(long)]
-    pub to: Option<String>,
+    /// The days to run.
+    #[command(flatten)]
+    pub period: PeriodArgs,
     /// Replace the results folder if it exists.
     #[arg(long)]
     pub overwrite: bool,
@@ -306,12 +303,9 @@ pub struct EnsembleArgs {
     /// Worker threads [default: one per core].
     #[arg(long)]
     pub threads: Option<usize>,
-    /// First day to run, YYYY-MM-DD (local standard time).
-    #[arg(long)]
-    pub from: Option<String>,
-    /// Last day to run, YYYY-MM-DD, inclusive.
-    #[arg(long)]
-    pub to: Option<String>,
+    /// The days to run.
+    #[command(flatten)]
+    pub period: PeriodArgs,
     /// Replace the results folder if it exists.
     #[arg(long)]
     pub overwrite: bool,
@@ -344,12 +338,9 @@ pub struct BatchArgs {
     /// Worker threads [default: one per core].
     #[arg(long)]
     pub threads: Option<usize>,
-    /// First day to run, YYYY-MM-DD (local standard time).
-    #[arg(long)]
-    pub from: Option<String>,
-    /// Last day to run, YYYY-MM-DD, inclusive.
-    #[arg(long)]
-    pub to: Option<String>,
+    /// The days to run.
+    #[command(flatten)]
+    pub period: PeriodArgs,
     /// No progress bar and no summary.
     #[arg(long)]
     pub quiet: bool,
@@ -413,4 +404,15 @@ pub struct ClusterScriptArgs {
     /// Ensemble seed.
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
+}
+
+/// `--from` and `--to`, shared by the commands that run sites.
+#[derive(Debug, Clone, clap::Args)]
+pub struct PeriodArgs {
+    /// First day to run, YYYY-MM-DD (local standard time).
+    #[arg(long)]
+    pub from: Option<String>,
+    /// Last day to run, YYYY-MM-DD, inclusive.
+    #[arg(long)]
+    pub to: Option<String>,
 }

@@ -5,7 +5,7 @@ use std::fs::{self, File};
 use std::io::{BufWriter, Write};
 use std::path::{Path, PathBuf};
 
-use crate::error::{Context, Result};
+use crate::error::{Context, Error, Result};
 
 /// A file being written: a temporary file in the target's folder until [`AtomicFile::commit`]
 /// renames it into place. Dropped without commit, the temporary file is removed.
@@ -112,6 +112,96 @@ pub fn json_num(value: f64) -> serde_json::Value {
         serde_json::Value::from((value * 1e6).round() / 1e6)
     } else {
         serde_json::Value::Null
+    }
+}
+
+/// FNV-1a 64-bit hash of the bytes, as 16 hex digits: a checksum to tell whether an input changed.
+pub fn fnv1a64(bytes: &[u8]) -> String {
+    let mut h: u64 = 0xcbf2_9ce4_8422_2325;
+    for b in bytes {
+        h ^= u64::from(*b);
+        h = h.wrapping_mul(0x0000_0100_0000_01b3);
+    }
+    format!("{h:016x}")
+}
+
+/// A hidden sibling of `dir` for temporary or old contents: `.NAME.TAG-PID`.
+pub fn sibling(dir: &Path, tag: &str) -> PathBuf {
+    let name = dir
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "out".into());
+    dir.with_file_name(format!(".{name}.{tag}-{}", std::process::id()))
+}
+
+/// Puts the finished folder `tmp` in place of `out`. An existing `out` is first moved aside and
+/// removed only after the new one is in place.
+pub fn replace_dir(tmp: &Path, out: &Path, overwrite: bool) -> Result<()> {
+    if out.exists() {
+        if !overwrite && fs::read_dir(out)?.next().is_some() {
+            return Err(Error::msg(format!(
+                "{} appeared during the run; results left in {}",
+                out.display(),
+                tmp.display()
+            )));
+        }
+        let old = sibling(out, "old");
+        fs::rename(out, &old).with_context(|| format!("cannot move {} aside", out.display()))?;
+        fs::rename(tmp, out)
+            .with_context(|| format!("cannot move the results into {}", out.display()))?;
+        fs::remove_dir_all(&old).with_context(|| format!("cannot remove {}", old.display()))?;
+    } else {
+        if let Some(parent) = out.parent().filter(|p| !p.as_os_str().is_empty()) {
+            fs::create_dir_all(parent)?;
+        }
+        fs::rename(tmp, out)
+            .with_context(|| format!("cannot move the results into {}", out.display()))?;
+    }
+    Ok(())
+}
+
+/// Refuses an `--out` that is a file, or a non-empty folder without `--overwrite`.
+pub fn check_out_dir(out: &Path, overwrite: bool) -> Result<()> {
+    if out.exists() {
+        if !out.is_dir() {
+            return Err(Error::msg(format!(
+                "--out {}: exists and is not a folder",
+                out.display()
+            )));
+        }
+        if fs::read_dir(out)?.next().is_some() && !overwrite {
+            return Err(Error::msg(format!(
+                "--out {}: the folder exists and is not empty; pass --overwrite to replace it",
+                out.display()
+            )));
+        }
+    }
+    Ok(())
+}
+
+/// Fills a temporary folder beside `out` with `fill`, then puts it in place of `out` — so `out`
+/// holds either its earlier contents or all of the new ones, never a mix. On failure the temporary
+/// folder is removed and `out` is left as it was.
+pub fn write_folder<T>(
+    out: &Path,
+    overwrite: bool,
+    fill: impl FnOnce(&Path) -> Result<T>,
+) -> Result<T> {
+    let tmp = sibling(out, "tmp");
+    if tmp.exists() {
+        fs::remove_dir_all(&tmp)?;
+    }
+    fs::create_dir_all(&tmp)
+        .with_context(|| format!("cannot create the folder {}", tmp.display()))?;
+    match fill(&tmp) {
+        Ok(v) => {
+            replace_dir(&tmp, out, overwrite)?;
+            Ok(v)
+        }
+        Err(e) => {
+            let _ = fs::remove_dir_all(&tmp);
+            Err(e)
+        }
     }
 }
 

@@ -21,16 +21,17 @@ use indicatif::{ParallelProgressIterator, ProgressBar};
 use rayon::prelude::*;
 
 use super::ensemble::{
-    Period, check_spec_paths, parse_period, read_steps, thread_pool, write_ensemble_files,
-    write_json,
+    check_spec_paths, read_steps, thread_pool, write_ensemble_files, write_json,
 };
 use crate::cli::BatchArgs;
-use crate::commands::run::{fnv1a64, replace_dir, sibling, write_periods};
+use crate::commands::run::write_periods;
+use crate::commands::{Period, parse_period};
 use crate::ensemble::manifest::{Manifest, ManifestSite};
 use crate::ensemble::spec::EnsembleSpec;
 use crate::ensemble::{Member, MemberPeriods, MemberStatus, run_members};
 use crate::error::{Context, Error, Result};
 use crate::output::write_atomic;
+use crate::output::{fnv1a64, replace_dir, sibling};
 use crate::priors::{PriorRow, prior_rows, read_priors_csv, write_priors, write_priors_csv};
 use crate::simulate::{NoSink, simulate};
 
@@ -216,8 +217,8 @@ impl BatchPlan {
             shard,
             ensemble,
             threads: args.threads,
-            period: parse_period(&args.from, &args.to)?,
-            from_to: (args.from.clone(), args.to.clone()),
+            period: parse_period(&args.period)?,
+            from_to: (args.period.from.clone(), args.period.to.clone()),
             quiet: args.quiet,
             command: std::env::args().collect::<Vec<_>>().join(" "),
         })

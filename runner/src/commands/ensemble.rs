@@ -13,56 +13,15 @@ use std::time::Instant;
 use indicatif::ProgressBar;
 
 use crate::cli::EnsembleArgs;
-use crate::commands::run::{fnv1a64, replace_dir, sibling};
+use crate::commands::{Period, parse_period};
 use crate::ensemble::spec::EnsembleSpec;
 use crate::ensemble::summary::{write_members, write_quantiles, write_sensitivity};
 use crate::ensemble::{Member, MemberStatus, run_members};
 use crate::error::{Context, Error, Result};
-use crate::forcing::{ForcingReader, ForcingReport, ForcingStep, LocalTime};
+use crate::forcing::{ForcingReader, ForcingReport, ForcingStep};
 use crate::output::AtomicFile;
+use crate::output::{check_out_dir, fnv1a64, write_folder};
 use crate::site::Site;
-
-/// The `--from`/`--to` days as reader bounds (inclusive start, exclusive end).
-pub(crate) type Period = (Option<LocalTime>, Option<LocalTime>);
-
-/// Parses `--from` and `--to` (YYYY-MM-DD; `--to` inclusive).
-pub(crate) fn parse_period(from: &Option<String>, to: &Option<String>) -> Result<Period> {
-    let parse = |flag: &str, s: &Option<String>| -> Result<Option<LocalTime>> {
-        s.as_deref()
-            .map(|d| {
-                LocalTime::parse_date(d)
-                    .map_err(|e| Error::msg(format!("--{flag} `{d}`: {e} (expected YYYY-MM-DD)")))
-            })
-            .transpose()
-    };
-    let from = parse("from", from)?;
-    let to = parse("to", to)?.map(|t| t.plus_minutes(24 * 60));
-    if let (Some(f), Some(t)) = (from, to)
-        && f >= t
-    {
-        return Err(Error::msg("--from must not be after --to"));
-    }
-    Ok((from, to))
-}
-
-/// Refuses an `--out` that is a file, or a non-empty folder without `--overwrite`.
-pub(crate) fn check_out_dir(out: &Path, overwrite: bool) -> Result<()> {
-    if out.exists() {
-        if !out.is_dir() {
-            return Err(Error::msg(format!(
-                "--out {}: exists and is not a folder",
-                out.display()
-            )));
-        }
-        if fs::read_dir(out)?.next().is_some() && !overwrite {
-            return Err(Error::msg(format!(
-                "--out {}: the folder exists and is not empty; pass --overwrite to replace it",
-                out.display()
-            )));
-        }
-    }
-    Ok(())
-}
 
 /// Reads a site's weather once into memory, for every member to replay.
 pub(crate) fn read_steps(site: &Site, period: Period) -> Result<(Vec<ForcingStep>, ForcingReport)> {
@@ -196,7 +155,7 @@ impl EnsemblePlan {
             seed: args.seed,
             out: args.out.clone(),
             threads: args.threads,
-            period: parse_period(&args.from, &args.to)?,
+            period: parse_period(&args.period)?,
             overwrite: args.overwrite,
             quiet: args.quiet,
             command: std::env::args().collect::<Vec<_>>().join(" "),
@@ -206,25 +165,11 @@ impl EnsemblePlan {
     /// Runs the members and writes the results.
     pub fn run(&self) -> Result<()> {
         let started = Instant::now();
-        let tmp = sibling(&self.out, "tmp");
-        if tmp.exists() {
-            fs::remove_dir_all(&tmp)?;
+        let summary = write_folder(&self.out, self.overwrite, |tmp| self.run_into(tmp, started))?;
+        if !self.quiet {
+            print!("{summary}");
         }
-        fs::create_dir_all(&tmp)
-            .with_context(|| format!("cannot create the folder {}", tmp.display()))?;
-        match self.run_into(&tmp, started) {
-            Ok(summary) => {
-                replace_dir(&tmp, &self.out, self.overwrite)?;
-                if !self.quiet {
-                    print!("{summary}");
-                }
-                Ok(())
-            }
-            Err(e) => {
-                let _ = fs::remove_dir_all(&tmp);
-                Err(e)
-            }
-        }
+        Ok(())
     }
 
     fn run_into(&self, dir: &Path, started: Instant) -> Result<String> {

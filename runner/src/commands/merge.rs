@@ -7,10 +7,10 @@ use std::fs;
 use std::path::{Path, PathBuf};
 
 use super::batch::combine_priors;
-use super::ensemble::{check_out_dir, write_json};
+use super::ensemble::write_json;
 use crate::cli::MergeArgs;
-use crate::commands::run::{replace_dir, sibling};
 use crate::error::{Context, Error, Result};
+use crate::output::{check_out_dir, replace_dir, sibling};
 
 /// A validated `isodisc merge`.
 #[derive(Debug)]

@@ -9,9 +9,10 @@ use std::path::{Path, PathBuf};
 use std::time::Instant;
 
 use crate::cli::RunArgs;
+use crate::commands::parse_period;
 use crate::error::{Context, Error, Result};
 use crate::forcing::{ForcingReader, ForcingReport, LocalDate, LocalTime};
-use crate::output::{AtomicFile, fmt_num, json_num};
+use crate::output::{AtomicFile, check_out_dir, fmt_num, fnv1a64, json_num, write_folder};
 use crate::simulate::{
     PERIOD_COLUMNS, PeriodRow, Simulated, StepSink, StepView, period_col, simulate,
 };
@@ -140,38 +141,8 @@ impl RunPlan {
     /// Reads and validates the site file and the output folder before any work starts.
     pub fn from_args(args: &RunArgs) -> Result<Self> {
         let site = Site::load(&args.site)?;
-        let parse = |flag: &str, s: &Option<String>| -> Result<Option<LocalTime>> {
-            s.as_deref()
-                .map(|d| {
-                    LocalTime::parse_date(d).map_err(|e| {
-                        Error::msg(format!("--{flag} `{d}`: {e} (expected YYYY-MM-DD)"))
-                    })
-                })
-                .transpose()
-        };
-        let from = parse("from", &args.from)?;
-        // --to is inclusive: the reader's end is the next midnight.
-        let to = parse("to", &args.to)?.map(|t| t.plus_minutes(24 * 60));
-        if let (Some(f), Some(t)) = (from, to)
-            && f >= t
-        {
-            return Err(Error::msg("--from must not be after --to"));
-        }
-        if args.out.exists() {
-            if !args.out.is_dir() {
-                return Err(Error::msg(format!(
-                    "--out {}: exists and is not a folder",
-                    args.out.display()
-                )));
-            }
-            let non_empty = fs::read_dir(&args.out)?.next().is_some();
-            if non_empty && !args.overwrite {
-                return Err(Error::msg(format!(
-                    "--out {}: the folder exists and is not empty; pass --overwrite to replace it",
-                    args.out.display()
-                )));
-            }
-        }
+        let (from, to) = parse_period(&args.period)?;
+        check_out_dir(&args.out, args.overwrite)?;
         if site.co2.is_none()
             && site.file.forcing.columns.co2.is_none()
             && site.file.forcing.preset.is_none()
@@ -201,26 +172,11 @@ impl RunPlan {
     /// Runs the site and writes the results.
     pub fn run(&self) -> Result<()> {
         let started = Instant::now();
-        let tmp = sibling(&self.out, "tmp");
-        if tmp.exists() {
-            fs::remove_dir_all(&tmp)?;
+        let summary = write_folder(&self.out, self.overwrite, |tmp| self.run_into(tmp, started))?;
+        if !self.quiet {
+            print!("{summary}");
         }
-        fs::create_dir_all(&tmp)
-            .with_context(|| format!("cannot create the folder {}", tmp.display()))?;
-        let result = self.run_into(&tmp, started);
-        match result {
-            Ok(summary) => {
-                replace_dir(&tmp, &self.out, self.overwrite)?;
-                if !self.quiet {
-                    print!("{summary}");
-                }
-                Ok(())
-            }
-            Err(e) => {
-                let _ = fs::remove_dir_all(&tmp);
-                Err(e)
-            }
-        }
+        Ok(())
     }
 
     fn run_into(&self, dir: &Path, started: Instant) -> Result<String> {
@@ -403,50 +359,6 @@ fn resolved_network(site: &Site) -> Result<serde_json::Value> {
             })
         })
         .collect())
-}
-
-/// FNV-1a 64-bit hash of the bytes, as 16 hex digits: a checksum to tell whether an input changed.
-pub fn fnv1a64(bytes: &[u8]) -> String {
-    let mut h: u64 = 0xcbf2_9ce4_8422_2325;
-    for b in bytes {
-        h ^= u64::from(*b);
-        h = h.wrapping_mul(0x0000_0100_0000_01b3);
-    }
-    format!("{h:016x}")
-}
-
-pub(crate) fn sibling(dir: &Path, tag: &str) -> PathBuf {
-    let name = dir
-        .file_name()
-        .map(|n| n.to_string_lossy().into_owned())
-        .unwrap_or_else(|| "out".into());
-    dir.with_file_name(format!(".{name}.{tag}-{}", std::process::id()))
-}
-
-/// Puts the finished folder `tmp` in place of `out`. An existing `out` is first moved aside and
-/// removed only after the new one is in place.
-pub(crate) fn replace_dir(tmp: &Path, out: &Path, overwrite: bool) -> Result<()> {
-    if out.exists() {
-        if !overwrite && fs::read_dir(out)?.next().is_some() {
-            return Err(Error::msg(format!(
-                "{} appeared during the run; results left in {}",
-                out.display(),
-                tmp.display()
-            )));
-        }
-        let old = sibling(out, "old");
-        fs::rename(out, &old).with_context(|| format!("cannot move {} aside", out.display()))?;
-        fs::rename(tmp, out)
-            .with_context(|| format!("cannot move the results into {}", out.display()))?;
-        fs::remove_dir_all(&old).with_context(|| format!("cannot remove {}", old.display()))?;
-    } else {
-        if let Some(parent) = out.parent().filter(|p| !p.as_os_str().is_empty()) {
-            fs::create_dir_all(parent)?;
-        }
-        fs::rename(tmp, out)
-            .with_context(|| format!("cannot move the results into {}", out.display()))?;
-    }
-    Ok(())
 }
 
 /// Writes `steps.csv` and `pools_daily.csv` as the simulation goes.
