@@ -18,11 +18,7 @@ const MOMENT_TOL: f64 = 0.01;
 const FROM: &str = "2025-01-01";
 const TO: &str = "2025-02-28";
 
-fn run(args: &[&str]) -> Result<(), String> {
-    let cli = Cli::try_parse_from(std::iter::once("isodisc").chain(args.iter().copied()))
-        .map_err(|e| e.to_string())?;
-    isodisc_runner::run(cli).map_err(|e| e.chain())
-}
+use crate::common::run;
 
 fn demo(rel: &str) -> String {
     Path::new(env!("CARGO_MANIFEST_DIR"))

@@ -2,6 +2,7 @@
 //! trade. One test binary; one module per process. Each check names its source beside it.
 
 mod canopy_water;
+mod common;
 mod ensemble;
 mod isotopes_leaf;
 mod observations;

@@ -5,20 +5,13 @@
 use std::fs;
 use std::path::{Path, PathBuf};
 
-use clap::Parser;
-use isodisc_runner::cli::Cli;
-
 /// Source δ13C from an exact mixture, written with six decimals: the CSV's own resolution is
 /// 5e-7 ‰, so this bounds the fit's error on the way (the written value is compared).
 const TOL_SOURCE_PERMIL: f64 = 1e-9;
 /// Scores written as JSON (six decimals).
 const TOL_SCORE: f64 = 1e-6;
 
-fn run(args: &[&str]) -> Result<(), String> {
-    let cli = Cli::try_parse_from(std::iter::once("isodisc").chain(args.iter().copied()))
-        .map_err(|e| e.to_string())?;
-    isodisc_runner::run(cli).map_err(|e| e.chain())
-}
+use crate::common::run;
 
 fn p(path: &Path) -> &str {
     path.to_str().unwrap()

@@ -4,15 +4,9 @@
 use std::fs;
 use std::path::{Path, PathBuf};
 
-use clap::Parser;
 use isodisc_model::leaf::{C3Params, LeafConditions, LeafOptions, solve_c3};
-use isodisc_runner::cli::Cli;
 
-fn run(args: &[&str]) -> Result<(), String> {
-    let cli = Cli::try_parse_from(std::iter::once("isodisc").chain(args.iter().copied()))
-        .map_err(|e| e.to_string())?;
-    isodisc_runner::run(cli).map_err(|e| e.chain())
-}
+use crate::common::run;
 
 /// A table read back: header and rows of numbers (NaN for empty cells), keyed by column name.
 struct Table {
