@@ -7,7 +7,12 @@ use clap::{Parser, Subcommand, ValueEnum};
 
 /// isodisc: 13C discrimination of vegetation and the δ13C of ecosystem respiration from site weather.
 #[derive(Debug, Parser)]
-#[command(name = "isodisc", version, about, propagate_version = true)]
+#[command(
+    name = "isodisc",
+    version,
+    about = "13C discrimination of vegetation and the d13C of ecosystem respiration from site weather",
+    propagate_version = true
+)]
 pub struct Cli {
     /// What to do.
     #[command(subcommand)]
