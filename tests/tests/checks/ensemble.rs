@@ -403,18 +403,20 @@ fn shards_merge_to_the_one_shot_batch_and_resume() {
     assert!(attrs.contains(&("Conventions".into(), "CF-1.8".into())));
 }
 
+/// A lookup of environment variables from a fixed table.
+fn env<'a>(vars: &'a [(&'static str, &'static str)]) -> impl Fn(&str) -> Option<String> + 'a {
+    move |name: &str| {
+        vars.iter()
+            .find(|(k, _)| *k == name)
+            .map(|(_, v)| v.to_string())
+    }
+}
+
 #[test]
 fn slurm_array_environment_gives_the_shard() {
     // Slurm's array-job variables (sbatch documentation, from memory): task IDs run from
     // SLURM_ARRAY_TASK_MIN to _MAX, SLURM_ARRAY_TASK_COUNT tasks in all.
     use isodisc_runner::commands::batch::shard_from_env;
-    fn env<'a>(vars: &'a [(&'static str, &'static str)]) -> impl Fn(&str) -> Option<String> + 'a {
-        move |name: &str| {
-            vars.iter()
-                .find(|(k, _)| *k == name)
-                .map(|(_, v)| v.to_string())
-        }
-    }
     let four = [
         ("SLURM_ARRAY_TASK_ID", "3"),
         ("SLURM_ARRAY_TASK_COUNT", "4"),

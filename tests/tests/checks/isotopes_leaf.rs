@@ -18,7 +18,7 @@ const TOL_2DP: f64 = 0.006;
 /// Tolerance for identities that hold exactly up to the solver's tolerance.
 const TOL_EXACT: f64 = 1e-9;
 
-fn close(actual: f64, expected: f64, tol: f64, what: &str) {
+fn assert_close(actual: f64, expected: f64, tol: f64, what: &str) {
     assert!(
         (actual - expected).abs() <= tol,
         "{what}: got {actual}, expected {expected} ± {tol}"
@@ -29,9 +29,9 @@ fn close(actual: f64, expected: f64, tol: f64, what: &str) {
 fn delta_ratio_round_trips_and_reference_values() {
     let std = VpdbRatio::default();
     // δ = −8.5‰ → R = 0.0110852 with R_VPDB = 0.0111802 (Werner & Brand 2001).
-    close(std.ratio_from_delta(-8.5), 0.011_085_2, 5e-8, "R at -8.5");
+    assert_close(std.ratio_from_delta(-8.5), 0.011_085_2, 5e-8, "R at -8.5");
     for d in [-40.0, -27.0, -8.5, 0.0, 12.3] {
-        close(
+        assert_close(
             std.delta_from_ratio(std.ratio_from_delta(d)),
             d,
             1e-12,
@@ -39,16 +39,16 @@ fn delta_ratio_round_trips_and_reference_values() {
         );
         // Δ then δp recovers the product (Farquhar, Ehleringer & Hubick 1989 definitions).
         let disc = discrimination_permil(-8.5, d);
-        close(product_delta_permil(-8.5, disc), d, 1e-12, "Δ round trip");
+        assert_close(product_delta_permil(-8.5, disc), d, 1e-12, "Δ round trip");
     }
     // Worked values: δa = −8‰, Δ = 20‰ → δp = −27.451‰; δa = −8.5‰, δp = −27‰ → Δ = 19.013‰
     // (Farquhar, Ehleringer & Hubick 1989 definition; arithmetic by hand).
-    close(product_delta_permil(-8.0, 20.0), -27.451, 0.0005, "δp");
-    close(discrimination_permil(-8.5, -27.0), 19.013, 0.0005, "Δ");
+    assert_close(product_delta_permil(-8.0, 20.0), -27.451, 0.0005, "δp");
+    assert_close(discrimination_permil(-8.5, -27.0), 19.013, 0.0005, "Δ");
     // About 1% of CO2 is 13CO2: 4.39 µmol mol⁻¹ of 400 at −8.5‰ (common practice).
     let (c12, c13) = std.split_co2(400.0, -8.5);
-    close(c13, 4.39, 0.005, "13CO2");
-    close(c12 + c13, 400.0, 1e-12, "split sums");
+    assert_close(c13, 4.39, 0.005, "13CO2");
+    assert_close(c12 + c13, 400.0, 1e-12, "split sums");
     assert!(VpdbRatio::new(0.02).is_err());
     assert!(VpdbRatio::new(f64::NAN).is_err());
 }
@@ -71,7 +71,7 @@ fn bernacchi_2001_kinetics_at_15_25_35_c() {
     ];
     for (name, k25, ea, expected, tol) in table {
         for (t, want) in [15.0, 25.0, 35.0].into_iter().zip(expected) {
-            close(
+            assert_close(
                 k25 * arrhenius_factor(ea, t),
                 want,
                 tol,
@@ -86,38 +86,38 @@ fn peaked_arrhenius_medlyn_2002() {
     // Medlyn et al. 2002 form with Ha 65.33 kJ, Hd 200 kJ, ΔS 650 J/K: f(25) = 1 exactly,
     // f(35) = 1.199, f(40) = 0.779, Topt = 31.7 °C (values worked from the published equation).
     let (ha, hd, ds) = (65_330.0, 200_000.0, 650.0);
-    close(
+    assert_close(
         peaked_arrhenius_factor(ha, hd, ds, 25.0),
         1.0,
         1e-14,
         "f(25)",
     );
-    close(
+    assert_close(
         peaked_arrhenius_factor(ha, hd, ds, 35.0),
         1.199,
         0.0005,
         "f(35)",
     );
-    close(
+    assert_close(
         peaked_arrhenius_factor(ha, hd, ds, 40.0),
         0.779,
         0.0005,
         "f(40)",
     );
-    close(peaked_arrhenius_optimum_c(ha, hd, ds), 31.7, 0.05, "Topt");
+    assert_close(peaked_arrhenius_optimum_c(ha, hd, ds), 31.7, 0.05, "Topt");
 }
 
 #[test]
 fn electron_transport_and_wj_forms() {
     // Non-rectangular hyperbola, I = 1000, Jmax = 150 (worked from the equation):
     // α 0.3, θ 0.7 → 123.87; α 0.3, θ 0.9 → 138.20.
-    close(
+    assert_close(
         electron_transport(1000.0, 150.0, 0.3, 0.7),
         123.87,
         TOL_2DP,
         "J θ=0.7",
     );
-    close(
+    assert_close(
         electron_transport(1000.0, 150.0, 0.3, 0.9),
         138.20,
         TOL_2DP,
@@ -125,13 +125,13 @@ fn electron_transport_and_wj_forms() {
     );
     // Wj with J = 100, cc = 250, Γ* = 42.75: 15.44 (4/8, FvCB 1980 / von Caemmerer 2000) and
     // 13.17 (4.5/10.5).
-    close(
+    assert_close(
         electron_limited_rate(100.0, 250.0, 42.75, ElectronLimit::Nadph),
         15.44,
         TOL_2DP,
         "4/8",
     );
-    close(
+    assert_close(
         electron_limited_rate(100.0, 250.0, 42.75, ElectronLimit::Atp),
         13.17,
         TOL_2DP,
@@ -143,20 +143,20 @@ fn electron_transport_and_wj_forms() {
 fn collatz_1992_vmax_temperature_response() {
     // Collatz, Ribas-Carbo & Berry 1992 (constants from memory): Vmax25 = 39 → 12.57, 36.61, 44.75.
     for (t, want) in [(15.0, 12.57), (25.0, 36.61), (35.0, 44.75)] {
-        close(vmax_at(39.0, t), want, TOL_2DP, &format!("Vmax at {t} °C"));
+        assert_close(vmax_at(39.0, t), want, TOL_2DP, &format!("Vmax at {t} °C"));
     }
 }
 
 #[test]
 fn c3_simple_discrimination_farquhar_1982() {
     // Farquhar, O'Leary & Berry 1982 with a = 4.4‰, b = 27‰: ci/ca 0.7 → 20.22‰, 0.6 → 17.96‰.
-    close(
+    assert_close(
         c3_simple_permil(0.7, 4.4, 27.0),
         20.22,
         TOL_2DP,
         "ci/ca 0.7",
     );
-    close(
+    assert_close(
         c3_simple_permil(0.6, 4.4, 27.0),
         17.96,
         TOL_2DP,
@@ -168,9 +168,9 @@ fn c3_simple_discrimination_farquhar_1982() {
 fn c4_b4_and_leakiness_worked_points() {
     // b4 = −9483/T + 23.89 + 2.2 (Farquhar 1983 with Mook et al. 1974): −6.82, −5.72, −4.68‰ at
     // 15, 25, 35 °C; at 25 °C −5.7 ± 0.05‰.
-    close(c4_b4_permil(25.0), -5.7, 0.05, "b4(25)");
+    assert_close(c4_b4_permil(25.0), -5.7, 0.05, "b4(25)");
     for (t, want) in [(15.0, -6.82), (25.0, -5.72), (35.0, -4.68)] {
-        close(c4_b4_permil(t), want, TOL_2DP, &format!("b4({t})"));
+        assert_close(c4_b4_permil(t), want, TOL_2DP, &format!("b4({t})"));
     }
     // Farquhar 1983 at ci/ca = 0.4, 25 °C, no boundary layer: φ 0.2, 0.3, 0.35 → 2.61, 3.74, 4.30‰.
     for (phi, want) in [(0.2, 2.61), (0.3, 3.74), (0.35, 4.30)] {
@@ -181,7 +181,7 @@ fn c4_b4_and_leakiness_worked_points() {
             s: 1.8,
             leakiness: phi,
         };
-        close(
+        assert_close(
             c4_permil(400.0, 400.0, 160.0, 25.0, &fr),
             want,
             TOL_2DP,
@@ -205,7 +205,7 @@ fn medlyn_ci_ca_without_g0_is_g1_over_g1_plus_sqrt_d() {
                 ..LeafConditions::default()
             };
             let s = solve_c3(&p, &LeafOptions::default(), &c).unwrap();
-            close(
+            assert_close(
                 s.ci_ca,
                 g1 / (g1 + d.sqrt()),
                 TOL_EXACT,
@@ -213,7 +213,7 @@ fn medlyn_ci_ca_without_g0_is_g1_over_g1_plus_sqrt_d() {
             );
             let q = C4Params::with_overrides([("g0", 0.0), ("g1", g1)]).unwrap();
             let s4 = solve_c4(&q, &LeafOptions::default(), &c).unwrap();
-            close(
+            assert_close(
                 s4.ci_ca,
                 g1 / (g1 + d.sqrt()),
                 TOL_EXACT,
@@ -245,13 +245,13 @@ fn comprehensive_equals_simple_in_its_limits() {
             &c,
         )
         .unwrap();
-        close(
+        assert_close(
             comp.discrimination,
             simple.discrimination,
             1e-10,
             "comprehensive vs simple",
         );
-        close(
+        assert_close(
             simple.discrimination,
             c3_simple_permil(simple.ci_ca, 4.4, 27.0),
             1e-12,
@@ -267,9 +267,9 @@ fn supply_and_demand_agree_with_boundary_layer_and_mesophyll() {
     let p = c3_with(&[("gb", 1.5), ("gm", 0.2), ("g0", 0.01)]);
     let s = solve_c3(&p, &LeafOptions::default(), &LeafConditions::default()).unwrap();
     let ca = LeafConditions::default().ca_umol_mol;
-    close(s.a_net, 1.5 / 1.37 * (ca - s.c_s), 1e-6, "boundary layer");
-    close(s.a_net, s.g_s / 1.6 * (s.c_s - s.c_i), 1e-6, "stomata");
-    close(s.c_c, s.c_i - s.a_net / 0.2, 1e-9, "mesophyll");
+    assert_close(s.a_net, 1.5 / 1.37 * (ca - s.c_s), 1e-6, "boundary layer");
+    assert_close(s.a_net, s.g_s / 1.6 * (s.c_s - s.c_i), 1e-6, "stomata");
+    assert_close(s.c_c, s.c_i - s.a_net / 0.2, 1e-9, "mesophyll");
     // A finite mesophyll conductance lowers A and Δ (Evans et al. 1986).
     let open = solve_c3(
         &c3_with(&[("g0", 0.01)]),
@@ -315,8 +315,8 @@ fn night_leaf_respires_and_has_no_discrimination() {
         ..LeafConditions::default()
     };
     let s = solve_c3(&p, &LeafOptions::default(), &c).unwrap();
-    close(s.a_net, -s.rd, 1e-9, "A = -Rd");
-    close(s.g_s, 0.02, 1e-12, "gs = g0");
+    assert_close(s.a_net, -s.rd, 1e-9, "A = -Rd");
+    assert_close(s.g_s, 0.02, 1e-12, "gs = g0");
     assert!(s.discrimination.is_nan());
 }
 
