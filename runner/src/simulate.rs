@@ -233,7 +233,10 @@ pub fn simulate(
     while let Some(item) = steps.peek() {
         let f = match item {
             Ok(f) => f.clone(),
-            Err(_) => break,
+            Err(_) => {
+                let e = steps.next().expect("peeked").expect_err("peeked an error");
+                return Err(e).with_context(|| format!("site {}", site.path.display()));
+            }
         };
         let end = *year_end.get_or_insert(f.time.plus_minutes(365 * 1440));
         if f.time >= end {
@@ -418,7 +421,10 @@ impl Pools {
         let state = match &site.history {
             Some(h) => {
                 let t0 = first_time.expect("n > 0");
-                let start_year = f64::from(t0.year()) + f64::from(t0.day_of_year() - 1) / 365.25;
+                // Beyond the history's last year its last value holds: carry the pools to there.
+                let last = h.rows().last().map_or(f64::INFINITY, |r| r.year);
+                let start_year =
+                    (f64::from(t0.year()) + f64::from(t0.day_of_year() - 1) / 365.25).min(last);
                 model
                     .spin_up_with_history(h, mean_disc, &mean, start_year)
                     .with_context(|| {

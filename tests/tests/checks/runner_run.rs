@@ -504,3 +504,40 @@ fn every_bad_weather_input_names_line_and_column_and_leaves_the_folder_as_it_was
     );
     assert!(!out.exists());
 }
+
+#[test]
+fn a_period_inside_or_outside_the_weather_is_run_or_named() {
+    // Common practice: a run of part of a year starts its pools there (the demo's history ends in
+    // the run's year, and its last value holds after it); a period with no weather is an error
+    // that says so, not a failure of some later stage.
+    let dir = tempfile::tempdir().unwrap();
+    let site = Path::new(env!("CARGO_MANIFEST_DIR")).join("../forcing-demo/site.toml");
+    let out = dir.path().join("june");
+    run(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--from",
+        "2025-06-01",
+        "--to",
+        "2025-06-30",
+        "--quiet",
+    ])
+    .unwrap();
+    let daily = Table::read(&out.join("daily.csv"));
+    assert_eq!(daily.rows.len(), 30);
+    assert!(daily.num(29, "d13c_respiration").is_finite());
+    let err = run(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        dir.path().join("none").to_str().unwrap(),
+        "--from",
+        "2026-06-01",
+        "--to",
+        "2026-06-30",
+    ])
+    .unwrap_err();
+    assert!(err.contains("no step between 2026-06-01"), "{err}");
+}
