@@ -13,6 +13,7 @@ pub mod priors;
 pub mod simulate;
 pub mod site;
 pub mod site_params;
+pub mod table;
 
 use std::process::ExitCode;
 

@@ -70,6 +70,14 @@ pub fn write_atomic(target: &Path, contents: &[u8]) -> Result<()> {
     f.commit()
 }
 
+/// Writes `value` as pretty JSON (with a final newline) to `path`, atomically.
+pub fn write_json(path: &Path, value: &serde_json::Value) -> Result<()> {
+    let mut f = AtomicFile::create(path)?;
+    serde_json::to_writer_pretty(f.writer(), value)?;
+    writeln!(f.writer())?;
+    f.commit()
+}
+
 /// Formats a number for CSV: empty when NaN (a missing value, never a made-up number), otherwise
 /// rounded to six decimals with trailing zeros dropped (finer than any input or output here needs:
 /// µmol, ‰, gC m⁻²). Written digit by digit because million-row outputs spend most of their time

@@ -751,44 +751,22 @@ impl Aggregator {
     }
 }
 
-/// Reads an atmospheric history file (`year,co2,d13c`), naming file and line on errors.
+/// Reads an atmospheric history file (`year,co2,d13c`), naming file, line and column on errors.
 pub fn read_history(path: &std::path::Path) -> Result<AtmosphereHistory> {
     use isodisc_model::pools::AtmosphereRow;
-    let mut rdr = csv::ReaderBuilder::new()
-        .trim(csv::Trim::All)
-        .comment(Some(b'#'))
-        .from_path(path)
-        .with_context(|| format!("cannot read the atmospheric history {}", path.display()))?;
-    let header = rdr.headers()?.clone();
-    let col = |name: &str| {
-        header.iter().position(|h| h == name).ok_or_else(|| {
-            crate::error::Error::msg(format!(
-                "{}: line 1: no column `{name}` (expected year,co2,d13c)",
-                path.display()
-            ))
+    let table = crate::table::CsvTable::read(path)
+        .with_context(|| format!("atmospheric history {}", path.display()))?;
+    let column = |name: &str| table.column(name).and_then(|c| table.numbers(c));
+    let (years, co2, d13c) = (column("year")?, column("co2")?, column("d13c")?);
+    let rows = years
+        .iter()
+        .zip(&co2)
+        .zip(&d13c)
+        .map(|((&year, &co2_umol_mol), &d13c_permil)| AtmosphereRow {
+            year,
+            co2_umol_mol,
+            d13c_permil,
         })
-    };
-    let (cy, cc, cd) = (col("year")?, col("co2")?, col("d13c")?);
-    let mut rows = Vec::new();
-    for rec in rdr.records() {
-        let rec = rec.with_context(|| format!("cannot read {}", path.display()))?;
-        let line = rec.position().map_or(0, |p| p.line());
-        let num = |i: usize| -> Result<f64> {
-            rec.get(i).unwrap_or("").parse::<f64>().map_err(|_| {
-                crate::error::Error::msg(format!(
-                    "{}: line {line}, column {} (`{}`): `{}` is not a number",
-                    path.display(),
-                    i + 1,
-                    &header[i],
-                    rec.get(i).unwrap_or("")
-                ))
-            })
-        };
-        rows.push(AtmosphereRow {
-            year: num(cy)?,
-            co2_umol_mol: num(cc)?,
-            d13c_permil: num(cd)?,
-        });
-    }
+        .collect();
     AtmosphereHistory::new(rows).with_context(|| format!("atmospheric history {}", path.display()))
 }

@@ -20,9 +20,7 @@ use std::time::Instant;
 use indicatif::{ParallelProgressIterator, ProgressBar};
 use rayon::prelude::*;
 
-use super::ensemble::{
-    check_spec_paths, read_steps, thread_pool, write_ensemble_files, write_json,
-};
+use super::ensemble::{check_spec_paths, read_steps, thread_pool, write_ensemble_files};
 use crate::cli::BatchArgs;
 use crate::commands::run::write_periods;
 use crate::commands::{Period, parse_period};
@@ -31,7 +29,7 @@ use crate::ensemble::spec::EnsembleSpec;
 use crate::ensemble::{Member, MemberPeriods, MemberStatus, run_members};
 use crate::error::{Context, Error, Result};
 use crate::output::write_atomic;
-use crate::output::{fnv1a64, replace_dir, sibling};
+use crate::output::{fnv1a64, replace_dir, sibling, write_json};
 use crate::priors::{PriorRow, prior_rows, read_priors_csv, write_priors, write_priors_csv};
 use crate::simulate::{NoSink, simulate};
 

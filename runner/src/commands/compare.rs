@@ -6,129 +6,15 @@
 
 use std::collections::BTreeMap;
 use std::io::{self, Write};
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 use isodisc_model::observations::{LagAnalysis, LagSettings, Scores, lag_analysis, scores};
 use serde_json::json;
 
 use crate::cli::{CompareArgs, Format, MatchArg};
 use crate::error::{Context, Error, Result};
-use crate::forcing::time::LocalTime;
 use crate::output::{AtomicFile, json_num};
-
-/// A whole CSV file held in memory (run outputs and observation files are small), with lookups by
-/// column name whose errors list the known columns.
-pub(crate) struct CsvTable {
-    path: PathBuf,
-    header: Vec<String>,
-    rows: Vec<csv::StringRecord>,
-}
-
-impl CsvTable {
-    /// Reads `path` (cells trimmed).
-    pub(crate) fn read(path: &Path) -> Result<Self> {
-        let mut rdr = csv::ReaderBuilder::new()
-            .trim(csv::Trim::All)
-            .from_path(path)
-            .with_context(|| format!("cannot open {}", path.display()))?;
-        let header = rdr
-            .headers()
-            .with_context(|| format!("cannot read the header of {}", path.display()))?
-            .iter()
-            .map(String::from)
-            .collect();
-        let rows = rdr
-            .records()
-            .collect::<std::result::Result<Vec<_>, _>>()
-            .with_context(|| format!("cannot read {}", path.display()))?;
-        Ok(Self {
-            path: path.to_path_buf(),
-            header,
-            rows,
-        })
-    }
-
-    /// True when the file has a column `name`.
-    pub(crate) fn has(&self, name: &str) -> bool {
-        self.header.iter().any(|h| h == name)
-    }
-
-    /// The index of column `name`, or an error naming the file and its known columns.
-    pub(crate) fn column(&self, name: &str) -> Result<usize> {
-        self.header.iter().position(|h| h == name).ok_or_else(|| {
-            Error::msg(format!(
-                "{} has no column {name}; known: {}",
-                self.path.display(),
-                self.header.join(", ")
-            ))
-        })
-    }
-
-    /// The first of `names` that exists, or an error listing them and the known columns.
-    fn first_column(&self, names: &[&str]) -> Result<usize> {
-        names
-            .iter()
-            .find_map(|n| self.header.iter().position(|h| h == n))
-            .ok_or_else(|| {
-                Error::msg(format!(
-                    "{} has no {} column; known: {}",
-                    self.path.display(),
-                    names.join(" or "),
-                    self.header.join(", ")
-                ))
-            })
-    }
-
-    fn bad(&self, row: usize, col: usize, why: &str) -> Error {
-        let r = &self.rows[row];
-        Error::msg(format!(
-            "{}: line {}, column {}: `{}` {why}",
-            self.path.display(),
-            r.position().map_or(0, |p| p.line()),
-            self.header[col],
-            &r[col]
-        ))
-    }
-
-    /// The text of row `row` (0 = first data row), column `col`.
-    pub(crate) fn cell(&self, row: usize, col: usize) -> &str {
-        &self.rows[row][col]
-    }
-
-    /// The numbers of column `col`; an empty cell (a gap) is NaN.
-    pub(crate) fn numbers(&self, col: usize) -> Result<Vec<f64>> {
-        (0..self.rows.len())
-            .map(|i| {
-                let s = &self.rows[i][col];
-                if s.is_empty() {
-                    return Ok(f64::NAN);
-                }
-                s.parse::<f64>()
-                    .map_err(|_| self.bad(i, col, "is not a number"))
-            })
-            .collect()
-    }
-
-    /// The times of column `col`: ISO `YYYY-MM-DDTHH:MM[:SS]`, or a date `YYYY-MM-DD` (midnight).
-    pub(crate) fn times(&self, col: usize) -> Result<Vec<LocalTime>> {
-        (0..self.rows.len())
-            .map(|i| {
-                let s = &self.rows[i][col];
-                let t = if s.len() == 10 {
-                    LocalTime::parse_date(s)
-                } else {
-                    LocalTime::parse_iso(s)
-                };
-                t.map_err(|e| self.bad(i, col, &e.to_string()))
-            })
-            .collect()
-    }
-
-    /// The times of the `time` (or `date`) column.
-    pub(crate) fn time_column(&self) -> Result<Vec<LocalTime>> {
-        self.times(self.first_column(&["time", "date"])?)
-    }
-}
+pub(crate) use crate::table::CsvTable;
 
 /// A series keyed by day (days since 1970-01-01) or by minute, several values per key averaged.
 pub(crate) type Keyed = BTreeMap<i64, f64>;

@@ -6,7 +6,6 @@
 //! are byte-identical for any thread count.
 
 use std::fs;
-use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::time::Instant;
 
@@ -19,8 +18,8 @@ use crate::ensemble::summary::{write_members, write_quantiles, write_sensitivity
 use crate::ensemble::{Member, MemberStatus, run_members};
 use crate::error::{Context, Error, Result};
 use crate::forcing::{ForcingReader, ForcingReport, ForcingStep};
-use crate::output::AtomicFile;
-use crate::output::{check_out_dir, fnv1a64, write_folder};
+
+use crate::output::{check_out_dir, fnv1a64, write_folder, write_json};
 use crate::site::Site;
 
 /// Reads a site's weather once into memory, for every member to replay.
@@ -110,14 +109,6 @@ pub(crate) fn write_ensemble_files(
     write_quantiles(&dir.join("quantiles_monthly.csv"), members, false)?;
     write_quantiles(&dir.join("quantiles_annual.csv"), members, true)?;
     write_sensitivity(&dir.join("sensitivity.csv"), spec, members)
-}
-
-/// Writes `run.json`.
-pub(crate) fn write_json(path: &Path, value: &serde_json::Value) -> Result<()> {
-    let mut f = AtomicFile::create(path)?;
-    serde_json::to_writer_pretty(f.writer(), value)?;
-    writeln!(f.writer())?;
-    f.commit()
 }
 
 /// A validated `isodisc ensemble`.

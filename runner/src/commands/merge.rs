@@ -7,10 +7,9 @@ use std::fs;
 use std::path::{Path, PathBuf};
 
 use super::batch::combine_priors;
-use super::ensemble::write_json;
 use crate::cli::MergeArgs;
 use crate::error::{Context, Error, Result};
-use crate::output::{check_out_dir, replace_dir, sibling};
+use crate::output::{check_out_dir, replace_dir, sibling, write_json};
 
 /// A validated `isodisc merge`.
 #[derive(Debug)]

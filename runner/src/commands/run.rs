@@ -12,7 +12,9 @@ use crate::cli::RunArgs;
 use crate::commands::parse_period;
 use crate::error::{Context, Error, Result};
 use crate::forcing::{ForcingReader, ForcingReport, LocalDate, LocalTime};
-use crate::output::{AtomicFile, check_out_dir, fmt_num, fnv1a64, json_num, write_folder};
+use crate::output::{
+    AtomicFile, check_out_dir, fmt_num, fnv1a64, json_num, write_folder, write_json,
+};
 use crate::simulate::{
     PERIOD_COLUMNS, PeriodRow, Simulated, StepSink, StepView, period_col, simulate,
 };
@@ -332,10 +334,7 @@ impl RunPlan {
             },
             "wall_time_s": started.elapsed().as_secs_f64(),
         });
-        let mut f = AtomicFile::create(&dir.join("run.json"))?;
-        serde_json::to_writer_pretty(f.writer(), &log)?;
-        writeln!(f.writer())?;
-        f.commit()
+        write_json(&dir.join("run.json"), &log)
     }
 }
 
