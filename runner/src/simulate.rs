@@ -7,6 +7,8 @@
 use isodisc_model::isotopes::product_delta_permil;
 use isodisc_model::leaf::Pathway;
 use isodisc_model::observations::{LagSettings, lag_analysis};
+use isodisc_model::phenology::running_mean_step;
+use isodisc_model::pools::response::T_SOIL_RANGE_C;
 use isodisc_model::pools::{
     AtmosphereHistory, Forcing, MeanDrivers, PoolModel, PoolState, StepResult,
 };
@@ -21,8 +23,8 @@ pub const GC_PER_UMOL: f64 = 12.011e-6;
 /// Seconds per day.
 const SECONDS_PER_DAY: f64 = 86_400.0;
 /// Time constant (days) of the running mean of air temperature that stands for soil temperature
-/// (common practice, from memory: soil lags and damps the air).
-pub const SOIL_TEMPERATURE_LAG_DAYS: f64 = 7.0;
+/// (common practice, from memory: soil lags and damps the air); the cold rule uses the same.
+pub use isodisc_model::phenology::SOIL_TEMPERATURE_LAG_DAYS;
 /// Longest lag (days) searched for the effective lag of δR behind the assimilate.
 pub const MAX_LAG_DAYS: usize = 20;
 
@@ -405,7 +407,7 @@ impl Pools {
         let days = seconds / SECONDS_PER_DAY;
         let mean = MeanDrivers {
             assimilation_gc_m2_day: gpp_gc / days,
-            t_soil_c: t_sum / n as f64,
+            t_soil_c: (t_sum / n as f64).clamp(T_SOIL_RANGE_C.0, T_SOIL_RANGE_C.1),
             moisture: beta_sum / n as f64,
         };
         let mean_disc = w_disc / gpp_gc;
@@ -470,9 +472,15 @@ impl Pools {
         s: &SiteStep,
         step_days: f64,
     ) -> Result<RespirationStep> {
-        // Soil temperature: running mean of air temperature with a time constant of a week.
-        let w = 1.0 - (-step_days / SOIL_TEMPERATURE_LAG_DAYS).exp();
-        self.t_soil_c += w * (d.t_air_c - self.t_soil_c);
+        // Soil temperature: running mean of air temperature with a time constant of a week, held
+        // within the range of the decomposition response (snow and soil insulate the deep cold).
+        self.t_soil_c = running_mean_step(
+            self.t_soil_c,
+            d.t_air_c,
+            step_days,
+            SOIL_TEMPERATURE_LAG_DAYS,
+        )
+        .clamp(T_SOIL_RANGE_C.0, T_SOIL_RANGE_C.1);
         if s.d13c_assimilate_permil.is_finite() {
             self.last_d13c_assimilate = s.d13c_assimilate_permil;
         }
