@@ -400,7 +400,8 @@ impl Pools {
         if n == 0 || gpp_gc <= 0.0 {
             return Err(crate::error::Error::msg(format!(
                 "{}: the first year of the run has no step with photosynthesis, so the pools cannot \
-                 be started at a steady state",
+                 be started at a steady state (a run of cold months alone, when frost or frozen soil \
+                 stops photosynthesis, or of leafless months: run a whole year)",
                 site.path.display()
             )));
         }

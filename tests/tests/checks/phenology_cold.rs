@@ -347,8 +347,19 @@ fn keys_and_params_override_the_preset() {
         45.0,
         "[vegetation.c3]\npreset = \"evergreen-needleleaf\"\ncover = 1.0\nlai_max = 6.0",
     ));
-    let p = site.unwrap().settings.vegetation[0].phenology.unwrap();
+    let mut site = site.unwrap();
+    let p = site.settings.vegetation[0].phenology.unwrap();
     assert_eq!((p.lai_min_m2_m2(), p.lai_max_m2_m2()), (3.0, 6.0));
+    // Ensembles and batches set the range by its dotted path; a constant LAI is refused there.
+    site.set_param("vegetation.c3.lai_max", 7.0).unwrap();
+    assert_eq!(site.param_value("vegetation.c3.lai_max"), Some(7.0));
+    assert_eq!(site.param_value("vegetation.c3.lai"), None);
+    assert!(site.set_param("vegetation.c3.lai", 2.0).is_err());
+    let e = site
+        .set_param("vegetation.c3.lai_min", 8.0)
+        .unwrap_err()
+        .chain();
+    assert!(e.contains("lai_min"), "{e}");
 }
 
 #[test]
