@@ -314,6 +314,11 @@ fn load(site: &str) -> (tempfile::TempDir, Result<Site, String>) {
     (dir, r)
 }
 
+/// The error of loading a site at 45° N whose vegetation block is `veg`.
+fn load_error(veg: &str) -> String {
+    load(&site_text(45.0, veg)).1.unwrap_err()
+}
+
 #[test]
 fn keys_and_params_override_the_preset() {
     // Precedence (common practice for layered settings): leaf defaults < preset < the block's keys
@@ -365,42 +370,26 @@ fn keys_and_params_override_the_preset() {
 #[test]
 fn preset_errors_suggest_the_closest_name_and_the_right_block() {
     // Unknown names suggest the closest known one (edit distance; common practice).
-    let (_d, r) = load(&site_text(
-        45.0,
-        "[vegetation.c3]\npreset = \"decidous-broadleaf\"\ncover = 1.0",
-    ));
-    let e = r.unwrap_err();
+    let e = load_error("[vegetation.c3]\npreset = \"decidous-broadleaf\"\ncover = 1.0");
     assert!(
         e.contains("did you mean \"deciduous-broadleaf\"") && e.contains("line 9"),
         "{e}"
     );
     // A C4 preset in a C3 block names the key and the block it belongs in.
-    let (_d, r) = load(&site_text(
-        45.0,
-        "[vegetation.c3]\npreset = \"c4-grass\"\ncover = 1.0",
-    ));
-    let e = r.unwrap_err();
+    let e = load_error("[vegetation.c3]\npreset = \"c4-grass\"\ncover = 1.0");
     assert!(
         e.contains("preset") && e.contains("[vegetation.c4]") && e.contains("line 9"),
         "{e}"
     );
     // A wrong lai value says what the key takes.
-    let (_d, r) = load(&site_text(
-        45.0,
-        "[vegetation.c3]\ncover = 1.0\nlai = \"phenolgy\"",
-    ));
-    let e = r.unwrap_err();
+    let e = load_error("[vegetation.c3]\ncover = 1.0\nlai = \"phenolgy\"");
     assert!(
         e.contains("\"forcing\"") && e.contains("\"phenology\"") && e.contains("number"),
         "{e}"
     );
     assert!(!e.contains("untagged"), "{e}");
     // lai = "phenology" without a preset needs its range and kind.
-    let (_d, r) = load(&site_text(
-        45.0,
-        "[vegetation.c3]\ncover = 1.0\nlai = \"phenology\"",
-    ));
-    let e = r.unwrap_err();
+    let e = load_error("[vegetation.c3]\ncover = 1.0\nlai = \"phenology\"");
     assert!(e.contains("lai_max") && e.contains("gsi"), "{e}");
     // And with them it loads.
     let (_d, r) = load(&site_text(
@@ -483,11 +472,8 @@ fn inf_and_the_lloyd_taylor_spelling_are_accepted() {
         );
     }
     // inf is refused where the range is finite, with the parameter's name.
-    let (_d, r) = load(&site_text(
-        45.0,
-        "[vegetation.c3]\ncover = 1.0\nlai = 3.0\nparams = { g1 = inf }",
-    ));
-    assert!(r.unwrap_err().contains("g1"));
+    let e = load_error("[vegetation.c3]\ncover = 1.0\nlai = 3.0\nparams = { g1 = inf }");
+    assert!(e.contains("g1") && e.contains("line 11"), "{e}");
     run(&["leaf", "--set", "gm=inf", "--format", "json"]).unwrap();
     for spelling in ["lloyd-taylor", "lloyd_taylor"] {
         let (_d, site) = load(&format!(
