@@ -475,6 +475,24 @@ fn inf_and_the_lloyd_taylor_spelling_are_accepted() {
     let e = load_error("[vegetation.c3]\ncover = 1.0\nlai = 3.0\nparams = { g1 = inf }");
     assert!(e.contains("g1") && e.contains("line 11"), "{e}");
     run(&["leaf", "--set", "gm=inf", "--format", "json"]).unwrap();
+    // ... and `--input` cells: an infinite gm gives cc = ci (no mesophyll drawdown).
+    let dir = tempfile::tempdir().unwrap();
+    let (input, output) = (dir.path().join("in.csv"), dir.path().join("out.csv"));
+    fs::write(&input, "gm\ninf\n0.3\n").unwrap();
+    run(&[
+        "leaf",
+        "--input",
+        input.to_str().unwrap(),
+        "--output",
+        output.to_str().unwrap(),
+        "--format",
+        "csv",
+    ])
+    .unwrap();
+    let (_, ci) = column(&output, "c_i");
+    let (_, cc) = column(&output, "c_c");
+    assert_eq!(ci[0], cc[0]);
+    assert!(cc[1] < ci[1] - 1.0, "finite gm draws cc below ci");
     for spelling in ["lloyd-taylor", "lloyd_taylor"] {
         let (_d, site) = load(&format!(
             "{}\n[pools]\ntemperature_response = \"{spelling}\"\n",
