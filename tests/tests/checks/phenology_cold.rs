@@ -8,9 +8,13 @@ use std::fmt::Write as _;
 use std::fs;
 use std::path::{Path, PathBuf};
 
-use isodisc_model::phenology::{daily_gsi, index_photoperiod, index_tmin, index_vpd};
+use isodisc_model::phenology::{
+    ColdState, Phenology, PhenologyKind, PhenologySettings, daily_gsi, index_photoperiod,
+    index_tmin, index_vpd,
+};
 use isodisc_model::presets::PRESETS;
 use isodisc_runner::site::Site;
+use proptest::prelude::*;
 
 use crate::common::run;
 
@@ -499,5 +503,36 @@ fn inf_and_the_lloyd_taylor_spelling_are_accepted() {
             site_text(45.0, "[vegetation.c3]\ncover = 1.0\nlai = 3.0")
         ));
         assert!(site.is_ok(), "{spelling}: {site:?}");
+    }
+}
+
+proptest! {
+    /// Bounds that follow from the definitions (no source needed): LAI stays within
+    /// [lai_min, lai_max]; the cold factor lies in [0, 1] and is 0 whenever the air is at or below
+    /// −2 °C (the bottom of the ramp) or the soil's running mean is at or below 0 °C.
+    #[test]
+    fn lai_and_cold_factor_stay_in_their_bounds(
+        lai_min in 0.0..3.0f64,
+        extra in 0.0..5.0f64,
+        water in proptest::bool::ANY,
+        hours in proptest::collection::vec(
+            (-70.0..45.0f64, 0.0..6.0f64, 0.0..1.0f64), 1..400,
+        ),
+    ) {
+        let kind = if water { PhenologyKind::GsiSoilWater } else { PhenologyKind::Gsi };
+        let settings = PhenologySettings::new(kind, lai_min, lai_min + extra).unwrap();
+        let mut phenology = Phenology::new(settings);
+        let mut cold = ColdState::default();
+        for (i, &(t, vpd, beta)) in hours.iter().enumerate() {
+            let day = (i / 24) as u32 + 1;
+            let lai = phenology.step((2025, day), t, vpd, beta, 12.0);
+            prop_assert!(lai >= lai_min - 1e-12 && lai <= lai_min + extra + 1e-12);
+            let c = cold.step(t, 1.0);
+            prop_assert!((0.0..=1.0).contains(&c.factor));
+            if t <= -2.0 || c.t_soil_c <= 0.0 {
+                prop_assert_eq!(c.factor, 0.0);
+            }
+            prop_assert!(c.tmin_24h_c <= t);
+        }
     }
 }
