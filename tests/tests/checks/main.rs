@@ -3,6 +3,7 @@
 
 mod canopy_water;
 mod common;
+mod docs;
 mod ensemble;
 mod isotopes_leaf;
 mod observations;
