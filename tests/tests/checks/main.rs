@@ -7,6 +7,7 @@ mod docs;
 mod ensemble;
 mod isotopes_leaf;
 mod observations;
+mod plots;
 mod pools;
 mod runner_forcing;
 mod runner_leaf;

@@ -573,22 +573,22 @@ fn plot_writes_svg_figures_with_their_axis_labels() {
         p(&observed),
     ])
     .unwrap();
+    // Typographic titles (checked in detail in plots.rs).
     let expected: [(&str, &[&str]); 5] = [
         (
             "discrimination_daily.svg",
             &[
                 "Δ (‰)",
-                "date (local standard time)",
+                "2025 (local standard time)",
                 "ecosystem",
-                "C3",
-                "C4",
+                "C₃",
+                "C₄",
             ],
         ),
         (
             "d13c_respiration.svg",
             &[
-                "δR (‰ VPDB)",
-                "date (local standard time)",
+                "δ¹³C of respiration (‰ VPDB)",
                 "predicted",
                 "observed (daily mean)",
             ],
@@ -596,19 +596,19 @@ fn plot_writes_svg_figures_with_their_axis_labels() {
         (
             "keeling_A.svg",
             &[
-                "1/CO2 (mol µmol⁻¹)",
-                "δ13C of CO2 (‰ VPDB)",
+                "1/CO₂ (mol mmol⁻¹)",
+                "δ¹³C of CO₂ (‰ VPDB)",
                 "samples",
-                "york: source -26.00 ‰",
+                "York: source −26.00 ‰",
             ],
         ),
         (
             "keeling_B.svg",
-            &["1/CO2 (mol µmol⁻¹)", "ols: source -12.00 ‰"],
+            &["1/CO₂ (mol mmol⁻¹)", "OLS: source −12.00 ‰"],
         ),
         (
             "ensemble_discrimination.svg",
-            &["discrimination (‰)", "month", "5–95 %", "median", "2025-01"],
+            &["Δ (‰)", "2025", "5–95 %", "median", "Jan"],
         ),
     ];
     for (name, labels) in expected {
@@ -625,7 +625,8 @@ fn plot_writes_svg_figures_with_their_axis_labels() {
     // Group A's figure has its own 6 samples plus the legend's marker, not B's samples taken at
     // the same times.
     let keeling_a = fs::read_to_string(figs.join("keeling_A.svg")).unwrap();
-    assert_eq!(keeling_a.matches("<circle").count(), 7);
+    // (Samples are grey crosses of two lines each.)
+    assert_eq!(keeling_a.matches("stroke=\"#5A5A5A\"").count(), 2 * 7);
     // No temporary files left behind by the atomic writes.
     let names: Vec<PathBuf> = fs::read_dir(&figs)
         .unwrap()
