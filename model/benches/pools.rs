@@ -1,4 +1,4 @@
-//! Pool benchmarks. Targets (SCIENCE.md §6 brief): one year of hourly steps of the four-pool
+//! Pool benchmarks. Targets (docs/science.md): one year of hourly steps of the four-pool
 //! network ≤ 10 ms for the pools alone (the whole year, leaf work included, ≤ 40 ms); a
 //! spin-up through a 320-year history ≤ 50 ms per site.
 //!

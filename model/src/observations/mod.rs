@@ -1,4 +1,4 @@
-//! Comparing predictions with observations (SCIENCE.md §7):
+//! Comparing predictions with observations (docs/science.md):
 //!
 //! - [`keeling`]: source δ13C from canopy-air samples — Keeling plots (Keeling 1958) by OLS,
 //!   geometric-mean or York regression, and Miller–Tans (2003) — with standard errors, 95 %

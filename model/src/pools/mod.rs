@@ -1,5 +1,5 @@
 //! Carbon and 13C pools as linear ODEs: the respiration lag and the isotopic disequilibrium
-//! (SCIENCE.md §6).
+//! (docs/science.md).
 //!
 //! Assimilated carbon enters labile plant pools and moves, by first-order turnover and fixed
 //! transfer fractions, through litter and soil pools, each releasing part of its outflow as

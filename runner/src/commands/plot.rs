@@ -1,13 +1,22 @@
-//! `isodisc plot`: SVG figures from a run folder — the seasonal course of GPP-weighted daily Δ per
-//! pathway and for the ecosystem, predicted δ13C of respiration against observations, Keeling
-//! plots (δ13C against 1/CO2, Keeling 1958) of chosen groups with their fitted lines, and ensemble
-//! envelopes. Series differ in dash pattern or marker as well as colour, so the figures survive
-//! greyscale printing. SVG needs no system library; text stays SVG `<text>`.
+//! `isodisc plot`: SVG figures from a run folder — a one-page overview of the run, the seasonal
+//! course of daily Δ per pathway and for the ecosystem (each day's point as opaque as its GPP is
+//! large, with GPP-weighted running means), predicted δ13C of respiration against observations,
+//! Keeling plots (δ13C against 1/CO2, Keeling 1958) of chosen groups with their fitted lines, and
+//! ensemble envelopes.
+//!
+//! Made for slides and papers: time axes ticked at month starts (year starts for long runs),
+//! typographic axis titles with units, legends in their own row above the plot so they hide no
+//! data, and series that differ in dash pattern and marker as well as colour, so they stay apart
+//! in greyscale. Text is sized to stay readable with a figure shrunk to half a slide. SVG needs no
+//! system library; text stays SVG `<text>`.
+//!
+//! [`PlotPlan::figures`] builds every figure in memory; [`PlotPlan::draw`] writes them.
 
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
 use plotters::coord::Shift;
+use plotters::coord::ranged1d::{DefaultFormatting, KeyPointHint};
 use plotters::element::DashedPathElement;
 use plotters::prelude::*;
 
@@ -15,42 +24,106 @@ use crate::cli::{MatchArg, PlotArgs};
 use crate::commands::compare::{CsvTable, Keyed, observed_series};
 use crate::commands::keeling::SampleReader;
 use crate::error::{Error, Result};
-use crate::forcing::time::LocalTime;
+use crate::forcing::time::{LocalDate, LocalTime};
 use crate::output::write_atomic;
-use crate::simulate::PERIOD_COLUMNS;
 
-/// Figure size (pixels).
-const SIZE: (u32, u32) = (960, 600);
-/// Font sizes (pixels): title, axis titles, tick labels and legend.
-const FONT_TITLE: u32 = 30;
-const FONT_AXIS: u32 = 24;
-const FONT_TICK: u32 = 19;
-/// Okabe–Ito colours of clearly different lightness (black, blue, orange, bluish green), so that
-/// they also stay apart in greyscale; each series has its own dash pattern or marker too.
-const COLOURS: [RGBColor; 4] = [
+/// Size of a single figure (pixels), 16:10.
+const SIZE: (u32, u32) = (1200, 750);
+/// One panel of the overview page; the page is 2 panels wide and 3 high.
+const PANEL: (u32, u32) = (1100, 720);
+/// Font sizes (pixels as drawn): at half a 1280-pixel-wide slide a figure is drawn at about half
+/// its size, so tick labels of 26 px stay at 13 px or more. plotters writes an SVG font size of
+/// its size / 1.24 (points), so these are passed through [`font`].
+const FONT_TITLE: u32 = 32;
+const FONT_AXIS: u32 = 30;
+const FONT_TICK: u32 = 26;
+const FONT_NOTE: u32 = 22;
+
+/// The plotters font of `px` pixels as drawn.
+fn font(px: u32) -> (&'static str, f64) {
+    (FONT, px as f64 * 1.24)
+}
+const LINE_WIDTH: u32 = 4;
+const FONT: &str = "sans-serif";
+/// Okabe–Ito colours of clearly different lightness (black, blue, orange, bluish green,
+/// vermillion), so that they also stay apart in greyscale.
+const COLOURS: [RGBColor; 5] = [
     RGBColor(0, 0, 0),
     RGBColor(0, 114, 178),
     RGBColor(230, 159, 0),
     RGBColor(0, 158, 115),
+    RGBColor(213, 94, 0),
 ];
 /// Dash patterns (dash, gap in pixels); None is a solid line.
-const DASHES: [Option<(u32, u32)>; 4] = [None, Some((12, 6)), Some((3, 4)), Some((16, 4))];
+const DASHES: [Option<(u32, u32)>; 4] = [None, Some((18, 9)), Some((4, 7)), Some((24, 6))];
+/// Days of the GPP-weighted running mean drawn through daily Δ.
+const RUNNING_DAYS: usize = 15;
+const MONTHS: [&str; 12] = [
+    "Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec",
+];
 
-/// How a series is drawn.
+/// How a series is drawn: an optional line (dash pattern `DASHES[k]`) and an optional marker
+/// (0 circle, 1 triangle, 2 square, 3 diamond, 4 cross).
 #[derive(Debug, Clone, Copy, PartialEq)]
-enum Mark {
-    /// A line with dash pattern `DASHES[i]`; NaN values break it.
-    Line(usize),
-    /// Unjoined markers: 0 circle, 1 triangle, 2 cross.
-    Points(usize),
+struct Mark {
+    dash: Option<usize>,
+    marker: Option<usize>,
+    /// With a line: a marker every this many points (so lines differ in greyscale by marker too).
+    marker_every: usize,
 }
 
-/// One series of a figure.
+impl Mark {
+    fn line(dash: usize) -> Self {
+        Mark {
+            dash: Some(dash),
+            marker: None,
+            marker_every: 0,
+        }
+    }
+    fn line_marked(dash: usize, marker: usize, every: usize) -> Self {
+        Mark {
+            dash: Some(dash),
+            marker: Some(marker),
+            marker_every: every.max(1),
+        }
+    }
+    fn points(marker: usize) -> Self {
+        Mark {
+            dash: None,
+            marker: Some(marker),
+            marker_every: 1,
+        }
+    }
+}
+
+/// One series of a figure. NaN values break a line and draw no marker.
 struct Series {
     label: String,
     points: Vec<(f64, f64)>,
     colour: RGBColor,
     mark: Mark,
+    /// Opacity of each point's marker (0–1), e.g. the day's GPP relative to a large day's.
+    opacity: Option<Vec<f64>>,
+    /// Listed in the legend (a series drawn twice, as points and as a line, is listed once).
+    in_legend: bool,
+}
+
+impl Series {
+    fn new(
+        label: impl Into<String>,
+        points: Vec<(f64, f64)>,
+        colour: RGBColor,
+        mark: Mark,
+    ) -> Self {
+        Series {
+            label: label.into(),
+            points,
+            colour,
+            mark,
+            opacity: None,
+            in_legend: true,
+        }
+    }
 }
 
 /// A shaded band between a lower and an upper curve.
@@ -63,17 +136,41 @@ struct Band {
     opacity: f64,
 }
 
-/// An x–y figure.
+/// How the x axis is ticked and labelled.
+enum XAxis {
+    /// Days since 1970-01-01: ticks at month starts ("Jan", "Feb", …) or year starts.
+    Days,
+    /// Categories 0, 1, … named by their labels (months of an ensemble: "Jan", …).
+    Categories(Vec<String>),
+    /// A linear axis over the given range.
+    Linear(f64, f64),
+}
+
+/// An x–y figure (or one panel of a page).
 struct Figure {
     title: String,
     x_label: String,
     y_label: String,
-    x_range: Option<(f64, f64)>,
-    x_fmt: Box<dyn Fn(f64) -> String>,
-    /// Where the legend goes; the y axis leaves room above the data for an upper legend.
-    legend: SeriesLabelPosition,
+    x_axis: XAxis,
+    /// A line of small print under the legend (how to read the figure).
+    note: Option<String>,
     bands: Vec<Band>,
     series: Vec<Series>,
+}
+
+/// What one file holds: a figure, or a page of panels (two columns).
+struct Page {
+    title: Option<String>,
+    panels: Vec<Figure>,
+}
+
+impl From<Figure> for Page {
+    fn from(f: Figure) -> Self {
+        Page {
+            title: None,
+            panels: vec![f],
+        }
+    }
 }
 
 /// A validated `isodisc plot` invocation.
@@ -120,39 +217,55 @@ impl PlotPlan {
         })
     }
 
-    /// Draws every figure the inputs allow and returns the files written.
-    pub fn draw(&self) -> Result<Vec<PathBuf>> {
-        std::fs::create_dir_all(&self.out)
-            .map_err(|e| Error::msg(format!("cannot create {}: {e}", self.out.display())))?;
+    /// Every figure the inputs allow, drawn in memory: (file name, SVG text).
+    pub fn figures(&self) -> Result<Vec<(String, String)>> {
         let daily_path = self.dir.join("daily.csv");
         let daily = if daily_path.is_file() {
             Some(CsvTable::read(&daily_path)?)
         } else {
             None
         };
-        let mut written = Vec::new();
-        let mut save = |name: &str, fig: Figure| -> Result<()> {
-            let path = self.out.join(name);
-            write_atomic(&path, render(&fig)?.as_bytes())?;
-            written.push(path);
-            Ok(())
-        };
+        let mut pages: Vec<(String, Page)> = Vec::new();
         if let Some(daily) = &daily {
-            save("discrimination_daily.svg", discrimination_figure(daily)?)?;
+            if let Some(page) = overview_page(daily)? {
+                pages.push(("overview.svg".to_string(), page));
+            }
+            pages.push((
+                "discrimination_daily.svg".to_string(),
+                discrimination_figure(daily)?.into(),
+            ));
             if let Some(fig) = respiration_figure(daily, self.observed.as_ref())? {
-                save("d13c_respiration.svg", fig)?;
+                pages.push(("d13c_respiration.svg".to_string(), fig.into()));
             }
         }
         if let Some((fits, samples, groups)) = &self.keeling {
             for (group, fig) in keeling_figures(fits, samples, groups)? {
-                save(&format!("keeling_{}.svg", file_stem(&group)), fig)?;
+                pages.push((format!("keeling_{}.svg", file_stem(&group)), fig.into()));
             }
         }
         let quantiles = self.dir.join("quantiles_monthly.csv");
         if quantiles.is_file() {
             for (variable, fig) in ensemble_figures(&CsvTable::read(&quantiles)?)? {
-                save(&format!("ensemble_{}.svg", file_stem(&variable)), fig)?;
+                pages.push((format!("ensemble_{}.svg", file_stem(&variable)), fig.into()));
             }
+        }
+        pages
+            .into_iter()
+            .map(|(name, page)| Ok((name, render(&page)?)))
+            .collect()
+    }
+
+    /// Draws every figure the inputs allow, writes them into the output folder and returns the
+    /// files written.
+    pub fn draw(&self) -> Result<Vec<PathBuf>> {
+        let figures = self.figures()?;
+        std::fs::create_dir_all(&self.out)
+            .map_err(|e| Error::msg(format!("cannot create {}: {e}", self.out.display())))?;
+        let mut written = Vec::new();
+        for (name, svg) in figures {
+            let path = self.out.join(name);
+            write_atomic(&path, svg.as_bytes())?;
+            written.push(path);
         }
         Ok(written)
     }
@@ -179,82 +292,266 @@ fn file_stem(name: &str) -> String {
         .collect()
 }
 
-/// The unit of a run's period column, from the run's own column table.
-fn unit_of(column: &str) -> &'static str {
-    PERIOD_COLUMNS
-        .iter()
-        .find(|c| c.0 == column)
-        .map_or("units as in the run", |c| c.1)
-}
-
-/// Unit text for axis titles: permil as ‰.
-fn pretty_unit(unit: &str) -> String {
-    unit.replace("permil", "‰")
-}
-
-/// Days since 1970-01-01 as a date label.
-fn date_label(days: f64) -> String {
-    LocalTime::from_minutes((days.round() as i64) * 1440)
-        .date()
-        .to_string()
-}
-
-fn date_figure(title: &str, y_label: String, series: Vec<Series>) -> Figure {
-    Figure {
-        title: title.to_string(),
-        x_label: "date (local standard time)".to_string(),
-        y_label,
-        x_range: None,
-        x_fmt: Box::new(date_label),
-        legend: SeriesLabelPosition::UpperRight,
-        bands: Vec::new(),
-        series,
+/// The typographic name and unit of a run's or an ensemble's variable, for axis titles;
+/// `per` is the period of a sum ("d", "month", "yr").
+fn axis_title(column: &str, per: &str) -> String {
+    match column {
+        "discrimination" => "Δ (‰)".to_string(),
+        "discrimination_c3" => "Δ of C₃ plants (‰)".to_string(),
+        "discrimination_c4" => "Δ of C₄ plants (‰)".to_string(),
+        "c4_share" => "C₄ share of GPP (–)".to_string(),
+        "gpp" => format!("GPP (g C m⁻² {per}⁻¹)"),
+        "reco" => format!("Ecosystem respiration (g C m⁻² {per}⁻¹)"),
+        "d13c_respiration" => "δ¹³C of respiration (‰ VPDB)".to_string(),
+        "d13c_assimilate" => "δ¹³C of the assimilate (‰ VPDB)".to_string(),
+        "disequilibrium" => "Disequilibrium δR − δA (‰)".to_string(),
+        "beta" => "Soil-water factor β (–)".to_string(),
+        other => other.replace('_', " "),
     }
 }
 
-fn keyed_points(k: &Keyed) -> Vec<(f64, f64)> {
-    k.iter().map(|(&d, &v)| (d as f64, v)).collect()
+/// A date's days since 1970-01-01.
+fn day_number(year: i32, month: u32) -> f64 {
+    LocalTime::from_ymdhm(year, month, 1, 0, 0)
+        .map(|t| t.date().days() as f64)
+        .unwrap_or(f64::NAN)
 }
 
-/// Daily points of a daily.csv column, gaps kept as NaN so lines break there.
-fn daily_points(daily: &CsvTable, column: &str) -> Result<Vec<(f64, f64)>> {
-    let days = daily.times(daily.column("period")?)?;
-    let values = daily.numbers(daily.column(column)?)?;
-    Ok(days
+fn date_of(days: f64) -> LocalDate {
+    LocalTime::from_minutes((days.round() as i64) * 1440).date()
+}
+
+/// Ticks of a time axis from `x0` to `x1` (days since 1970-01-01): month starts labelled "Jan",
+/// "Feb", … for runs up to about two years (every third month labelled beyond 14 months), year
+/// starts labelled "2025" for longer runs. Returns (tick, label) with empty labels for unlabelled
+/// ticks, and the axis title's years ("2025" or "2025–2027").
+fn time_ticks(x0: f64, x1: f64) -> (Vec<(f64, String)>, String) {
+    // x1 is the end of the last day: its date is the day before.
+    let (a, b) = (date_of(x0), date_of(x1 - 1.0));
+    let years = if a.year() == b.year() {
+        a.year().to_string()
+    } else {
+        format!("{}–{}", a.year(), b.year())
+    };
+    let span_months = (b.year() - a.year()) * 12 + b.month() as i32 - a.month() as i32;
+    let mut ticks = Vec::new();
+    if span_months > 30 {
+        let step = ((b.year() - a.year()) / 8 + 1).max(1);
+        for y in (a.year()..=b.year() + 1).filter(|y| (y - a.year()) % step == 0) {
+            let d = day_number(y, 1);
+            if d >= x0 && d <= x1 {
+                ticks.push((d, y.to_string()));
+            }
+        }
+        return (ticks, years);
+    }
+    let every = if span_months > 14 { 3 } else { 1 };
+    for y in a.year()..=b.year() {
+        for m in 1..=12u32 {
+            let d = day_number(y, m);
+            if d < x0 || d > x1 {
+                continue;
+            }
+            let label = if (m - 1) % every == 0 {
+                if m == 1 && a.year() != b.year() {
+                    y.to_string()
+                } else {
+                    MONTHS[m as usize - 1].to_string()
+                }
+            } else {
+                String::new()
+            };
+            ticks.push((d, label));
+        }
+    }
+    (ticks, years)
+}
+
+/// About five round ticks between `lo` and `hi` (1, 2 or 5 times a power of ten apart).
+fn nice_ticks(lo: f64, hi: f64) -> Vec<f64> {
+    if hi.is_nan() || lo.is_nan() || hi <= lo {
+        return vec![lo];
+    }
+    let raw = (hi - lo) / 5.0;
+    let p = 10f64.powf(raw.log10().floor());
+    let step = [1.0, 2.0, 5.0, 10.0]
+        .into_iter()
+        .map(|m| m * p)
+        .min_by(|a, b| (a / raw).ln().abs().total_cmp(&(b / raw).ln().abs()))
+        .unwrap_or(p);
+    let first = (lo / step).ceil() as i64;
+    let last = (hi / step).floor() as i64;
+    (first..=last).map(|k| k as f64 * step).collect()
+}
+
+/// A tick label: as few decimals as the tick spacing needs, and a true minus sign.
+fn tick_label(v: f64, step: f64) -> String {
+    let decimals = if step > 0.0 && step.is_finite() {
+        (-step.log10().floor()).max(0.0) as usize
+    } else {
+        1
+    };
+    let s = format!("{v:.decimals$}");
+    let s = if s
+        .trim_start_matches('-')
+        .chars()
+        .all(|c| c == '0' || c == '.')
+    {
+        s.trim_start_matches('-').to_string()
+    } else {
+        s
+    };
+    s.replace('-', "−")
+}
+
+/// Values of a daily.csv column, gaps as NaN.
+fn column_or_nan(daily: &CsvTable, column: &str, n: usize) -> Result<Vec<f64>> {
+    if daily.has(column) {
+        daily.numbers(daily.column(column)?)
+    } else {
+        Ok(vec![f64::NAN; n])
+    }
+}
+
+/// The days (since 1970-01-01) of daily.csv's rows.
+fn days_of(daily: &CsvTable) -> Result<Vec<f64>> {
+    Ok(daily
+        .times(daily.column("period")?)?
         .iter()
-        .zip(values)
-        .map(|(t, v)| (t.date().days() as f64, v))
+        .map(|t| t.date().days() as f64)
         .collect())
 }
 
-/// Seasonal course of the GPP-weighted daily Δ: ecosystem, C3 and C4 (columns that exist).
-fn discrimination_figure(daily: &CsvTable) -> Result<Figure> {
+fn zip_points(x: &[f64], y: &[f64]) -> Vec<(f64, f64)> {
+    x.iter().copied().zip(y.iter().copied()).collect()
+}
+
+/// Weighted running mean over `width` rows centred on each row: Σ w·v / Σ w over the rows with a
+/// finite value and a positive weight; NaN where the window has no weight.
+pub fn weighted_running_mean(values: &[f64], weights: &[f64], width: usize) -> Vec<f64> {
+    let half = width / 2;
+    (0..values.len())
+        .map(|i| {
+            let lo = i.saturating_sub(half);
+            let hi = (i + half + 1).min(values.len());
+            let (mut sw, mut swv) = (0.0, 0.0);
+            for j in lo..hi {
+                if values[j].is_finite() && weights[j].is_finite() && weights[j] > 0.0 {
+                    sw += weights[j];
+                    swv += weights[j] * values[j];
+                }
+            }
+            if sw > 0.0 { swv / sw } else { f64::NAN }
+        })
+        .collect()
+}
+
+/// Opacity of each day's point: its weight relative to the 90th percentile of the positive
+/// weights, between 0.06 (a day that fixes almost nothing) and 1.
+fn opacities(weights: &[f64]) -> Vec<f64> {
+    let mut pos: Vec<f64> = weights
+        .iter()
+        .copied()
+        .filter(|w| w.is_finite() && *w > 0.0)
+        .collect();
+    pos.sort_by(f64::total_cmp);
+    let reference = pos
+        .get(((pos.len() as f64 * 0.9) as usize).min(pos.len().saturating_sub(1)))
+        .copied()
+        .unwrap_or(1.0);
+    weights
+        .iter()
+        .map(|w| {
+            if w.is_finite() && *w > 0.0 {
+                (w / reference).clamp(0.06, 1.0)
+            } else {
+                0.06
+            }
+        })
+        .collect()
+}
+
+/// Daily Δ per pathway and for the ecosystem: each day a point as opaque as the day's GPP is
+/// large (so days that fix almost nothing do not draw the eye), and a GPP-weighted running mean.
+/// Without GPP columns, plain daily lines.
+fn discrimination_series(daily: &CsvTable) -> Result<(Vec<Series>, Option<String>)> {
+    let days = days_of(daily)?;
     let mut series = Vec::new();
-    for (i, (col, label)) in [
-        ("discrimination", "ecosystem"),
-        ("discrimination_c3", "C3"),
-        ("discrimination_c4", "C4"),
+    let weighted = daily.has("gpp");
+    for (i, (col, gpp_col, label)) in [
+        ("discrimination", "gpp", "ecosystem"),
+        ("discrimination_c3", "gpp_c3", "C₃"),
+        ("discrimination_c4", "gpp_c4", "C₄"),
     ]
     .into_iter()
     .enumerate()
     {
-        if daily.has(col) {
+        if !daily.has(col) {
+            continue;
+        }
+        let values = daily.numbers(daily.column(col)?)?;
+        if values.iter().all(|v| !v.is_finite()) {
+            continue;
+        }
+        let colour = COLOURS[i];
+        if weighted {
+            let gpp = column_or_nan(daily, gpp_col, values.len())?;
             series.push(Series {
-                label: label.to_string(),
-                points: daily_points(daily, col)?,
-                colour: COLOURS[i],
-                mark: Mark::Line(i),
+                opacity: Some(opacities(&gpp)),
+                in_legend: false,
+                ..Series::new(label, zip_points(&days, &values), colour, Mark::points(i))
             });
+            let mean = weighted_running_mean(&values, &gpp, RUNNING_DAYS);
+            series.push(Series::new(
+                label,
+                zip_points(&days, &mean),
+                colour,
+                Mark::line_marked(i, i, 30),
+            ));
+        } else {
+            series.push(Series::new(
+                label,
+                zip_points(&days, &values),
+                colour,
+                Mark::line_marked(i, i, 30),
+            ));
         }
     }
     if series.is_empty() {
         daily.column("discrimination")?;
     }
-    Ok(date_figure(
-        "GPP-weighted daily 13C discrimination",
-        "Δ (‰)".to_string(),
+    let note = weighted.then(|| {
+        format!(
+            "Points: days, fainter the less carbon the day fixed. Lines: {RUNNING_DAYS}-day \
+             GPP-weighted means."
+        )
+    });
+    Ok((series, note))
+}
+
+fn day_figure(title: &str, y_label: String, series: Vec<Series>) -> Figure {
+    Figure {
+        title: title.to_string(),
+        x_label: String::new(),
+        y_label,
+        x_axis: XAxis::Days,
+        note: None,
+        bands: Vec::new(),
         series,
-    ))
+    }
+}
+
+/// Seasonal course of the daily Δ: ecosystem, C3 and C4 (columns that exist).
+fn discrimination_figure(daily: &CsvTable) -> Result<Figure> {
+    let (series, note) = discrimination_series(daily)?;
+    Ok(Figure {
+        note,
+        ..day_figure(
+            "¹³C discrimination by photosynthesis",
+            axis_title("discrimination", "d"),
+            series,
+        )
+    })
 }
 
 /// Predicted δR (when daily.csv has `d13c_respiration`) with the observations (when given).
@@ -265,36 +562,149 @@ fn respiration_figure(
     const COLUMN: &str = "d13c_respiration";
     let mut series = Vec::new();
     if daily.has(COLUMN) {
-        series.push(Series {
-            label: "predicted".to_string(),
-            points: daily_points(daily, COLUMN)?,
-            colour: COLOURS[0],
-            mark: Mark::Line(0),
-        });
+        let values = daily.numbers(daily.column(COLUMN)?)?;
+        series.push(Series::new(
+            "predicted",
+            zip_points(&days_of(daily)?, &values),
+            COLOURS[0],
+            Mark::line(0),
+        ));
     } else if observed.is_some() {
         eprintln!("isodisc plot: daily.csv has no column {COLUMN}; drawing the observations alone");
     }
     if let Some((path, column)) = observed {
         let table = CsvTable::read(path)?;
-        series.push(Series {
-            label: "observed (daily mean)".to_string(),
-            points: keyed_points(&observed_series(&table, column, MatchArg::Daily)?),
-            colour: COLOURS[2],
-            mark: Mark::Points(0),
-        });
+        let obs: Keyed = observed_series(&table, column, MatchArg::Daily)?;
+        series.push(Series::new(
+            "observed (daily mean)",
+            obs.iter().map(|(&d, &v)| (d as f64, v)).collect(),
+            COLOURS[4],
+            Mark::points(1),
+        ));
     }
     if series.is_empty() {
         return Ok(None);
     }
-    Ok(Some(date_figure(
-        "δ13C of ecosystem respiration",
-        "δR (‰ VPDB)".to_string(),
+    Ok(Some(day_figure(
+        "δ¹³C of ecosystem respiration",
+        axis_title(COLUMN, "d"),
         series,
     )))
 }
 
-/// Keeling plots of the chosen groups: the samples and the OLS, GMR and York lines of the fits
-/// file (Miller–Tans fits live on other axes and are left out).
+/// The one-page overview of a run: Δ per pathway and ecosystem; GPP per pathway; the C4 share;
+/// δR and the assimilate; β; the disequilibrium. None when daily.csv has no GPP (not a run's).
+fn overview_page(daily: &CsvTable) -> Result<Option<Page>> {
+    if !daily.has("gpp") {
+        return Ok(None);
+    }
+    let days = days_of(daily)?;
+    let n = days.len();
+    let col = |c: &str| column_or_nan(daily, c, n);
+    let mut panels = Vec::new();
+
+    let (series, note) = discrimination_series(daily)?;
+    panels.push(Figure {
+        note,
+        ..day_figure(
+            "a. ¹³C discrimination",
+            axis_title("discrimination", "d"),
+            series,
+        )
+    });
+
+    let mut gpp = Vec::new();
+    for (i, (c, label)) in [("gpp", "total"), ("gpp_c3", "C₃"), ("gpp_c4", "C₄")]
+        .into_iter()
+        .enumerate()
+    {
+        let v = col(c)?;
+        if v.iter().any(|x| x.is_finite()) {
+            gpp.push(Series::new(
+                label,
+                zip_points(&days, &v),
+                COLOURS[i],
+                Mark::line_marked(i, i, 30),
+            ));
+        }
+    }
+    panels.push(day_figure(
+        "b. Gross primary production",
+        axis_title("gpp", "d"),
+        gpp,
+    ));
+
+    let share = col("c4_share")?;
+    panels.push(day_figure(
+        "c. C₄ share of GPP",
+        axis_title("c4_share", "d"),
+        vec![Series::new(
+            "C₄ share",
+            zip_points(&days, &share),
+            COLOURS[2],
+            Mark::line(0),
+        )],
+    ));
+
+    let mut iso = Vec::new();
+    let resp = col("d13c_respiration")?;
+    if resp.iter().any(|x| x.is_finite()) {
+        iso.push(Series::new(
+            "respiration (δR)",
+            zip_points(&days, &resp),
+            COLOURS[0],
+            Mark::line(0),
+        ));
+    }
+    let assim = col("d13c_assimilate")?;
+    let total_gpp = col("gpp")?;
+    iso.push(Series {
+        opacity: Some(opacities(&total_gpp)),
+        ..Series::new(
+            "assimilate (δA), daily",
+            zip_points(&days, &assim),
+            COLOURS[1],
+            Mark::points(0),
+        )
+    });
+    panels.push(day_figure(
+        "d. δ¹³C of respiration and of the assimilate",
+        "δ¹³C (‰ VPDB)".to_string(),
+        iso,
+    ));
+
+    let beta = col("beta")?;
+    panels.push(day_figure(
+        "e. Soil-water stress",
+        axis_title("beta", "d"),
+        vec![Series::new(
+            "β (1: no stress)",
+            zip_points(&days, &beta),
+            COLOURS[3],
+            Mark::line(0),
+        )],
+    ));
+
+    let dis = col("disequilibrium")?;
+    panels.push(day_figure(
+        "f. Isotopic disequilibrium",
+        axis_title("disequilibrium", "d"),
+        vec![Series::new(
+            "δR − δA",
+            zip_points(&days, &dis),
+            COLOURS[4],
+            Mark::line(0),
+        )],
+    ));
+    Ok(Some(Page {
+        title: Some("Overview of the run, day by day (local standard time)".to_string()),
+        panels,
+    }))
+}
+
+/// Keeling plots of the chosen groups: the samples, the OLS, GMR and York lines of the fits file,
+/// each with its own dash and marker, and the Miller–Tans source δ13C as a marker at 1/c = 0 (its
+/// line lives on other axes).
 fn keeling_figures(
     fits: &Path,
     samples: &Path,
@@ -316,6 +726,8 @@ fn keeling_figures(
             .ok_or_else(|| Error::msg(format!("{}: no group `{g}`", fits.display())))?;
         span.insert(g, (starts[*i], ends[*i]));
     }
+    // x is 1/c in mol mmol⁻¹ (1000/c with c in µmol mol⁻¹): numbers near 2.5, not 0.0025.
+    const X_SCALE: f64 = 1000.0;
     // Samples join a group by the `group` column when it names the group, else by the group's
     // time span (night and window groups).
     let mut by_name: HashMap<&str, Vec<(f64, f64)>> = HashMap::new();
@@ -324,7 +736,7 @@ fn keeling_figures(
         let name = std::str::from_utf8(s.group).unwrap_or("");
         for g in groups {
             let (a, b) = span[g.as_str()];
-            let point = (1.0 / s.co2, s.d13c);
+            let point = (X_SCALE / s.co2, s.d13c);
             if name == g {
                 by_name.entry(g.as_str()).or_default().push(point);
             }
@@ -341,38 +753,59 @@ fn keeling_figures(
             .or_else(|| by_time.remove(g.as_str()))
             .unwrap_or_default();
         let x_max = pts.iter().map(|p| p.0).fold(0.0, f64::max) * 1.05;
-        let mut series = vec![Series {
-            label: "samples".to_string(),
-            points: pts,
-            colour: COLOURS[0],
-            mark: Mark::Points(0),
-        }];
-        for (k, method) in ["ols", "gmr", "york"].into_iter().enumerate() {
-            if let Some(&i) = rows
+        let mut series = vec![Series::new(
+            "samples",
+            pts,
+            RGBColor(90, 90, 90),
+            Mark::points(4),
+        )];
+        let methods = [
+            ("ols", "OLS", 0),
+            ("gmr", "GMR", 1),
+            ("york", "York", 2),
+            ("miller-tans", "Miller–Tans", 3),
+        ];
+        for (method, name, k) in methods {
+            let Some(&i) = rows
                 .iter()
                 .find(|&&i| table.cell(i, group_col) == g && table.cell(i, method_col) == method)
-                && intercepts[i].is_finite()
-            {
-                // The line from 1/c = 0, where its intercept is the source δ13C.
-                let line = |x: f64| (x, intercepts[i] + slopes[i] * x);
-                series.push(Series {
-                    label: format!("{method}: source {:.2} ‰", intercepts[i]),
-                    points: vec![line(0.0), line(x_max)],
-                    colour: COLOURS[k + 1],
-                    mark: Mark::Line(k + 1),
-                });
+            else {
+                continue;
+            };
+            if !intercepts[i].is_finite() {
+                continue;
             }
+            let label = format!("{name}: source {} ‰", tick_label(intercepts[i], 0.01));
+            let colour = COLOURS[k + 1];
+            if method == "miller-tans" {
+                series.push(Series::new(
+                    label,
+                    vec![(0.0, intercepts[i])],
+                    colour,
+                    Mark::points(3),
+                ));
+                continue;
+            }
+            // The line from 1/c = 0, where its intercept is the source δ13C; markers at the
+            // intercept and the far end and, staggered by method, along the line.
+            let x: Vec<f64> = (0..=12).map(|j| x_max * j as f64 / 12.0).collect();
+            let line: Vec<(f64, f64)> = x
+                .iter()
+                .map(|&x| (x, intercepts[i] + slopes[i] * x / X_SCALE))
+                .collect();
+            series.push(Series::new(label, line, colour, Mark::line_marked(k, k, 4)));
         }
         out.push((
             g.clone(),
             Figure {
                 title: format!("Keeling plot, group {g}"),
-                x_label: "1/CO2 (mol µmol⁻¹)".to_string(),
-                y_label: "δ13C of CO2 (‰ VPDB)".to_string(),
-                x_range: Some((0.0, x_max.max(1e-6))),
-                x_fmt: Box::new(|x| format!("{x:.5}")),
-                // Lines rise from the intercept towards the samples at the upper right.
-                legend: SeriesLabelPosition::LowerRight,
+                x_label: "1/CO₂ (mol mmol⁻¹)".to_string(),
+                y_label: "δ¹³C of CO₂ (‰ VPDB)".to_string(),
+                x_axis: XAxis::Linear(0.0, x_max.max(1e-6)),
+                note: Some(
+                    "Lines start at 1/CO₂ = 0, where their intercept is the source's δ¹³C."
+                        .to_string(),
+                ),
                 bands: Vec::new(),
                 series,
             },
@@ -403,13 +836,26 @@ fn ensemble_figures(q: &CsvTable) -> Result<Vec<(String, Figure)>> {
         let rows: Vec<usize> = (0..mean.len())
             .filter(|&i| q.cell(i, var_col) == var)
             .collect();
-        let months: Vec<String> = rows
+        let periods: Vec<String> = rows
             .iter()
             .map(|&i| q.cell(i, month_col).to_string())
             .collect();
+        let years: Vec<&str> = periods.iter().filter_map(|p| p.get(..4)).collect();
+        let multi_year = years.first() != years.last();
+        // "2025-03" → "Mar" ("Mar 2026" where a run spans years and a year starts).
+        let labels = periods
+            .iter()
+            .map(|p| {
+                let month = p.get(5..7).and_then(|m| m.parse::<usize>().ok());
+                match month {
+                    Some(m @ 1..=12) if multi_year && m == 1 => p[..4].to_string(),
+                    Some(m @ 1..=12) => MONTHS[m - 1].to_string(),
+                    _ => p.clone(),
+                }
+            })
+            .collect();
         let x: Vec<f64> = (0..rows.len()).map(|j| j as f64).collect();
         let pick = |s: &[f64]| rows.iter().map(|&i| s[i]).collect::<Vec<_>>();
-        let line = |s: &[f64]| x.iter().copied().zip(pick(s)).collect::<Vec<_>>();
         let bands = vec![
             Band {
                 label: "5–95 %".to_string(),
@@ -429,36 +875,32 @@ fn ensemble_figures(q: &CsvTable) -> Result<Vec<(String, Figure)>> {
             },
         ];
         let series = vec![
-            Series {
-                label: "median".to_string(),
-                points: line(&p50),
-                colour: COLOURS[0],
-                mark: Mark::Line(0),
-            },
-            Series {
-                label: "mean".to_string(),
-                points: line(&mean),
-                colour: COLOURS[2],
-                mark: Mark::Line(1),
-            },
+            Series::new(
+                "median",
+                zip_points(&x, &pick(&p50)),
+                COLOURS[0],
+                Mark::line_marked(0, 0, 1),
+            ),
+            Series::new(
+                "mean",
+                zip_points(&x, &pick(&mean)),
+                COLOURS[4],
+                Mark::line_marked(1, 1, 1),
+            ),
         ];
-        let n = rows.len();
+        let year_span = match (years.first(), years.last()) {
+            (Some(a), Some(b)) if a != b => format!("{a}–{b}"),
+            (Some(a), _) => a.to_string(),
+            _ => String::new(),
+        };
         out.push((
             var.clone(),
             Figure {
-                title: format!("Ensemble of {var}, by month"),
-                x_label: "month".to_string(),
-                y_label: format!("{var} ({})", pretty_unit(unit_of(&var))),
-                x_range: Some((-0.5, n as f64 - 0.5)),
-                legend: SeriesLabelPosition::UpperRight,
-                x_fmt: Box::new(move |x| {
-                    let j = x.round();
-                    if (x - j).abs() < 1e-6 && j >= 0.0 && (j as usize) < n {
-                        months[j as usize].clone()
-                    } else {
-                        String::new()
-                    }
-                }),
+                title: format!("Ensemble spread by month: {}", axis_title(&var, "month")),
+                x_label: year_span,
+                y_label: axis_title(&var, "month"),
+                x_axis: XAxis::Categories(labels),
+                note: None,
                 bands,
                 series,
             },
@@ -494,20 +936,137 @@ fn plot_err(what: &str) -> impl Fn(DrawingAreaErrorKind<std::io::Error>) -> Erro
     move |e| Error::msg(format!("cannot draw {what}: {e}"))
 }
 
-/// Draws a figure into an SVG string.
-fn render(fig: &Figure) -> Result<String> {
+/// Draws a figure or a page into an SVG string.
+fn render(page: &Page) -> Result<String> {
     let mut svg = String::new();
+    let what = page.title.clone().unwrap_or_else(|| {
+        page.panels
+            .first()
+            .map_or(String::new(), |f| f.title.clone())
+    });
+    let err = plot_err(&what);
     {
-        let root = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
-        draw_on(&root, fig)?;
-        root.present().map_err(plot_err(&fig.title))?;
+        let size = if page.panels.len() == 1 {
+            SIZE
+        } else {
+            let rows = page.panels.len().div_ceil(2) as u32;
+            (2 * PANEL.0, rows * PANEL.1 + 70)
+        };
+        let root = SVGBackend::with_string(&mut svg, size).into_drawing_area();
+        root.fill(&WHITE).map_err(&err)?;
+        if page.panels.len() == 1 {
+            draw_panel(&root, &page.panels[0])?;
+        } else {
+            let area = match &page.title {
+                Some(t) => root.titled(t, font(FONT_TITLE + 6)).map_err(&err)?,
+                None => root.clone(),
+            };
+            let rows = page.panels.len().div_ceil(2);
+            for (cell, fig) in area.split_evenly((rows, 2)).iter().zip(&page.panels) {
+                draw_panel(cell, fig)?;
+            }
+        }
+        root.present().map_err(&err)?;
     }
     Ok(svg)
 }
 
-fn draw_on(root: &DrawingArea<SVGBackend, Shift>, fig: &Figure) -> Result<()> {
-    let err = plot_err(&fig.title);
-    root.fill(&WHITE).map_err(&err)?;
+/// Width (pixels) that `text` takes at `size`, roughly: legend entries are laid out with it.
+fn text_width(text: &str, size: u32) -> i32 {
+    (text.chars().count() as f64 * size as f64 * 0.56) as i32
+}
+
+/// The legend's entries: (label, what to draw beside it).
+enum Swatch {
+    Series(RGBColor, Mark),
+    Band(RGBColor, f64),
+}
+
+/// Draws the legend in rows from the top of `area`, wrapping at its width; returns its height.
+fn draw_legend<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    entries: &[(String, Swatch)],
+    dry_run: bool,
+) -> std::result::Result<i32, DrawingAreaErrorKind<DB::ErrorType>> {
+    let width = area.dim_in_pixel().0 as i32;
+    let row_h = FONT_TICK as i32 + 14;
+    let (mut x, mut y) = (90, 0);
+    let swatch_w = 56;
+    for (label, swatch) in entries {
+        let w = swatch_w + 10 + text_width(label, FONT_TICK) + 34;
+        if x + w > width - 10 && x > 90 {
+            x = 90;
+            y += row_h;
+        }
+        if !dry_run {
+            let cy = y + row_h / 2;
+            match swatch {
+                Swatch::Series(colour, mark) => {
+                    let style = ShapeStyle::from(colour).stroke_width(LINE_WIDTH);
+                    if let Some(k) = mark.dash {
+                        area.draw(&legend_line(
+                            x,
+                            cy,
+                            swatch_w,
+                            DASHES[k % DASHES.len()],
+                            style,
+                        ))?;
+                    }
+                    if let Some(k) = mark.marker {
+                        area.draw(&marker(k, (x + swatch_w / 2, cy), 8, *colour, 1.0))?;
+                    }
+                }
+                Swatch::Band(colour, opacity) => {
+                    area.draw(&Rectangle::new(
+                        [(x, cy - 10), (x + swatch_w, cy + 10)],
+                        colour.mix(*opacity).filled(),
+                    ))?;
+                }
+            }
+            area.draw(&Text::new(
+                label.clone(),
+                (x + swatch_w + 10, cy - FONT_TICK as i32 / 2),
+                font(FONT_TICK).into_font().color(&BLACK),
+            ))?;
+        }
+        x += w;
+    }
+    Ok(y + row_h)
+}
+
+fn draw_panel<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, fig: &Figure) -> Result<()>
+where
+    DB::ErrorType: 'static,
+{
+    let err = |e: DrawingAreaErrorKind<DB::ErrorType>| {
+        Error::msg(format!("cannot draw {}: {e}", fig.title))
+    };
+    let area = area.titled(&fig.title, font(FONT_TITLE)).map_err(err)?;
+    // The legend: one entry per listed series and band, in a row (or rows) above the plot.
+    let mut entries: Vec<(String, Swatch)> = Vec::new();
+    for b in &fig.bands {
+        entries.push((b.label.clone(), Swatch::Band(b.colour, b.opacity)));
+    }
+    for s in fig.series.iter().filter(|s| s.in_legend) {
+        entries.push((s.label.clone(), Swatch::Series(s.colour, s.mark)));
+    }
+    let legend_h = draw_legend(&area, &entries, true).map_err(err)?;
+    let note_h = if fig.note.is_some() {
+        FONT_NOTE as i32 + 10
+    } else {
+        0
+    };
+    let (top, plot_area) = area.split_vertically(legend_h + note_h + 6);
+    draw_legend(&top, &entries, false).map_err(err)?;
+    if let Some(note) = &fig.note {
+        top.draw(&Text::new(
+            note.clone(),
+            (90, legend_h + 2),
+            font(FONT_NOTE).into_font().color(&RGBColor(60, 60, 60)),
+        ))
+        .map_err(err)?;
+    }
+
     let all = || {
         fig.series
             .iter()
@@ -519,32 +1078,95 @@ fn draw_on(root: &DrawingArea<SVGBackend, Shift>, fig: &Figure) -> Result<()> {
                     .map(|(x, y)| (*x, *y))
             }))
     };
-    let (x0, x1) = fig
-        .x_range
-        .unwrap_or_else(|| padded_range(all().map(|p| p.0)));
-    let (y0, mut y1) = padded_range(all().filter(|p| p.0 >= x0 && p.0 <= x1).map(|p| p.1));
-    if matches!(fig.legend, SeriesLabelPosition::UpperRight) {
-        // Head room for the legend, so it does not hide data.
-        y1 += 0.06 * (fig.series.len() + fig.bands.len()) as f64 * (y1 - y0);
-    }
-    let mut chart = ChartBuilder::on(root)
-        .caption(&fig.title, ("sans-serif", FONT_TITLE))
-        .margin(18)
-        .x_label_area_size(64)
-        .y_label_area_size(84)
-        .build_cartesian_2d(x0..x1, y0..y1)
-        .map_err(&err)?;
+    let (x0, x1) = match &fig.x_axis {
+        XAxis::Days => {
+            // From the first day to the end of the last: a year's run is 1 Jan to 1 Jan.
+            let (lo, hi) = all()
+                .map(|p| p.0)
+                .filter(|x| x.is_finite())
+                .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), x| {
+                    (a.min(x), b.max(x))
+                });
+            if lo.is_finite() {
+                (lo, hi + 1.0)
+            } else {
+                (0.0, 1.0)
+            }
+        }
+        XAxis::Categories(labels) => (-0.5, labels.len() as f64 - 0.5),
+        XAxis::Linear(a, b) => (*a, *b),
+    };
+    let (y0, y1) = padded_range(all().filter(|p| p.0 >= x0 && p.0 <= x1).map(|p| p.1));
+    let (ticks, x_title): (Vec<(f64, String)>, String) = match &fig.x_axis {
+        XAxis::Days => {
+            let (t, years) = time_ticks(x0, x1);
+            let title = if fig.x_label.is_empty() {
+                format!("{years} (local standard time)")
+            } else {
+                fig.x_label.clone()
+            };
+            (t, title)
+        }
+        XAxis::Categories(labels) => (
+            labels
+                .iter()
+                .enumerate()
+                .map(|(j, l)| (j as f64, l.clone()))
+                .collect(),
+            fig.x_label.clone(),
+        ),
+        XAxis::Linear(a, b) => {
+            let t = nice_ticks(*a, *b);
+            let step = if t.len() > 1 { t[1] - t[0] } else { 1.0 };
+            (
+                t.iter().map(|&v| (v, tick_label(v, step))).collect(),
+                fig.x_label.clone(),
+            )
+        }
+    };
+    let y_ticks = nice_ticks(y0, y1);
+    let y_step = if y_ticks.len() > 1 {
+        y_ticks[1] - y_ticks[0]
+    } else {
+        1.0
+    };
+    let labels: HashMap<u64, String> = ticks
+        .iter()
+        .map(|(v, l)| (v.to_bits(), l.clone()))
+        .collect();
+    let x_keys: Vec<f64> = ticks.iter().map(|t| t.0).collect();
+    let mut chart = ChartBuilder::on(&plot_area)
+        .margin_left(10)
+        .margin_right(30)
+        .margin_bottom(8)
+        .x_label_area_size(if x_title.is_empty() { 50 } else { 84 })
+        .y_label_area_size(120)
+        .build_cartesian_2d(
+            Ticked {
+                lo: x0,
+                hi: x1,
+                keys: x_keys,
+            },
+            Ticked {
+                lo: y0,
+                hi: y1,
+                keys: y_ticks,
+            },
+        )
+        .map_err(err)?;
     chart
         .configure_mesh()
-        .x_desc(fig.x_label.as_str())
+        .x_desc(x_title.as_str())
         .y_desc(fig.y_label.as_str())
-        .axis_desc_style(("sans-serif", FONT_AXIS))
-        .label_style(("sans-serif", FONT_TICK))
-        .x_labels(7)
-        .x_label_formatter(&|x| (fig.x_fmt)(*x))
-        .light_line_style(RGBColor(235, 235, 235))
+        .axis_desc_style(font(FONT_AXIS))
+        .label_style(font(FONT_TICK))
+        .x_label_formatter(&|x| labels.get(&x.to_bits()).cloned().unwrap_or_default())
+        .y_label_formatter(&|y| tick_label(*y, y_step))
+        .bold_line_style(RGBColor(225, 225, 225))
+        .light_line_style(TRANSPARENT)
+        .axis_style(ShapeStyle::from(&BLACK).stroke_width(2))
         .draw()
-        .map_err(&err)?;
+        .map_err(err)?;
     for b in &fig.bands {
         let outline: Vec<(f64, f64)> =
             b.x.iter()
@@ -553,79 +1175,125 @@ fn draw_on(root: &DrawingArea<SVGBackend, Shift>, fig: &Figure) -> Result<()> {
                 .map(|(x, y)| (*x, *y))
                 .filter(|p| p.1.is_finite())
                 .collect();
-        let fill = b.colour.mix(b.opacity).filled();
         chart
-            .draw_series(std::iter::once(Polygon::new(outline, fill)))
-            .map_err(&err)?
-            .label(b.label.as_str())
-            .legend(move |(x, y)| Rectangle::new([(x, y - 7), (x + 24, y + 7)], fill));
+            .draw_series(std::iter::once(Polygon::new(
+                outline,
+                b.colour.mix(b.opacity).filled(),
+            )))
+            .map_err(err)?;
     }
-    for s in &fig.series {
-        let style = ShapeStyle::from(&s.colour).stroke_width(3);
-        match s.mark {
-            Mark::Line(k) => {
-                let dash = DASHES[k % DASHES.len()];
-                let mut first = true;
-                for run in finite_runs(&s.points) {
-                    let anno = match dash {
-                        None => chart.draw_series(LineSeries::new(run, style)),
-                        Some((on, off)) => {
-                            chart.draw_series(DashedLineSeries::new(run, on, off, style))
-                        }
-                    }
-                    .map_err(&err)?;
-                    if std::mem::take(&mut first) {
-                        anno.label(s.label.as_str())
-                            .legend(move |(x, y)| legend_line(x, y, dash, style));
+    // Points first, lines over them, so a running mean is not hidden by its days.
+    let (points_only, lined): (Vec<&Series>, Vec<&Series>) =
+        fig.series.iter().partition(|s| s.mark.dash.is_none());
+    for s in points_only.into_iter().chain(lined) {
+        let style = ShapeStyle::from(&s.colour).stroke_width(LINE_WIDTH);
+        if let Some(k) = s.mark.dash {
+            for run in finite_runs(&s.points) {
+                match DASHES[k % DASHES.len()] {
+                    None => chart.draw_series(LineSeries::new(run, style)),
+                    Some((on, off)) => {
+                        chart.draw_series(DashedLineSeries::new(run, on, off, style))
                     }
                 }
+                .map_err(err)?;
             }
-            Mark::Points(k) => {
-                let pts = finite_runs(&s.points).concat();
-                let colour = s.colour;
-                chart
-                    .draw_series(pts.iter().map(|&p| marker(k, p, colour)))
-                    .map_err(&err)?
-                    .label(s.label.as_str())
-                    .legend(move |(x, y)| marker(k, (x + 12, y), colour));
+        }
+        if let Some(k) = s.mark.marker {
+            let every = s.mark.marker_every.max(1);
+            // Markers of lines are staggered by pattern so markers of two lines do not coincide.
+            let offset = if s.mark.dash.is_some() {
+                (k * every / 3) % every
+            } else {
+                0
+            };
+            let base = area.get_base_pixel();
+            let points = s.points.iter().enumerate().filter(|(i, p)| {
+                p.0.is_finite() && p.1.is_finite() && (i + every - offset) % every == 0
+            });
+            for (i, p) in points {
+                let alpha = s.opacity.as_ref().map_or(1.0, |o| o[i]);
+                let (px, py) = chart.backend_coord(p);
+                // Daily points are smaller than the markers that tell lines apart.
+                let r = if s.opacity.is_some() { 5 } else { 8 };
+                area.draw(&marker(k, (px - base.0, py - base.1), r, s.colour, alpha))
+                    .map_err(err)?;
             }
         }
     }
-    chart
-        .configure_series_labels()
-        .position(fig.legend.clone())
-        .legend_area_size(44)
-        .background_style(WHITE.mix(0.85))
-        .border_style(BLACK)
-        .label_font(("sans-serif", FONT_TICK))
-        .draw()
-        .map_err(&err)?;
     Ok(())
+}
+
+/// A linear axis from `lo` to `hi` with ticks (and grid lines) exactly at `keys`: month starts,
+/// categories or round numbers, not plotters' own choice.
+struct Ticked {
+    lo: f64,
+    hi: f64,
+    keys: Vec<f64>,
+}
+
+impl Ranged for Ticked {
+    type FormatOption = DefaultFormatting;
+    type ValueType = f64;
+
+    fn map(&self, value: &f64, limit: (i32, i32)) -> i32 {
+        let span = limit.1 - limit.0;
+        if span == 0 || self.hi.is_nan() || self.lo.is_nan() || self.hi <= self.lo {
+            return limit.1;
+        }
+        let fraction = (value - self.lo) / (self.hi - self.lo);
+        limit.0 + (span as f64 * fraction + 1e-3).floor() as i32
+    }
+
+    fn key_points<H: KeyPointHint>(&self, hint: H) -> Vec<f64> {
+        if hint.weight().allow_light_points() {
+            Vec::new()
+        } else {
+            self.keys.clone()
+        }
+    }
+
+    fn range(&self) -> std::ops::Range<f64> {
+        self.lo..self.hi
+    }
 }
 
 /// A short legend line with the series' dash pattern.
 fn legend_line<DB: DrawingBackend>(
     x: i32,
     y: i32,
+    width: i32,
     dash: Option<(u32, u32)>,
     style: ShapeStyle,
 ) -> DynElement<'static, DB, (i32, i32)> {
-    let ends = vec![(x, y), (x + 30, y)];
+    let ends = vec![(x, y), (x + width, y)];
     match dash {
         None => PathElement::new(ends, style).into_dyn(),
         Some((on, off)) => DashedPathElement::new(ends, on, off, style).into_dyn(),
     }
 }
 
-/// Marker `k` (0 circle, 1 triangle, other cross) at `at`.
-fn marker<C, DB: DrawingBackend>(k: usize, at: C, colour: RGBColor) -> DynElement<'static, DB, C>
-where
-    C: Clone + 'static,
-{
-    let style = ShapeStyle::from(&colour).filled();
+/// Marker `k` (0 circle, 1 triangle, 2 square, 3 diamond, other cross) centred on the pixel
+/// `at`, at `opacity`.
+fn marker<DB: DrawingBackend>(
+    k: usize,
+    at: (i32, i32),
+    r: i32,
+    colour: RGBColor,
+    opacity: f64,
+) -> DynElement<'static, DB, (i32, i32)> {
+    let fill = colour.mix(opacity).filled();
+    let (x, y) = at;
+    let d = r * 4 / 3;
     match k {
-        0 => Circle::new(at, 5, style).into_dyn(),
-        1 => TriangleMarker::new(at, 6, style).into_dyn(),
-        _ => Cross::new(at, 5, ShapeStyle::from(&colour).stroke_width(2)).into_dyn(),
+        0 => Circle::new(at, r as u32, fill).into_dyn(),
+        1 => TriangleMarker::new(at, d as u32, fill).into_dyn(),
+        2 => Rectangle::new([(x - r, y - r), (x + r, y + r)], fill).into_dyn(),
+        3 => Polygon::new(vec![(x, y - d), (x + d, y), (x, y + d), (x - d, y)], fill).into_dyn(),
+        _ => Cross::new(
+            at,
+            r as u32,
+            ShapeStyle::from(&colour.mix(opacity)).stroke_width(3),
+        )
+        .into_dyn(),
     }
 }

@@ -282,7 +282,7 @@ fn erbs_diffuse_fraction_matches_pvlib_from_shortwave() {
 
 #[test]
 fn fao56_vapour_pressure_checks() {
-    // Source: FAO-56 (Allen et al. 1998), values as listed in SCIENCE.md §5.
+    // Source: FAO-56 (Allen et al. 1998), values as listed in docs/science.md
     // (what, computed, published, decimals quoted)
     let table = [
         (
@@ -317,7 +317,7 @@ fn fao56_vapour_pressure_checks() {
 
 #[test]
 fn de_pury_farquhar_constants() {
-    // Source: de Pury & Farquhar (1997), values as listed in SCIENCE.md §5.
+    // Source: de Pury & Farquhar (1997), values as listed in docs/science.md
     let canopy = TwoLeafCanopy::default();
     let kb30 = canopy.kb(30f64.to_radians().cos()).unwrap();
     // (what, computed, published, decimals quoted)

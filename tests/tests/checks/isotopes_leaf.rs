@@ -308,7 +308,7 @@ fn c4_discriminates_far_less_than_c3() {
 
 #[test]
 fn night_leaf_respires_and_has_no_discrimination() {
-    // In the dark A = −Rd and gs = g0 (SCIENCE of FvCB/Medlyn; common practice).
+    // In the dark A = −Rd and gs = g0 (FvCB and Medlyn; common practice).
     let p = c3_with(&[("g0", 0.02)]);
     let c = LeafConditions {
         ppfd_umol_m2_s: 0.0,

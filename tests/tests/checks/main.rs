@@ -3,10 +3,12 @@
 
 mod canopy_water;
 mod common;
+mod docs;
 mod ensemble;
 mod isotopes_leaf;
 mod observations;
 mod phenology_cold;
+mod plots;
 mod pools;
 mod runner_forcing;
 mod runner_leaf;

@@ -1,4 +1,4 @@
-//! Observations (SCIENCE.md §7): Keeling plots, Miller–Tans, York regression, scores, lag
+//! Observations (docs/science.md): Keeling plots, Miller–Tans, York regression, scores, lag
 //! analysis and correlations, against exact mixtures, scipy fixtures (made by
 //! `tests/fixtures/make_keeling_fixtures.py`, versions in each file's header), the Pearson/York
 //! worked example and hand arithmetic.
@@ -80,7 +80,7 @@ fn fixture_groups(name: &str, a: &str, b: &str) -> BTreeMap<usize, (Vec<f64>, Ve
 }
 
 /// Exact two-end-member mixture of 400 µmol mol⁻¹ at −8.5‰ with `added` µmol mol⁻¹ of a source
-/// at −26‰ (SCIENCE.md §7): c = 400 + x, δ = (400·(−8.5) + x·(−26))/c.
+/// at −26‰ (docs/science.md): c = 400 + x, δ = (400·(−8.5) + x·(−26))/c.
 fn mixture(added: &[f64]) -> (Vec<f64>, Vec<f64>) {
     added
         .iter()
@@ -90,7 +90,7 @@ fn mixture(added: &[f64]) -> (Vec<f64>, Vec<f64>) {
 
 #[test]
 fn keeling_exact_mixture_every_method_returns_the_source() {
-    // SCIENCE.md §7: 400 at −8.5‰ plus 50 of source at −26‰ → −10.444‰.
+    // docs/science.md: 400 at −8.5‰ plus 50 of source at −26‰ → −10.444‰.
     let (_, d) = mixture(&[50.0]);
     assert_abs("mixed δ for 50 added", d[0], -10.444, 5e-4);
 
@@ -322,7 +322,7 @@ fn non_positive_or_missing_co2_is_an_error_naming_index_and_value() {
 
 #[test]
 fn small_co2_range_is_flagged_at_the_set_threshold() {
-    // Threshold 40 µmol mol⁻¹ by default (common practice, SCIENCE.md §7).
+    // Threshold 40 µmol mol⁻¹ by default (common practice, docs/science.md).
     let (co2, d13c) = mixture(&[0.0, 10.0, 20.0, 30.0]);
     let data = KeelingData::new(&co2, &d13c).unwrap();
     let default = data

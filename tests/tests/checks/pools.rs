@@ -1,4 +1,4 @@
-//! Checks of the carbon and 13C pools (SCIENCE.md §6). Every expected value is derived
+//! Checks of the carbon and 13C pools (docs/science.md). Every expected value is derived
 //! analytically in the test (linear first-order kinetics), so the sources are the derivations in
 //! the comments; the ratio arithmetic uses R_VPDB = 0.0111802 (Werner & Brand 2001).
 
@@ -241,7 +241,7 @@ fn steady_state_shift_with_fractionation_matches_analytic_value() {
 fn falling_input_delta_leaves_disequilibrium_of_minus_r_tau() {
     // Derivation: with 12C input fixed, δ' = (δP − δ)/τ exactly; for δP = δ0 + r·t the forced
     // solution is δ = δP − r·τ, so δR − δP = −r·τ: τ = 20 y, r = −0.025‰/y → +0.5‰
-    // (SCIENCE.md §6 writes the same example). Forcing is piecewise constant at step midpoints.
+    // (docs/science.md writes the same example). Forcing is piecewise constant at step midpoints.
     let (tau_y, rate, d0, h_y) = (20.0, -0.025, -24.0, 0.1);
     let mut m = model(single_pool(tau_y * YEAR_DAYS), Method::Exact);
     let dp = |t: f64| d0 + rate * t;

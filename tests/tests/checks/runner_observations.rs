@@ -1,5 +1,5 @@
 //! `isodisc keeling`, `compare` and `plot` end to end: exact two-end-member mixtures (Keeling 1958;
-//! SCIENCE.md §7), the three ways of grouping, flagged and bad input, hand-computed scores, a
+//! docs/science.md), the three ways of grouping, flagged and bad input, hand-computed scores, a
 //! planted lag, and SVG figures that carry their axis labels.
 
 use std::fs;
@@ -75,7 +75,7 @@ fn write_mixture_samples(path: &Path) {
 
 #[test]
 fn keeling_exact_mixture_returns_the_source_for_every_method() {
-    // SCIENCE.md §7 worked example: 400 µmol mol⁻¹ at −8.5 ‰ plus 50 of source at −26 ‰ gives
+    // docs/science.md worked example: 400 µmol mol⁻¹ at −8.5 ‰ plus 50 of source at −26 ‰ gives
     // −10.444 ‰ (checks the mixture used below).
     let (c, d) = mixture(400.0, -8.5, 50.0, -26.0);
     assert_eq!(c, 450.0);
@@ -303,7 +303,7 @@ fn keeling_small_groups_are_flagged_and_bad_input_is_named() {
     let ok = (0..t.rows.len())
         .find(|&i| t.cell(i, "group") == "ok")
         .unwrap();
-    // CO2 range 100 ≥ 40: no small-range flag (common practice threshold, SCIENCE.md §7).
+    // CO2 range 100 ≥ 40: no small-range flag (common practice threshold, docs/science.md).
     assert!(!t.cell(ok, "flags").contains("small_co2_range"));
 
     // Zero CO2 on the 3rd line (header = line 1): the message names file, line, column, value.
@@ -573,22 +573,22 @@ fn plot_writes_svg_figures_with_their_axis_labels() {
         p(&observed),
     ])
     .unwrap();
+    // Typographic titles (checked in detail in plots.rs).
     let expected: [(&str, &[&str]); 5] = [
         (
             "discrimination_daily.svg",
             &[
                 "Δ (‰)",
-                "date (local standard time)",
+                "2025 (local standard time)",
                 "ecosystem",
-                "C3",
-                "C4",
+                "C₃",
+                "C₄",
             ],
         ),
         (
             "d13c_respiration.svg",
             &[
-                "δR (‰ VPDB)",
-                "date (local standard time)",
+                "δ¹³C of respiration (‰ VPDB)",
                 "predicted",
                 "observed (daily mean)",
             ],
@@ -596,19 +596,19 @@ fn plot_writes_svg_figures_with_their_axis_labels() {
         (
             "keeling_A.svg",
             &[
-                "1/CO2 (mol µmol⁻¹)",
-                "δ13C of CO2 (‰ VPDB)",
+                "1/CO₂ (mol mmol⁻¹)",
+                "δ¹³C of CO₂ (‰ VPDB)",
                 "samples",
-                "york: source -26.00 ‰",
+                "York: source −26.00 ‰",
             ],
         ),
         (
             "keeling_B.svg",
-            &["1/CO2 (mol µmol⁻¹)", "ols: source -12.00 ‰"],
+            &["1/CO₂ (mol mmol⁻¹)", "OLS: source −12.00 ‰"],
         ),
         (
             "ensemble_discrimination.svg",
-            &["discrimination (‰)", "month", "5–95 %", "median", "2025-01"],
+            &["Δ (‰)", "2025", "5–95 %", "median", "Jan"],
         ),
     ];
     for (name, labels) in expected {
@@ -625,7 +625,8 @@ fn plot_writes_svg_figures_with_their_axis_labels() {
     // Group A's figure has its own 6 samples plus the legend's marker, not B's samples taken at
     // the same times.
     let keeling_a = fs::read_to_string(figs.join("keeling_A.svg")).unwrap();
-    assert_eq!(keeling_a.matches("<circle").count(), 7);
+    // (Samples are grey crosses of two lines each.)
+    assert_eq!(keeling_a.matches("stroke=\"#5A5A5A\"").count(), 2 * 7);
     // No temporary files left behind by the atomic writes.
     let names: Vec<PathBuf> = fs::read_dir(&figs)
         .unwrap()

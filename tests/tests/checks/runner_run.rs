@@ -145,7 +145,7 @@ fn canopy_discrimination_equals_the_leaf_at_the_same_conditions() {
 
 #[test]
 fn aggregates_are_gpp_weighted_not_unweighted_or_cover_weighted() {
-    // Flux weighting (SCIENCE §5; Lloyd & Farquhar 1994 weight Δ by assimilation): over time
+    // Flux weighting (docs/science.md; Lloyd & Farquhar 1994 weight Δ by assimilation): over time
     // Δ̄ = Σ GPP·Δ / Σ GPP, and over pathways by each pathway's GPP, never by cover.
     let dir = tempfile::tempdir().unwrap();
     // Two daytime steps of very different light and VPD, so GPP and Δ differ between them.
@@ -377,7 +377,7 @@ fn demo_respiration_lags_the_assimilate_by_days_and_old_carbon_is_less_depleted(
     assert!(log["pools"]["mean_age_respired_days"].as_f64().unwrap() > 1.0);
     // Under a falling atmospheric δ13C (the Suess effect) old carbon was fixed from a less
     // depleted atmosphere, so heterotrophic respiration is less depleted than new assimilate
-    // (SCIENCE: a pool fed by δ falling at r ‰/yr settles at δR − δP = r·τ, here r < 0 → D > 0).
+    // (docs/science.md: a pool fed by δ falling at r ‰/yr settles at δR − δP = r·τ; r < 0 → D > 0).
     let annual = Table::read(&out.join("annual.csv"));
     let soil_diseq = annual.num(0, "d13c_rh") - annual.num(0, "d13c_assimilate");
     assert!(soil_diseq > 0.0, "soil disequilibrium {soil_diseq}");
