@@ -5,9 +5,9 @@
 use isodisc_model::ModelError;
 use isodisc_model::isotopes::product_delta_permil;
 use isodisc_model::pools::{
-    AtmosphereHistory, AtmosphereRow, EnvironmentResponse, Forcing, MeanDrivers, Method, PoolKind,
-    PoolModel, PoolNetwork, PoolSettings, PoolSpec, PoolState, PoolsConfig, R_VPDB_DEFAULT,
-    StepResult, TemperatureResponse,
+    AtmosphereHistory, AtmosphereRow, EXPORT, EnvironmentResponse, Forcing, MeanDrivers, Method,
+    PoolKind, PoolModel, PoolNetwork, PoolSettings, PoolSpec, PoolState, PoolsConfig,
+    R_VPDB_DEFAULT, StepResult, TemperatureResponse,
 };
 use proptest::prelude::*;
 
@@ -79,16 +79,20 @@ fn busy_network() -> PoolNetwork {
     PoolNetwork::new(vec![
         PoolSpec::new("leaf", 1.0, 0.3, PoolKind::Autotrophic)
             .transfer_to("root", 0.8)
+            .transfer_to(EXPORT, 0.2)
             .with_assimilation_share(0.9)
             .with_epsilons(-4.0, 1.5),
         PoolSpec::new("root", 6.0, 0.4, PoolKind::Autotrophic)
             .transfer_to("litter", 0.9)
+            .transfer_to(EXPORT, 0.1)
             .with_assimilation_share(0.1)
             .with_epsilons(2.0, 0.0),
         PoolSpec::new("litter", 700.0, 0.6, PoolKind::Heterotrophic)
             .transfer_to("soil", 1.0)
             .with_epsilons(-1.0, 0.5),
-        PoolSpec::new("soil", 9000.0, 0.95, PoolKind::Heterotrophic).transfer_to("litter", 0.5),
+        PoolSpec::new("soil", 9000.0, 0.95, PoolKind::Heterotrophic)
+            .transfer_to("litter", 0.5)
+            .transfer_to(EXPORT, 0.5),
     ])
     .unwrap()
 }
@@ -355,7 +359,16 @@ fn dopri5_with_sparse_output_matches_the_exact_solution() {
 #[test]
 fn invalid_networks_are_errors_naming_the_pool() {
     let ok = |name: &str| {
-        PoolSpec::new(name, 10.0, 0.5, PoolKind::Heterotrophic).with_assimilation_share(0.5)
+        PoolSpec::new(name, 10.0, 0.5, PoolKind::Heterotrophic)
+            .with_assimilation_share(0.5)
+            .transfer_to(EXPORT, 1.0)
+    };
+    // Respired 0.3 and one transfer of 0.3: 0.7 × 0.7 = 0.49 of the outflow would go nowhere
+    // (arithmetic of the fractions); the error names the pool and the share lost.
+    let leaky = || {
+        PoolSpec::new("b", 10.0, 0.3, PoolKind::Heterotrophic)
+            .with_assimilation_share(0.5)
+            .transfer_to("a", 0.3)
     };
     let cases: Vec<(Vec<PoolSpec>, &str)> = vec![
         (vec![ok("a"), ok("a")], "`a`"),
@@ -417,6 +430,13 @@ fn invalid_networks_are_errors_naming_the_pool() {
         (
             vec![ok("a"), ok("b").with_epsilons(150.0, 0.0)],
             "b.epsilon_respiration_permil",
+        ),
+        (vec![ok("a"), leaky()], "pool `b`: it respires 0.3"),
+        (vec![ok("a"), leaky()], "0.4900 of the carbon"),
+        (vec![ok("a"), ok("export")], "reserved"),
+        (
+            vec![ok("a"), ok("b").transfer_to(EXPORT, 0.0)],
+            "`b` lists `export` twice",
         ),
     ];
     for (specs, needle) in cases {
@@ -505,9 +525,20 @@ fn config_builds_a_user_network_and_overrides_by_path() {
     cfg.set_param("soil.turnover_years", 50.0).unwrap();
     cfg.set_param("transport_labile.transfers.wood", 0.1)
         .unwrap();
+    // 0.8 + 0.1 leaves a tenth of the non-respired outflow unaccounted for: refused, pool named.
+    let err = cfg.build().unwrap_err().to_string();
+    assert!(err.contains("pool `transport_labile`"), "{err}");
+    cfg.pool.as_mut().unwrap()[1]
+        .transfers
+        .insert(EXPORT.into(), 0.1);
     let (net, _) = cfg.build().unwrap();
     assert_eq!(net.pools()[4].turnover_days, 50.0 * YEAR_DAYS);
     assert!((net.export_fraction(1) - 0.1).abs() < ARITH_TOL);
+    cfg.set_param("transport_labile.transfers.export", 0.2)
+        .unwrap();
+    assert!(cfg.build().unwrap_err().to_string().contains("more than 1"));
+    cfg.set_param("transport_labile.transfers.export", 0.1)
+        .unwrap();
     match cfg.set_param("soil.turnover_yaers", 1.0) {
         Err(ModelError::UnknownParameter { suggestion, .. }) => {
             assert_eq!(suggestion.as_deref(), Some("soil.turnover_years"))
@@ -570,6 +601,9 @@ proptest! {
                     for (j, x) in w.iter().enumerate().filter(|&(j, _)| j != i) {
                         s = s.transfer_to(&format!("p{j}"), kept * x / total_w);
                     }
+                    s = s.transfer_to(EXPORT, 1.0 - kept);
+                } else {
+                    s = s.transfer_to(EXPORT, 1.0);
                 }
                 s
             })
