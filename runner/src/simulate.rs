@@ -247,6 +247,9 @@ pub fn simulate(
         first_year.push((f, d, s));
     }
     let mut pools = Pools::start(site, &first_year, step_minutes)?;
+    if first_year.len() as f64 * step_days >= 365.0 {
+        pools.cycle(&first_year, step_days)?;
+    }
 
     let mut aggs = [
         Aggregator::new(PeriodKind::Daily),
@@ -258,6 +261,10 @@ pub fn simulate(
                        s: Option<SiteStep>,
                        sink: &mut dyn StepSink|
      -> Result<()> {
+        // The pools as they stand at the end of the day just closed, before this step moves them.
+        if aggs[0].current_key_differs(f.time) {
+            pools.end_of_day(sink, aggs[0].current_date)?;
+        }
         let resp = match (&d, &s) {
             (Some(d), Some(s)) => Some(pools.step(f.time.date(), d, s, step_days)?),
             _ => None,
@@ -271,10 +278,6 @@ pub fn simulate(
             c4,
         };
         sink.step(&view)?;
-        let closed_day = aggs[0].current_key_differs(f.time);
-        if closed_day {
-            pools.end_of_day(sink, aggs[0].current_date)?;
-        }
         for a in &mut aggs {
             a.add(&view, step_days * SECONDS_PER_DAY);
         }
@@ -368,7 +371,7 @@ struct Pools {
 }
 
 impl Pools {
-    /// Spins the pools up from the first year's mean forcing.
+    /// Spins the pools up from the first year's mean assimilation and mean turnover rates.
     fn start(
         site: &Site,
         first_year: &[(ForcingStep, Option<SiteDrivers>, Option<SiteStep>)],
@@ -403,10 +406,17 @@ impl Pools {
             )));
         }
         let days = seconds / SECONDS_PER_DAY;
+        let t_mean = t_sum / n as f64;
         let mean = MeanDrivers {
             assimilation_gc_m2_day: gpp_gc / days,
-            t_soil_c: t_sum / n as f64,
+            t_soil_c: t_mean,
             moisture: beta_sum / n as f64,
+            turnover_factor: Some(mean_turnover_factor(
+                &model,
+                first_year,
+                t_mean,
+                step_s / SECONDS_PER_DAY,
+            )?),
         };
         let mean_disc = w_disc / gpp_gc;
         let mean_d13c_air = w_d13c_air / gpp_gc;
@@ -417,7 +427,7 @@ impl Pools {
             t_soil_c: mean.t_soil_c,
             moisture: mean.moisture,
         };
-        let report = model.steady_state_report(&steady_forcing)?;
+        let report = model.steady_state_report_at(&steady_forcing, mean.turnover_factor)?;
         let state = match &site.history {
             Some(h) => {
                 let t0 = first_time.expect("n > 0");
@@ -434,7 +444,7 @@ impl Pools {
                         )
                     })?
             }
-            None => model.steady_state(&steady_forcing)?,
+            None => model.steady_state_at(&steady_forcing, mean.turnover_factor)?,
         };
         let pool_names = model
             .network()
@@ -461,6 +471,28 @@ impl Pools {
                 pool_names,
             },
         })
+    }
+
+    /// Runs the first (whole) year once through the pools from their steady state and keeps the
+    /// pools it ends with, so the fast pools start where the year's end leaves them rather than at
+    /// their annual mean (they would release their surplus in the first weeks otherwise) and the
+    /// slower ones a year nearer the cycle a repeating year settles into. Soil temperature and the
+    /// assimilate's δ restart as before.
+    fn cycle(
+        &mut self,
+        first_year: &[(ForcingStep, Option<SiteDrivers>, Option<SiteStep>)],
+        step_days: f64,
+    ) -> Result<()> {
+        let (t_soil_c, d13c) = (self.t_soil_c, self.last_d13c_assimilate);
+        for (f, d, s) in first_year {
+            if let (Some(d), Some(s)) = (d, s) {
+                self.step(f.time.date(), d, s, step_days)?;
+            }
+        }
+        self.t_soil_c = t_soil_c;
+        self.last_d13c_assimilate = d13c;
+        self.soil_of_day = None;
+        Ok(())
     }
 
     fn step(
@@ -518,6 +550,36 @@ impl Pools {
             .collect();
         sink.pools_daily(date, &c, &d)
     }
+}
+
+/// Mean over the first year of the responsive pools' turnover multiplier f(T)·g(β), with soil
+/// temperature and moisture as the run will see them (the running mean of air temperature started
+/// at the year's mean, held with β from each day's first step): the pools' steady state at the
+/// mean of the rates, not at the rate of the mean temperature, is what a repeating year keeps.
+fn mean_turnover_factor(
+    model: &PoolModel,
+    first_year: &[(ForcingStep, Option<SiteDrivers>, Option<SiteStep>)],
+    t_start_c: f64,
+    step_days: f64,
+) -> Result<f64> {
+    let response = model.settings().response();
+    let w = 1.0 - (-step_days / SOIL_TEMPERATURE_LAG_DAYS).exp();
+    let (mut t_soil, mut held, mut sum, mut n) = (t_start_c, None, 0.0, 0usize);
+    for (f, d, s) in first_year {
+        let (Some(d), Some(s)) = (d, s) else { continue };
+        t_soil += w * (d.t_air_c - t_soil);
+        let factor = match held {
+            Some((day, factor)) if day == f.time.date() => factor,
+            _ => {
+                let factor = response.factor(t_soil, s.beta)?;
+                held = Some((f.time.date(), factor));
+                factor
+            }
+        };
+        sum += factor;
+        n += 1;
+    }
+    Ok(sum / n.max(1) as f64)
 }
 
 /// The lag (days) at which daily δR correlates best with the daily δ13C of the assimilate of

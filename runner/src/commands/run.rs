@@ -324,6 +324,7 @@ impl RunPlan {
                     "mean_assimilation_gc_m2_day": sim.pools.spin_up.assimilation_gc_m2_day,
                     "mean_soil_temperature_c": sim.pools.spin_up.t_soil_c,
                     "mean_moisture": sim.pools.spin_up.moisture,
+                    "mean_turnover_factor": sim.pools.spin_up.turnover_factor,
                     "mean_discrimination_permil": sim.pools.spin_up_discrimination_permil,
                 },
                 "mean_age_respired_days": sim.pools.mean_age_respired_days,
