@@ -28,10 +28,10 @@ const CLEAR_SKY_TRANSMISSIVITY: f64 = 0.75;
 
 /// A small deterministic generator (SplitMix64, Steele, Lea & Flood 2014), so the weather is the
 /// same on every machine and needs no crate.
-pub(crate) struct SplitMix(u64);
+pub(crate) struct SplitMix(pub(crate) u64);
 
 impl SplitMix {
-    fn next_u64(&mut self) -> u64 {
+    pub(crate) fn next_u64(&mut self) -> u64 {
         self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
         let mut z = self.0;
         z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
@@ -40,12 +40,12 @@ impl SplitMix {
     }
 
     /// Uniform in [0, 1).
-    fn uniform(&mut self) -> f64 {
+    pub(crate) fn uniform(&mut self) -> f64 {
         (self.next_u64() >> 11) as f64 / (1u64 << 53) as f64
     }
 
     /// Standard normal (Box–Muller).
-    fn normal(&mut self) -> f64 {
+    pub(crate) fn normal(&mut self) -> f64 {
         let u1 = self.uniform().max(1e-300);
         let u2 = self.uniform();
         (-2.0 * u1.ln()).sqrt() * (2.0 * PI * u2).cos()
