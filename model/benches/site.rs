@@ -22,6 +22,7 @@ fn settings() -> SiteSettings {
         cover,
         lai_m2_m2: lai,
         leaf_width_m: 0.05,
+        phenology: None,
     };
     let params = BucketParams::new(0.28, 0.09, 1.2, 0.5).unwrap();
     SiteSettings {

@@ -74,10 +74,11 @@ impl std::error::Error for ModelError {}
 /// Result alias for the model crate.
 pub type Result<T> = std::result::Result<T, ModelError>;
 
-/// Checks that `value` is finite and within `[min, max]`, naming the parameter if not.
+/// Checks that `value` is within `[min, max]` (never NaN), naming the parameter if not. Infinity
+/// passes only where the bound itself is infinite (conductances and tpu25 take `inf`: none).
 #[inline]
 pub fn check_range(name: &str, value: f64, min: f64, max: f64) -> Result<f64> {
-    if value.is_finite() && value >= min && value <= max {
+    if value >= min && value <= max {
         Ok(value)
     } else {
         Err(parameter_error(name, value, min, max))
@@ -163,5 +164,10 @@ mod tests {
         assert!(check_range("g1", f64::NAN, 0.0, 10.0).is_err());
         assert!(check_range("g1", 11.0, 0.0, 10.0).is_err());
         assert_eq!(check_range("g1", 4.0, 0.0, 10.0), Ok(4.0));
+        assert!(check_range("g1", f64::INFINITY, 0.0, 10.0).is_err());
+        assert_eq!(
+            check_range("gm", f64::INFINITY, 0.01, f64::INFINITY),
+            Ok(f64::INFINITY)
+        );
     }
 }

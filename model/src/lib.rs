@@ -15,6 +15,8 @@
 //! - [`discrimination`]: leaf 13C discrimination (C3 simple and comprehensive, C4 with leakiness);
 //! - [`canopy`]: solar geometry, diffuse fraction, sunlit/shaded radiation and canopy assimilation;
 //! - [`water`]: vapour pressure, Priestley–Taylor evaporation and the soil-water bucket;
+//! - [`phenology`]: LAI from the Growing Season Index, and the cold rule (frost, frozen soil);
+//! - [`presets`]: published parameter sets of common vegetation types;
 //! - [`pools`]: carbon and 13C pools integrated as ODEs (respiration lag, disequilibrium);
 //! - [`observations`]: Keeling plots, scores and lag analysis.
 
@@ -25,7 +27,9 @@ pub mod isotopes;
 pub mod leaf;
 mod numerics;
 pub mod observations;
+pub mod phenology;
 pub mod pools;
+pub mod presets;
 pub mod site;
 pub mod temperature;
 pub mod water;

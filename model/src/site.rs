@@ -11,6 +11,12 @@
 //!   available water — or β from an observed soil-water content.
 //! - Net radiation for soil evaporation is approximated as 0.7 × shortwave by day (common practice,
 //!   from memory; no longwave data are required).
+//! - LAI: a constant, the forcing's column, or the Growing Season Index phenology
+//!   ([`crate::phenology`], Jolly, Nemani & Running 2005).
+//! - Cold: photosynthetic capacity × f_cold, the GSI's minimum-temperature ramp on the lowest air
+//!   temperature of the last 24 h; no photosynthesis while the soil is frozen
+//!   ([`crate::phenology`]). With f_cold = 0 the leaves are not solved, so any air temperature the
+//!   weather holds is accepted; otherwise the leaf temperature is the air temperature (> −2 °C).
 //! - With wind, the leaf boundary-layer conductance to H2O is gb = 0.147·√(u/d) mol m⁻² s⁻¹ for leaf
 //!   width d (Campbell & Norman 1998, from memory).
 
@@ -20,6 +26,7 @@ use crate::canopy::solar::Location;
 use crate::error::{Result, check_input, check_range};
 use crate::isotopes::product_delta_permil;
 use crate::leaf::{LeafConditions, LeafModel, LeafOptions, Pathway};
+use crate::phenology::{ColdState, Phenology, PhenologySettings};
 use crate::water::bucket::{Bucket, BucketParams};
 use crate::water::evaporation::{PriestleyTaylor, soil_evaporation_demand_mm, transpiration_mm};
 
@@ -41,6 +48,9 @@ pub struct Vegetation {
     pub lai_m2_m2: f64,
     /// Leaf width (m) for the boundary layer when wind is known.
     pub leaf_width_m: f64,
+    /// LAI from the Growing Season Index between its lai_min and lai_max (None: `lai_m2_m2` or
+    /// the step's LAI).
+    pub phenology: Option<PhenologySettings>,
 }
 
 impl Vegetation {
@@ -149,12 +159,22 @@ pub struct SiteStep {
     pub cos_zenith: f64,
     /// Diffuse fraction of shortwave (0–1).
     pub diffuse_fraction: f64,
+    /// Factor of the cold rule on photosynthetic capacity (0–1; 0: frost or frozen soil, no
+    /// photosynthesis).
+    pub cold_factor: f64,
+    /// Soil temperature of the cold rule (°C): running mean of air temperature.
+    pub t_soil_c: f64,
 }
 
 /// A site being simulated: settings and the soil-water state.
 #[derive(Debug, Clone, PartialEq)]
 pub struct SiteModel {
     settings: SiteSettings,
+    cold: ColdState,
+    /// One per vegetation: its phenology state, if LAI follows the GSI.
+    phenology: Vec<Option<Phenology>>,
+    /// Photoperiod (h) of the day (year, day of year) last asked for.
+    photoperiod: Option<((i32, u32), f64)>,
 }
 
 impl SiteModel {
@@ -189,7 +209,38 @@ impl SiteModel {
             0.0,
             2.0,
         )?;
-        Ok(Self { settings })
+        let phenology = settings
+            .vegetation
+            .iter()
+            .map(|v| v.phenology.map(Phenology::new))
+            .collect();
+        Ok(Self {
+            settings,
+            cold: ColdState::default(),
+            phenology,
+            photoperiod: None,
+        })
+    }
+
+    /// Sunrise to sunset (hours) of a day at the site; 24 in polar day, 0 in polar night.
+    fn photoperiod_h(&mut self, year: i32, day_of_year: u32) -> Result<f64> {
+        use crate::canopy::solar::SunTimes;
+        let key = (year, day_of_year);
+        if let Some((k, h)) = self.photoperiod
+            && k == key
+        {
+            return Ok(h);
+        }
+        let h = match self.settings.location.sun_times(year, day_of_year)? {
+            SunTimes::RiseAndSet {
+                sunrise_hour_lst,
+                sunset_hour_lst,
+            } => (sunset_hour_lst - sunrise_hour_lst).clamp(0.0, 24.0),
+            SunTimes::PolarDay => 24.0,
+            SunTimes::PolarNight => 0.0,
+        };
+        self.photoperiod = Some((key, h));
+        Ok(h)
     }
 
     /// The settings.
@@ -229,8 +280,16 @@ impl SiteModel {
                 _ => 1.0,
             },
         };
+        let cold = self.cold.step(d.t_air_c, d.hour_end - d.hour_start);
+        let photoperiod_h = if self.phenology.iter().any(Option::is_some) {
+            self.photoperiod_h(d.year, d.day_of_year)?
+        } else {
+            f64::NAN
+        };
         let leaf_base = LeafConditions {
-            t_leaf_c: d.t_air_c,
+            // Used only with cold.factor > 0, which implies air above −2 °C; the clamp keeps a
+            // leaf solve inside its valid range whatever the weather.
+            t_leaf_c: d.t_air_c.clamp(-30.0, 60.0),
             ppfd_umol_m2_s: 0.0,
             vpd_kpa: d.vpd_kpa,
             ca_umol_mol: d.co2_umol_mol,
@@ -243,8 +302,18 @@ impl SiteModel {
         let (mut gpp, mut gpp_c4, mut wd) = (0.0, 0.0, 0.0);
         let mut transpiration = 0.0;
         let mut lai_total = 0.0;
-        for v in &self.settings.vegetation {
-            let lai = d.lai_m2_m2.unwrap_or(v.lai_m2_m2);
+        for (v, phen) in self.settings.vegetation.iter().zip(&mut self.phenology) {
+            let lai = match (phen, d.lai_m2_m2) {
+                (Some(p), _) => p.step(
+                    (d.year, d.day_of_year),
+                    d.t_air_c,
+                    d.vpd_kpa,
+                    beta,
+                    photoperiod_h,
+                ),
+                (None, Some(l)) => l,
+                (None, None) => v.lai_m2_m2,
+            };
             let leaf = match d.wind_m_s {
                 Some(u) if u.is_finite() => {
                     let mut l = v.leaf.clone();
@@ -254,18 +323,27 @@ impl SiteModel {
                 }
                 _ => std::borrow::Cow::Borrowed(&v.leaf),
             };
-            let flux = canopy_step(
-                &leaf,
-                &v.options,
-                &v.canopy,
-                &CanopyDrivers {
-                    leaf: leaf_base,
-                    ppfd_beam_umol_m2_s: ppfd * (1.0 - diffuse_fraction),
-                    ppfd_diffuse_umol_m2_s: ppfd * diffuse_fraction,
-                    cos_zenith,
-                    lai_m2_m2: lai,
-                },
-            )?;
+            let leaf = if cold.factor < 1.0 {
+                std::borrow::Cow::Owned(leaf.with_capacity_scaled(cold.factor))
+            } else {
+                leaf
+            };
+            let flux = if cold.factor > 0.0 {
+                canopy_step(
+                    &leaf,
+                    &v.options,
+                    &v.canopy,
+                    &CanopyDrivers {
+                        leaf: leaf_base,
+                        ppfd_beam_umol_m2_s: ppfd * (1.0 - diffuse_fraction),
+                        ppfd_diffuse_umol_m2_s: ppfd * diffuse_fraction,
+                        cos_zenith,
+                        lai_m2_m2: lai,
+                    },
+                )?
+            } else {
+                CanopyFlux::empty()
+            };
             let g = v.cover * flux.gpp_umol_m2_s;
             gpp += g;
             if v.pathway() == Pathway::C4 {
@@ -319,6 +397,8 @@ impl SiteModel {
             soil_water_mm,
             cos_zenith,
             diffuse_fraction,
+            cold_factor: cold.factor,
+            t_soil_c: cold.t_soil_c,
         })
     }
 }

@@ -26,6 +26,8 @@ pub enum Command {
     Leaf(LeafArgs),
     /// A site from its weather file: flux-weighted discrimination step by step and aggregated.
     Run(RunArgs),
+    /// The vegetation presets of site files, with every value, unit and source.
+    Presets(PresetsArgs),
     /// Source δ13C from canopy-air samples: Keeling and Miller–Tans fits per group.
     Keeling(KeelingArgs),
     /// Scores (and lags) of a run's predictions against observations.
@@ -59,6 +61,16 @@ pub struct RunArgs {
     /// Print nothing on success.
     #[arg(long)]
     pub quiet: bool,
+}
+
+/// `isodisc presets`.
+#[derive(Debug, clap::Args)]
+pub struct PresetsArgs {
+    /// Only this preset.
+    pub name: Option<String>,
+    /// Output format.
+    #[arg(long, value_enum, default_value = "table")]
+    pub format: Format,
 }
 
 /// Output format of tables.

@@ -39,6 +39,7 @@ pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Leaf(args) => commands::leaf::LeafPlan::from_args(&args)?.run(),
         Command::Run(args) => commands::run::RunPlan::from_args(&args)?.run(),
+        Command::Presets(args) => commands::presets::PresetsPlan::from_args(&args)?.run(),
         Command::Keeling(args) => commands::keeling::KeelingPlan::from_args(&args)?.run(),
         Command::Compare(args) => commands::compare::ComparePlan::from_args(&args)?.run(),
         Command::Plot(args) => commands::plot::PlotPlan::from_args(&args)?.run(),

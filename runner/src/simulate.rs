@@ -7,6 +7,8 @@
 use isodisc_model::isotopes::product_delta_permil;
 use isodisc_model::leaf::Pathway;
 use isodisc_model::observations::{LagSettings, lag_analysis};
+use isodisc_model::phenology::running_mean_step;
+use isodisc_model::pools::response::T_SOIL_RANGE_C;
 use isodisc_model::pools::{
     AtmosphereHistory, Forcing, MeanDrivers, PoolModel, PoolState, StepResult,
 };
@@ -21,8 +23,8 @@ pub const GC_PER_UMOL: f64 = 12.011e-6;
 /// Seconds per day.
 const SECONDS_PER_DAY: f64 = 86_400.0;
 /// Time constant (days) of the running mean of air temperature that stands for soil temperature
-/// (common practice, from memory: soil lags and damps the air).
-pub const SOIL_TEMPERATURE_LAG_DAYS: f64 = 7.0;
+/// (common practice, from memory: soil lags and damps the air); the cold rule uses the same.
+pub use isodisc_model::phenology::SOIL_TEMPERATURE_LAG_DAYS;
 /// Longest lag (days) searched for the effective lag of δR behind the assimilate.
 pub const MAX_LAG_DAYS: usize = 20;
 
@@ -401,12 +403,13 @@ impl Pools {
         if n == 0 || gpp_gc <= 0.0 {
             return Err(crate::error::Error::msg(format!(
                 "{}: the first year of the run has no step with photosynthesis, so the pools cannot \
-                 be started at a steady state",
+                 be started at a steady state (a run of cold months alone, when frost or frozen soil \
+                 stops photosynthesis, or of leafless months: run a whole year)",
                 site.path.display()
             )));
         }
         let days = seconds / SECONDS_PER_DAY;
-        let t_mean = t_sum / n as f64;
+        let t_mean = (t_sum / n as f64).clamp(T_SOIL_RANGE_C.0, T_SOIL_RANGE_C.1);
         let mean = MeanDrivers {
             assimilation_gc_m2_day: gpp_gc / days,
             t_soil_c: t_mean,
@@ -502,9 +505,15 @@ impl Pools {
         s: &SiteStep,
         step_days: f64,
     ) -> Result<RespirationStep> {
-        // Soil temperature: running mean of air temperature with a time constant of a week.
-        let w = 1.0 - (-step_days / SOIL_TEMPERATURE_LAG_DAYS).exp();
-        self.t_soil_c += w * (d.t_air_c - self.t_soil_c);
+        // Soil temperature: running mean of air temperature with a time constant of a week, held
+        // within the range of the decomposition response (snow and soil insulate the deep cold).
+        self.t_soil_c = running_mean_step(
+            self.t_soil_c,
+            d.t_air_c,
+            step_days,
+            SOIL_TEMPERATURE_LAG_DAYS,
+        )
+        .clamp(T_SOIL_RANGE_C.0, T_SOIL_RANGE_C.1);
         if s.d13c_assimilate_permil.is_finite() {
             self.last_d13c_assimilate = s.d13c_assimilate_permil;
         }
@@ -563,11 +572,11 @@ fn mean_turnover_factor(
     step_days: f64,
 ) -> Result<f64> {
     let response = model.settings().response();
-    let w = 1.0 - (-step_days / SOIL_TEMPERATURE_LAG_DAYS).exp();
     let (mut t_soil, mut held, mut sum, mut n) = (t_start_c, None, 0.0, 0usize);
     for (f, d, s) in first_year {
         let (Some(d), Some(s)) = (d, s) else { continue };
-        t_soil += w * (d.t_air_c - t_soil);
+        t_soil = running_mean_step(t_soil, d.t_air_c, step_days, SOIL_TEMPERATURE_LAG_DAYS)
+            .clamp(T_SOIL_RANGE_C.0, T_SOIL_RANGE_C.1);
         let factor = match held {
             Some((day, factor)) if day == f.time.date() => factor,
             _ => {

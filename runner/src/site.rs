@@ -12,6 +12,7 @@ use isodisc_model::canopy::radiation::TwoLeafCanopy;
 use isodisc_model::canopy::solar::Location;
 use isodisc_model::error::closest_name;
 use isodisc_model::leaf::{BetaTarget, C3Form, ElectronLimit, LeafModel, LeafOptions, Pathway};
+use isodisc_model::phenology::{PhenologyKind, PhenologySettings};
 use isodisc_model::pools::{AtmosphereHistory, PoolsConfig};
 use isodisc_model::site::{SiteSettings, SoilWater, Vegetation};
 use isodisc_model::water::bucket::{Bucket, BucketParams, InitialWater};
@@ -23,8 +24,7 @@ use crate::error::{Error, Result};
 use crate::forcing::ForcingConfig;
 
 /// A constant, or `"forcing"`: the value comes from the weather file's column.
-#[derive(Debug, Clone, Copy, PartialEq, Deserialize)]
-#[serde(untagged)]
+#[derive(Debug, Clone, Copy, PartialEq)]
 pub enum ValueOrForcing {
     /// A constant value.
     Value(f64),
@@ -33,11 +33,122 @@ pub enum ValueOrForcing {
 }
 
 /// The word `"forcing"`.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum FromForcing {
     /// The value comes from the weather file.
-    #[serde(rename = "forcing")]
     Forcing,
+}
+
+/// Leaf area index of a vegetation block: a constant (m² m⁻²), `"forcing"` (the weather file's
+/// LAI column) or `"phenology"` (the Growing Season Index between `lai_min` and `lai_max`).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum LaiSetting {
+    /// A constant LAI (m² m⁻²).
+    Value(f64),
+    /// The weather file's LAI column.
+    Forcing,
+    /// The Growing Season Index phenology.
+    Phenology,
+}
+
+/// A number, or one of a few words: what a site-file value may be. Deserialised by hand so that a
+/// wrong value is told what the key takes (serde's untagged enums only say that nothing matched).
+struct NumberOrWord {
+    words: &'static [&'static str],
+    expecting: &'static str,
+}
+
+/// What [`NumberOrWord`] read.
+enum NumberOrWordValue {
+    Number(f64),
+    Word(&'static str),
+}
+
+impl<'de> serde::de::DeserializeSeed<'de> for NumberOrWord {
+    type Value = NumberOrWordValue;
+
+    fn deserialize<D: serde::Deserializer<'de>>(
+        self,
+        d: D,
+    ) -> std::result::Result<Self::Value, D::Error> {
+        d.deserialize_any(self)
+    }
+}
+
+impl serde::de::Visitor<'_> for NumberOrWord {
+    type Value = NumberOrWordValue;
+
+    fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+        f.write_str(self.expecting)
+    }
+
+    fn visit_f64<E: serde::de::Error>(self, v: f64) -> std::result::Result<Self::Value, E> {
+        Ok(NumberOrWordValue::Number(v))
+    }
+
+    fn visit_i64<E: serde::de::Error>(self, v: i64) -> std::result::Result<Self::Value, E> {
+        Ok(NumberOrWordValue::Number(v as f64))
+    }
+
+    fn visit_u64<E: serde::de::Error>(self, v: u64) -> std::result::Result<Self::Value, E> {
+        Ok(NumberOrWordValue::Number(v as f64))
+    }
+
+    fn visit_str<E: serde::de::Error>(self, v: &str) -> std::result::Result<Self::Value, E> {
+        self.words
+            .iter()
+            .find(|w| **w == v)
+            .map(|w| NumberOrWordValue::Word(w))
+            .ok_or_else(|| E::custom(format!("\"{v}\" is not {}", self.expecting)))
+    }
+}
+
+impl<'de> Deserialize<'de> for ValueOrForcing {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> std::result::Result<Self, D::Error> {
+        use serde::de::DeserializeSeed;
+        let seed = NumberOrWord {
+            words: &["forcing"],
+            expecting: "a number or \"forcing\" (the weather file's column)",
+        };
+        Ok(match seed.deserialize(d)? {
+            NumberOrWordValue::Number(x) => ValueOrForcing::Value(x),
+            NumberOrWordValue::Word(_) => ValueOrForcing::Forcing(FromForcing::Forcing),
+        })
+    }
+}
+
+impl<'de> Deserialize<'de> for LaiSetting {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> std::result::Result<Self, D::Error> {
+        use serde::de::DeserializeSeed;
+        let seed = NumberOrWord {
+            words: &["forcing", "phenology"],
+            expecting: "a number (m2 m-2), \"forcing\" (the weather file's LAI column) or \
+                        \"phenology\" (the Growing Season Index between lai_min and lai_max)",
+        };
+        Ok(match seed.deserialize(d)? {
+            NumberOrWordValue::Number(x) => LaiSetting::Value(x),
+            NumberOrWordValue::Word("forcing") => LaiSetting::Forcing,
+            NumberOrWordValue::Word(_) => LaiSetting::Phenology,
+        })
+    }
+}
+
+/// A leaf parameter's value in a site file: a number, TOML's `inf`, or the string `"inf"`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ParamNumber(pub f64);
+
+impl<'de> Deserialize<'de> for ParamNumber {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> std::result::Result<Self, D::Error> {
+        use serde::de::DeserializeSeed;
+        let seed = NumberOrWord {
+            words: &["inf"],
+            expecting: "a number, or inf (conductances and tpu25)",
+        };
+        Ok(ParamNumber(match seed.deserialize(d)? {
+            NumberOrWordValue::Number(x) => x,
+            NumberOrWordValue::Word(_) => f64::INFINITY,
+        }))
+    }
 }
 
 /// `[site]`.
@@ -60,13 +171,29 @@ pub struct SiteBlock {
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct VegetationBlock {
+    /// A vegetation preset (`isodisc presets`): its values fill every key and parameter the block
+    /// does not set.
+    #[serde(default)]
+    pub preset: Option<String>,
     /// Fraction of the ground covered by this pathway (0–1).
     pub cover: f64,
-    /// Leaf area index where it grows (m² m⁻²), or "forcing".
-    pub lai: ValueOrForcing,
-    /// Leaf parameters by the names of `isodisc leaf --set`.
+    /// Leaf area index where it grows (m² m⁻²), "forcing" or "phenology". Required without a
+    /// preset; "phenology" with one.
     #[serde(default)]
-    pub params: BTreeMap<String, Spanned<f64>>,
+    pub lai: Option<LaiSetting>,
+    /// Phenology with `lai = "phenology"`: "gsi" or "gsi-soil-water".
+    #[serde(default)]
+    pub phenology: Option<String>,
+    /// LAI at a Growing Season Index of 0 (m² m⁻²). Default 0.
+    #[serde(default)]
+    pub lai_min: Option<f64>,
+    /// LAI at a Growing Season Index of 1 (m² m⁻²).
+    #[serde(default)]
+    pub lai_max: Option<f64>,
+    /// Leaf parameters by the names of `isodisc leaf --set` (`inf` allowed for conductances and
+    /// tpu25).
+    #[serde(default)]
+    pub params: BTreeMap<String, Spanned<ParamNumber>>,
     /// C3 discrimination form: "comprehensive" (default) or "simple".
     #[serde(default)]
     pub discrimination: Option<String>,
@@ -309,9 +436,41 @@ impl Site {
             let Some(b) = block else { continue };
             let name = pathway.as_str();
             let section = format!("vegetation.{name}");
+            let preset = match &b.preset {
+                Some(name) => {
+                    let p = isodisc_model::presets::preset(name).map_err(|e| {
+                        err(
+                            line_of_key(&text, &section, "preset"),
+                            format!("[{section}] preset: {e}"),
+                        )
+                    })?;
+                    if p.pathway != pathway {
+                        return Err(err(
+                            line_of_key(&text, &section, "preset"),
+                            format!(
+                                "[{section}] preset = \"{name}\" is a {} preset; use it in \
+                                 [vegetation.{}]",
+                                p.pathway.as_str().to_uppercase(),
+                                p.pathway.as_str()
+                            ),
+                        ));
+                    }
+                    Some(p)
+                }
+                None => None,
+            };
+            let from_preset = |key: &str| preset.and_then(|p| p.value(key));
             let mut leaf = LeafModel::default_for(pathway);
+            for (k, v) in preset.iter().flat_map(|p| p.leaf_params()) {
+                leaf.set(k, v).map_err(|e| {
+                    err(
+                        line_of_key(&text, &section, "preset"),
+                        format!("[{section}] preset parameter {k}: {e}"),
+                    )
+                })?;
+            }
             for (k, v) in &b.params {
-                leaf.set(k, *v.get_ref()).map_err(|e| {
+                leaf.set(k, v.get_ref().0).map_err(|e| {
                     err(
                         Some(line_of(&text, v.span().start)),
                         format!("[{section}] params.{k}: {e}"),
@@ -363,25 +522,91 @@ impl Site {
                     ));
                 }
             };
-            let radiation = TwoLeafCanopy::new(0.15, 0.78, 0.036, b.clumping.unwrap_or(1.0), 0.05)
-                .map_err(|e| {
-                    err(
-                        line_of_key(&text, &section, "clumping"),
-                        format!("[{section}] {e}"),
-                    )
-                })?;
+            let clumping = b.clumping.or(from_preset("clumping")).unwrap_or(1.0);
+            let radiation = TwoLeafCanopy::new(0.15, 0.78, 0.036, clumping, 0.05).map_err(|e| {
+                err(
+                    line_of_key(&text, &section, "clumping"),
+                    format!("[{section}] {e}"),
+                )
+            })?;
             let canopy =
-                CanopySettings::new(radiation, b.kn.unwrap_or(0.3), 0.85).map_err(|e| {
-                    err(
-                        line_of_key(&text, &section, "kn"),
-                        format!("[{section}] {e}"),
-                    )
-                })?;
-            let lai = match b.lai {
-                ValueOrForcing::Value(v) => v,
-                ValueOrForcing::Forcing(_) => {
+                CanopySettings::new(radiation, b.kn.or(from_preset("kn")).unwrap_or(0.3), 0.85)
+                    .map_err(|e| {
+                        err(
+                            line_of_key(&text, &section, "kn"),
+                            format!("[{section}] {e}"),
+                        )
+                    })?;
+            let lai_setting = match (b.lai, preset) {
+                (Some(l), _) => l,
+                (None, Some(_)) => LaiSetting::Phenology,
+                (None, None) => {
+                    return Err(err(
+                        text.find(&format!("[{section}]"))
+                            .map(|o| line_of(&text, o)),
+                        format!(
+                            "[{section}] needs lai: a number (m2 m-2), \"forcing\" or \
+                             \"phenology\" (or a preset)"
+                        ),
+                    ));
+                }
+            };
+            let phenology_keys = [
+                ("phenology", b.phenology.is_some()),
+                ("lai_min", b.lai_min.is_some()),
+                ("lai_max", b.lai_max.is_some()),
+            ];
+            if lai_setting != LaiSetting::Phenology
+                && let Some((key, _)) = phenology_keys.iter().find(|(_, set)| *set)
+            {
+                return Err(err(
+                    line_of_key(&text, &section, key),
+                    format!(
+                        "[{section}] {key} applies only with lai = \"phenology\"; remove it or \
+                         set lai = \"phenology\""
+                    ),
+                ));
+            }
+            let (lai, phenology) = match lai_setting {
+                LaiSetting::Value(v) => (v, None),
+                LaiSetting::Forcing => {
                     lai_from_forcing = true;
-                    0.0
+                    (0.0, None)
+                }
+                LaiSetting::Phenology => {
+                    let kind = match (&b.phenology, preset) {
+                        (Some(name), _) => PhenologyKind::parse(name).map_err(|e| {
+                            err(
+                                line_of_key(&text, &section, "phenology"),
+                                format!("[{section}] {e}"),
+                            )
+                        })?,
+                        (None, Some(p)) => p.phenology,
+                        (None, None) => {
+                            return Err(err(
+                                line_of_key(&text, &section, "lai"),
+                                format!(
+                                    "[{section}] lai = \"phenology\" needs phenology = \"gsi\" \
+                                     or \"gsi-soil-water\" and lai_max (m2 m-2), or a preset"
+                                ),
+                            ));
+                        }
+                    };
+                    let Some(lai_max) = b.lai_max.or(from_preset("lai_max")) else {
+                        return Err(err(
+                            line_of_key(&text, &section, "lai"),
+                            format!("[{section}] lai = \"phenology\" needs lai_max (m2 m-2)"),
+                        ));
+                    };
+                    let lai_min = b.lai_min.or(from_preset("lai_min")).unwrap_or(0.0);
+                    let settings = PhenologySettings::new(kind, lai_min, lai_max).map_err(|e| {
+                        err(
+                            line_of_key(&text, &section, "lai_min")
+                                .or_else(|| line_of_key(&text, &section, "lai_max")),
+                            format!("[{section}] {e}"),
+                        )
+                    })?;
+                    (lai_max, Some(settings))
                 }
             };
             vegetation.push(Vegetation {
@@ -394,10 +619,13 @@ impl Site {
                 canopy,
                 cover: b.cover,
                 lai_m2_m2: lai,
-                leaf_width_m: b.leaf_width_m.unwrap_or(match pathway {
-                    Pathway::C3 => 0.05,
-                    Pathway::C4 => 0.01,
-                }),
+                leaf_width_m: b.leaf_width_m.or(from_preset("leaf_width_m")).unwrap_or(
+                    match pathway {
+                        Pathway::C3 => 0.05,
+                        Pathway::C4 => 0.01,
+                    },
+                ),
+                phenology,
             });
         }
         if vegetation.is_empty() {
@@ -411,12 +639,12 @@ impl Site {
             .vegetation
             .c3
             .as_ref()
-            .is_some_and(|b| matches!(b.lai, ValueOrForcing::Forcing(_)))
+            .is_some_and(|b| b.lai == Some(LaiSetting::Forcing))
             != file
                 .vegetation
                 .c4
                 .as_ref()
-                .is_some_and(|b| matches!(b.lai, ValueOrForcing::Forcing(_)))
+                .is_some_and(|b| b.lai == Some(LaiSetting::Forcing))
             && file.vegetation.c3.is_some()
             && file.vegetation.c4.is_some()
         {

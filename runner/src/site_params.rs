@@ -6,6 +6,7 @@
 use isodisc_model::canopy::solar::Location;
 use isodisc_model::error::closest_name;
 use isodisc_model::leaf::Pathway;
+use isodisc_model::phenology::PhenologySettings;
 use isodisc_model::pools::network::{DAYS_PER_YEAR, DEFAULT_CUE};
 use isodisc_model::pools::{PoolNetwork, PoolsConfig};
 use isodisc_model::site::SiteModel;
@@ -59,7 +60,27 @@ impl Site {
                 "lai" if self.lai_from_forcing => {
                     return Err(fail(&"LAI comes from the weather file at this site"));
                 }
+                "lai" if veg.phenology.is_some() => {
+                    return Err(fail(
+                        &"LAI follows the phenology at this site: set lai_min or lai_max",
+                    ));
+                }
                 "lai" => veg.lai_m2_m2 = value,
+                "lai_min" | "lai_max" => {
+                    let Some(p) = veg.phenology else {
+                        return Err(fail(
+                            &"lai_min and lai_max apply only with lai = \"phenology\"",
+                        ));
+                    };
+                    let (lo, hi) = if name == "lai_min" {
+                        (value, p.lai_max_m2_m2())
+                    } else {
+                        (p.lai_min_m2_m2(), value)
+                    };
+                    veg.phenology =
+                        Some(PhenologySettings::new(p.kind(), lo, hi).map_err(|e| fail(&e))?);
+                    veg.lai_m2_m2 = hi;
+                }
                 _ => veg.leaf.set(name, value).map_err(|e| fail(&e))?,
             }
             self.settings = SiteModel::new(settings)
@@ -102,8 +123,8 @@ impl Site {
                     .unwrap_or_default();
                 return Err(Error::msg(format!(
                     "unknown parameter `{path}`{hint}; known: site.latitude, site.longitude, \
-                     atmosphere.co2, atmosphere.d13c_co2, vegetation.<c3|c4>.<cover|lai|leaf \
-                     parameter>, pools.<path>"
+                     atmosphere.co2, atmosphere.d13c_co2, vegetation.<c3|c4>.<cover|lai|lai_min|\
+                     lai_max|leaf parameter>, pools.<path>"
                 )));
             }
         }
@@ -150,8 +171,10 @@ impl Site {
                 .find(|v| v.pathway().as_str() == pathway)?;
             return match name {
                 "cover" => Some(veg.cover),
-                "lai" if self.lai_from_forcing => None,
+                "lai" if self.lai_from_forcing || veg.phenology.is_some() => None,
                 "lai" => Some(veg.lai_m2_m2),
+                "lai_min" => veg.phenology.map(|p| p.lai_min_m2_m2()),
+                "lai_max" => veg.phenology.map(|p| p.lai_max_m2_m2()),
                 _ => veg.leaf.get(name),
             };
         }

@@ -3,7 +3,7 @@
 //! ```toml
 //! [pools]
 //! method = "exact"                # or "dopri5" (then rtol, atol apply)
-//! temperature_response = "q10"    # or "lloyd_taylor"
+//! temperature_response = "q10"    # or "lloyd-taylor"
 //! q10 = 2.0
 //! t_ref_c = 10.0
 //! moisture_min = 0.1
@@ -49,7 +49,9 @@ pub enum TemperatureResponseName {
     /// Q10 with `q10` and `t_ref_c` (default).
     #[default]
     Q10,
-    /// Lloyd & Taylor (1994) normalised at `t_ref_c`.
+    /// Lloyd & Taylor (1994) normalised at `t_ref_c`: `"lloyd-taylor"` (the older
+    /// `"lloyd_taylor"` is still read).
+    #[serde(rename = "lloyd-taylor", alias = "lloyd_taylor")]
     LloydTaylor,
 }
 

@@ -50,7 +50,8 @@ impl PriestleyTaylor {
         soil_heat_flux_w_m2: Option<f64>,
         step_s: f64,
     ) -> Result<f64> {
-        let t = check_input("t_air_c", t_air_c, -60.0, 60.0)?;
+        // Down to below the lowest air temperature measured on Earth (−89.2 °C, Vostok 1983).
+        let t = check_input("t_air_c", t_air_c, -90.0, 60.0)?;
         let p = check_input("pressure_kpa", pressure_kpa, 30.0, 110.0)?;
         let rn = check_input("net_radiation_w_m2", net_radiation_w_m2, -500.0, 1500.0)?;
         let g = match soil_heat_flux_w_m2 {

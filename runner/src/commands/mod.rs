@@ -8,6 +8,7 @@ pub mod keeling;
 pub mod leaf;
 pub mod merge;
 pub mod plot;
+pub mod presets;
 pub mod run;
 
 use crate::cli::PeriodArgs;

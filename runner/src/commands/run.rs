@@ -35,6 +35,11 @@ pub const STEP_COLUMNS: &[(&str, &str, &str)] = &[
     ("lai_c4", "m2 m-2", "LAI of the C4 canopy where it grows"),
     ("beta", "-", "soil-water factor (1 = no stress)"),
     (
+        "cold_factor",
+        "-",
+        "cold rule's factor on photosynthetic capacity (0: frost or frozen soil)",
+    ),
+    (
         "gpp",
         "umol m-2 s-1",
         "gross primary production per m2 of site ground",
@@ -237,13 +242,34 @@ impl RunPlan {
                     .pathway()
                     .specs()
                     .iter()
-                    .map(|s| (s.name.to_string(), json_num(v.leaf.get(s.name).unwrap_or(f64::NAN))))
+                    .map(|s| {
+                        (
+                            s.name.to_string(),
+                            json_num(v.leaf.get(s.name).unwrap_or(f64::NAN)),
+                        )
+                    })
                     .collect();
                 (
                     v.pathway().as_str().to_string(),
                     serde_json::json!({
                         "cover": v.cover,
-                        "lai": if site.lai_from_forcing { "forcing".into() } else { json_num(v.lai_m2_m2) },
+                        "lai": if site.lai_from_forcing {
+                            "forcing".into()
+                        } else if v.phenology.is_some() {
+                            "phenology".into()
+                        } else {
+                            json_num(v.lai_m2_m2)
+                        },
+                        "phenology": v.phenology.map(|p| serde_json::json!({
+                            "kind": p.kind().as_str(),
+                            "lai_min": p.lai_min_m2_m2(),
+                            "lai_max": p.lai_max_m2_m2(),
+                        })),
+                        "preset": match v.pathway() {
+                            isodisc_model::leaf::Pathway::C3 => site.file.vegetation.c3.as_ref(),
+                            isodisc_model::leaf::Pathway::C4 => site.file.vegetation.c4.as_ref(),
+                        }
+                        .and_then(|b| b.preset.clone()),
                         "kn": v.canopy.kn(),
                         "clumping": v.canopy.radiation().clumping(),
                         "leaf_width_m": v.leaf_width_m,
@@ -423,6 +449,7 @@ impl StepSink for FileSink {
             part(v.c3, |p| p.lai_m2_m2),
             part(v.c4, |p| p.lai_m2_m2),
             sv(|s| s.beta),
+            sv(|s| s.cold_factor),
             sv(|s| s.gpp_umol_m2_s),
             part(v.c3, |p| p.gpp_umol_m2_s),
             part(v.c4, |p| p.gpp_umol_m2_s),

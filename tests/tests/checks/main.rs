@@ -6,6 +6,7 @@ mod common;
 mod ensemble;
 mod isotopes_leaf;
 mod observations;
+mod phenology_cold;
 mod pools;
 mod runner_forcing;
 mod runner_leaf;

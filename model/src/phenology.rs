@@ -1,0 +1,330 @@
+//! Leaf area from the weather, and the cold rule that stops photosynthesis in frost and frozen soil.
+//!
+//! **Growing Season Index** (Jolly, Nemani & Running 2005, Global Change Biol.): each day gets
+//! iGSI = iTmin · iVPD · iPhoto, three linear ramps of the day's minimum air temperature (0 at or
+//! below −2 °C, 1 at or above 5 °C), the day's mean vapour pressure deficit (1 at or below 0.9 kPa,
+//! 0 at or above 4.1 kPa) and the photoperiod (0 at or below 10 h, 1 at or above 11 h); the GSI is
+//! the running mean of iGSI over 21 days. LAI = lai_min + (lai_max − lai_min)·GSI.
+//!
+//! - Kind `gsi`: the index as published (trees: deciduous with lai_min = 0, evergreen with
+//!   lai_min > 0).
+//! - Kind `gsi-soil-water`: the daily index is also multiplied by the day's mean soil-water factor
+//!   β (0–1), so grasses and crops lose their leaves in dry seasons as well as cold ones. Adding a
+//!   water term to the GSI is common practice for water-limited vegetation (e.g. Forkel et al.
+//!   2014, Biogeosciences, from memory); the form used here (a plain product with β) is ours.
+//! - The window holds completed days: the LAI of a day is set by the 21 days before it. At the
+//!   start of a run the window is filled with the index of the first step (its temperature standing
+//!   for the day's minimum, its VPD for the day's mean), so a run that starts in winter starts
+//!   leafless and one that starts in summer starts in leaf.
+//! - Photoperiod: sunrise to sunset with the Sun's centre at 90.833° zenith (NOAA solar equations;
+//!   see [`crate::canopy::solar`]); 24 h in polar day, 0 in polar night.
+//!
+//! **Cold rule** (per step, for every pathway): photosynthetic capacity is multiplied by
+//! f_cold = iTmin(minimum air temperature of the last 24 h), the same ramp as the GSI's
+//! (−2 °C → 0, 5 °C → 1); and photosynthesis stops (f_cold = 0) while the soil is frozen: soil
+//! temperature ≤ 0 °C, when roots can take up no water (common practice; from memory). Soil
+//! temperature is the running mean of air temperature with a 7-day time constant (common practice,
+//! from memory), started at the first step's air temperature. With f_cold = 0 the leaves are not
+//! solved at all: no assimilation, stomata closed, no transpiration. Because the last 24 h include
+//! the current step, f_cold > 0 implies an air temperature above −2 °C, so the leaf model is never
+//! asked for a temperature below its valid range, whatever the weather.
+
+use std::collections::VecDeque;
+
+use crate::error::{ModelError, Result, check_range};
+
+/// Minimum-temperature ramp of the GSI, °C: (index 0 at or below, index 1 at or above). Jolly,
+/// Nemani & Running (2005).
+pub const GSI_TMIN_C: (f64, f64) = (-2.0, 5.0);
+/// VPD ramp of the GSI, kPa: (index 1 at or below, index 0 at or above). Jolly et al. (2005).
+pub const GSI_VPD_KPA: (f64, f64) = (0.9, 4.1);
+/// Photoperiod ramp of the GSI, hours: (index 0 at or below, index 1 at or above). Jolly et al.
+/// (2005).
+pub const GSI_PHOTOPERIOD_H: (f64, f64) = (10.0, 11.0);
+/// Length of the GSI's running mean, days. Jolly et al. (2005).
+pub const GSI_WINDOW_DAYS: usize = 21;
+/// Time constant of the running mean of air temperature that stands for soil temperature, days
+/// (common practice, from memory: the soil lags and damps the air).
+pub const SOIL_TEMPERATURE_LAG_DAYS: f64 = 7.0;
+/// Soil temperature at or below which the soil is frozen and photosynthesis stops, °C.
+pub const FROZEN_SOIL_C: f64 = 0.0;
+
+/// A linear ramp: 0 at or below `lo`, 1 at or above `hi`, linear between.
+pub fn ramp(x: f64, lo: f64, hi: f64) -> f64 {
+    ((x - lo) / (hi - lo)).clamp(0.0, 1.0)
+}
+
+/// The GSI's minimum-temperature index (0–1) for a daily minimum air temperature (°C).
+pub fn index_tmin(tmin_c: f64) -> f64 {
+    ramp(tmin_c, GSI_TMIN_C.0, GSI_TMIN_C.1)
+}
+
+/// The GSI's VPD index (0–1) for a daily mean vapour pressure deficit (kPa).
+pub fn index_vpd(vpd_kpa: f64) -> f64 {
+    1.0 - ramp(vpd_kpa, GSI_VPD_KPA.0, GSI_VPD_KPA.1)
+}
+
+/// The GSI's photoperiod index (0–1) for a day length (hours).
+pub fn index_photoperiod(photoperiod_h: f64) -> f64 {
+    ramp(photoperiod_h, GSI_PHOTOPERIOD_H.0, GSI_PHOTOPERIOD_H.1)
+}
+
+/// One day's index iGSI = iTmin · iVPD · iPhoto (Jolly et al. 2005), dimensionless.
+pub fn daily_gsi(tmin_c: f64, vpd_kpa: f64, photoperiod_h: f64) -> f64 {
+    index_tmin(tmin_c) * index_vpd(vpd_kpa) * index_photoperiod(photoperiod_h)
+}
+
+/// One step of a running mean with time constant `tau_days`: the mean moves towards `x` by
+/// 1 − exp(−step/τ).
+pub fn running_mean_step(mean: f64, x: f64, step_days: f64, tau_days: f64) -> f64 {
+    mean + (1.0 - (-step_days / tau_days).exp()) * (x - mean)
+}
+
+/// Which phenology drives LAI.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum PhenologyKind {
+    /// The Growing Season Index as published: minimum temperature, VPD and photoperiod.
+    Gsi,
+    /// The index times the day's mean soil-water factor β (grasses, crops).
+    GsiSoilWater,
+}
+
+impl PhenologyKind {
+    /// Every kind, in the order of [`PhenologyKind::as_str`]'s names.
+    pub const ALL: [PhenologyKind; 2] = [PhenologyKind::Gsi, PhenologyKind::GsiSoilWater];
+
+    /// `gsi` or `gsi-soil-water`.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            PhenologyKind::Gsi => "gsi",
+            PhenologyKind::GsiSoilWater => "gsi-soil-water",
+        }
+    }
+
+    /// The kind called `name`; the error lists the names.
+    pub fn parse(name: &str) -> Result<Self> {
+        Self::ALL
+            .into_iter()
+            .find(|k| k.as_str() == name)
+            .ok_or_else(|| {
+                ModelError::InvalidConfig(format!(
+                    "phenology = \"{name}\": use \"gsi\" (minimum temperature, VPD, photoperiod) or \
+                     \"gsi-soil-water\" (also soil water; grasses and crops)"
+                ))
+            })
+    }
+}
+
+/// Phenology settings of one pathway.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PhenologySettings {
+    kind: PhenologyKind,
+    lai_min_m2_m2: f64,
+    lai_max_m2_m2: f64,
+}
+
+impl PhenologySettings {
+    /// LAI between `lai_min_m2_m2` (GSI = 0) and `lai_max_m2_m2` (GSI = 1), both in [0, 20] m² m⁻²
+    /// with min ≤ max.
+    pub fn new(kind: PhenologyKind, lai_min_m2_m2: f64, lai_max_m2_m2: f64) -> Result<Self> {
+        check_range("lai_max", lai_max_m2_m2, 0.0, 20.0)?;
+        check_range("lai_min", lai_min_m2_m2, 0.0, lai_max_m2_m2)?;
+        Ok(Self {
+            kind,
+            lai_min_m2_m2,
+            lai_max_m2_m2,
+        })
+    }
+
+    /// The kind.
+    pub fn kind(&self) -> PhenologyKind {
+        self.kind
+    }
+
+    /// LAI when the GSI is 0 (m² m⁻²).
+    pub fn lai_min_m2_m2(&self) -> f64 {
+        self.lai_min_m2_m2
+    }
+
+    /// LAI when the GSI is 1 (m² m⁻²).
+    pub fn lai_max_m2_m2(&self) -> f64 {
+        self.lai_max_m2_m2
+    }
+
+    /// LAI for a GSI in [0, 1] (m² m⁻²).
+    pub fn lai_for(&self, gsi: f64) -> f64 {
+        self.lai_min_m2_m2 + (self.lai_max_m2_m2 - self.lai_min_m2_m2) * gsi.clamp(0.0, 1.0)
+    }
+}
+
+/// The weather of one day so far.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct DaySoFar {
+    key: (i32, u32),
+    tmin_c: f64,
+    vpd_sum: f64,
+    beta_sum: f64,
+    n: usize,
+    photoperiod_h: f64,
+}
+
+/// The state of a GSI phenology: the 21-day window of daily indices and the day in progress.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Phenology {
+    settings: PhenologySettings,
+    window: VecDeque<f64>,
+    day: Option<DaySoFar>,
+}
+
+impl Phenology {
+    /// A phenology with an empty window (filled at the first step).
+    pub fn new(settings: PhenologySettings) -> Self {
+        Self {
+            settings,
+            window: VecDeque::with_capacity(GSI_WINDOW_DAYS + 1),
+            day: None,
+        }
+    }
+
+    /// The settings.
+    pub fn settings(&self) -> &PhenologySettings {
+        &self.settings
+    }
+
+    /// The current GSI (21-day mean of the daily index, 0–1); NaN before the first step.
+    pub fn gsi(&self) -> f64 {
+        if self.window.is_empty() {
+            f64::NAN
+        } else {
+            self.window.iter().sum::<f64>() / self.window.len() as f64
+        }
+    }
+
+    fn index(&self, tmin_c: f64, vpd_kpa: f64, beta: f64, photoperiod_h: f64) -> f64 {
+        let i = daily_gsi(tmin_c, vpd_kpa, photoperiod_h);
+        match self.settings.kind {
+            PhenologyKind::Gsi => i,
+            PhenologyKind::GsiSoilWater => i * beta.clamp(0.0, 1.0),
+        }
+    }
+
+    /// Takes one step's weather (day `key` = (year, day of year), air temperature °C, VPD kPa,
+    /// soil-water factor β 0–1, the day's photoperiod in hours) and returns the LAI for the step
+    /// (m² m⁻²), set by the completed days before it.
+    pub fn step(
+        &mut self,
+        key: (i32, u32),
+        t_air_c: f64,
+        vpd_kpa: f64,
+        beta: f64,
+        photoperiod_h: f64,
+    ) -> f64 {
+        if self.window.is_empty() {
+            let first = self.index(t_air_c, vpd_kpa, beta, photoperiod_h);
+            self.window
+                .extend(std::iter::repeat_n(first, GSI_WINDOW_DAYS));
+        }
+        match &mut self.day {
+            Some(d) if d.key == key => {
+                d.tmin_c = d.tmin_c.min(t_air_c);
+                d.vpd_sum += vpd_kpa;
+                d.beta_sum += beta;
+                d.n += 1;
+            }
+            _ => {
+                if let Some(d) = self.day.take() {
+                    let n = d.n as f64;
+                    let i = self.index(d.tmin_c, d.vpd_sum / n, d.beta_sum / n, d.photoperiod_h);
+                    self.window.push_back(i);
+                    while self.window.len() > GSI_WINDOW_DAYS {
+                        self.window.pop_front();
+                    }
+                }
+                self.day = Some(DaySoFar {
+                    key,
+                    tmin_c: t_air_c,
+                    vpd_sum: vpd_kpa,
+                    beta_sum: beta,
+                    n: 1,
+                    photoperiod_h,
+                });
+            }
+        }
+        self.settings.lai_for(self.gsi())
+    }
+}
+
+/// The state of the cold rule: the air temperatures of the last 24 h and the soil temperature.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct ColdState {
+    recent: VecDeque<f64>,
+    t_soil_c: Option<f64>,
+}
+
+/// What the cold rule decided for one step.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ColdStep {
+    /// Factor on photosynthetic capacity (0–1); 0 stops photosynthesis.
+    pub factor: f64,
+    /// Minimum air temperature of the last 24 h, this step included (°C).
+    pub tmin_24h_c: f64,
+    /// Soil temperature (°C): running mean of air temperature.
+    pub t_soil_c: f64,
+}
+
+impl ColdState {
+    /// Takes one step of `step_hours` hours at air temperature `t_air_c` (°C) and returns the
+    /// cold factor f_cold = iTmin(min of the last 24 h), 0 when the soil is frozen.
+    pub fn step(&mut self, t_air_c: f64, step_hours: f64) -> ColdStep {
+        let per_day = (24.0 / step_hours).round().max(1.0) as usize;
+        self.recent.push_back(t_air_c);
+        while self.recent.len() > per_day {
+            self.recent.pop_front();
+        }
+        let t_soil_c = match self.t_soil_c {
+            None => t_air_c,
+            Some(t) => running_mean_step(t, t_air_c, step_hours / 24.0, SOIL_TEMPERATURE_LAG_DAYS),
+        };
+        self.t_soil_c = Some(t_soil_c);
+        let tmin_24h_c = self.recent.iter().copied().fold(f64::INFINITY, f64::min);
+        let factor = if t_soil_c <= FROZEN_SOIL_C {
+            0.0
+        } else {
+            index_tmin(tmin_24h_c)
+        };
+        ColdStep {
+            factor,
+            tmin_24h_c,
+            t_soil_c,
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn window_fills_from_the_first_step_and_moves_daily() {
+        let s = PhenologySettings::new(PhenologyKind::Gsi, 0.0, 4.0).unwrap();
+        let mut p = Phenology::new(s);
+        // A cold first step: leafless (iTmin = 0).
+        assert_eq!(p.step((2025, 1), -5.0, 0.2, 1.0, 12.0), 0.0);
+        // Warm days after it: each completed warm day adds 1/21 of the range.
+        for day in 2..=3 {
+            p.step((2025, day), 20.0, 0.5, 1.0, 14.0);
+        }
+        let lai = p.step((2025, 4), 20.0, 0.5, 1.0, 14.0);
+        // Days 1 (cold, index 0), 2 and 3 (warm, index 1) completed: 2/21 of lai_max.
+        assert!((lai - 4.0 * 2.0 / 21.0).abs() < 1e-12, "{lai}");
+    }
+
+    #[test]
+    fn frozen_soil_stops_and_the_ramp_scales() {
+        let mut c = ColdState::default();
+        assert_eq!(c.step(-1.0, 1.0).factor, 0.0); // soil at −1 °C: frozen
+        let mut c = ColdState::default();
+        let s = c.step(1.5, 1.0); // soil 1.5 °C, minimum 1.5 °C: half way up −2…5 °C
+        assert!((s.factor - 0.5).abs() < 1e-12);
+    }
+}

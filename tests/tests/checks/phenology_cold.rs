@@ -1,0 +1,499 @@
+//! Vegetation presets, the Growing Season Index phenology and the cold rule: the GSI's ramps against
+//! hand values from the definition of Jolly, Nemani & Running (2005), synthetic sites (a temperate
+//! deciduous forest, a boreal conifer stand, a tropical grassland with a dry season) run end to end,
+//! and the site file's presets, `lai` values, `inf` and spellings.
+
+use std::f64::consts::PI;
+use std::fmt::Write as _;
+use std::fs;
+use std::path::{Path, PathBuf};
+
+use isodisc_model::phenology::{daily_gsi, index_photoperiod, index_tmin, index_vpd};
+use isodisc_model::presets::PRESETS;
+use isodisc_runner::site::Site;
+
+use crate::common::run;
+
+/// Tolerance of the hand values (exact ramps: round-off only).
+const TOL: f64 = 1e-12;
+
+#[test]
+fn gsi_ramps_match_hand_values_from_the_definition() {
+    // Jolly, Nemani & Running 2005, Global Change Biol.: iTmin 0 at ≤ −2 °C, 1 at ≥ 5 °C; iVPD 1 at
+    // ≤ 0.9 kPa, 0 at ≥ 4.1 kPa; iPhoto 0 at ≤ 10 h, 1 at ≥ 11 h; linear between; iGSI = product.
+    // Hand values: (x − lo)/(hi − lo), e.g. (1.5 + 2)/7 = 0.5 and 1 − (2.5 − 0.9)/3.2 = 0.5.
+    let table: &[(&str, f64, f64)] = &[
+        ("tmin", -10.0, 0.0),
+        ("tmin", -2.0, 0.0),
+        ("tmin", 1.5, 0.5),
+        ("tmin", 3.25, 0.75),
+        ("tmin", 5.0, 1.0),
+        ("tmin", 30.0, 1.0),
+        ("vpd", 0.2, 1.0),
+        ("vpd", 0.9, 1.0),
+        ("vpd", 2.5, 0.5),
+        ("vpd", 3.3, 0.25),
+        ("vpd", 4.1, 0.0),
+        ("vpd", 6.0, 0.0),
+        ("photo", 8.0, 0.0),
+        ("photo", 10.0, 0.0),
+        ("photo", 10.25, 0.25),
+        ("photo", 11.0, 1.0),
+        ("photo", 16.0, 1.0),
+    ];
+    for &(which, x, expected) in table {
+        let got = match which {
+            "tmin" => index_tmin(x),
+            "vpd" => index_vpd(x),
+            _ => index_photoperiod(x),
+        };
+        assert!((got - expected).abs() < TOL, "{which}({x}) = {got}");
+    }
+    // Product of the three: 0.5 · 0.5 · 0.25 (hand value).
+    assert!((daily_gsi(1.5, 2.5, 10.25) - 0.0625).abs() < TOL);
+}
+
+/// One year of hourly weather (2025) from a seasonal mean temperature `t_mean + amp·season` with a
+/// diurnal swing of ±`diurnal` °C, VPD from the temperature (humid air, rising by day), PPFD from
+/// a sine day, and rain from `rain(day)` mm at 15:00. `season` is −1 in mid-January, +1 in
+/// mid-July. `cold_hours` (hour of the year, °C) replace the temperature of those hours.
+fn year_of_weather(
+    t_mean: f64,
+    amp: f64,
+    diurnal: f64,
+    vpd_scale: impl Fn(u32) -> f64,
+    rain: impl Fn(u32) -> f64,
+    cold_hours: &[(usize, f64)],
+) -> String {
+    let mut w = String::from("time,t,vpd,ppfd,p\n");
+    let mut h = 0usize;
+    for doy in 1..=365u32 {
+        let (month, day) = month_day(doy);
+        let season = -(2.0 * PI * (f64::from(doy) - 15.0) / 365.0).cos();
+        for hour in 0..24u32 {
+            let day_sine = (PI * (f64::from(hour) - 6.0) / 12.0).sin();
+            let mut t = t_mean + amp * season + diurnal * day_sine;
+            if let Some(&(_, tc)) = cold_hours.iter().find(|(i, _)| *i == h) {
+                t = tc;
+            }
+            let vpd = (vpd_scale(doy) * (0.3 + 0.5 * day_sine.max(0.0)) * (t.max(-20.0) + 25.0)
+                / 45.0)
+                .max(0.05);
+            let ppfd = (1800.0 * (0.75 + 0.25 * season) * day_sine).max(0.0);
+            let p = if hour == 15 { rain(doy) } else { 0.0 };
+            writeln!(
+                w,
+                "2025-{month:02}-{day:02}T{hour:02}:00,{t:.3},{vpd:.4},{ppfd:.2},{p}"
+            )
+            .unwrap();
+            h += 1;
+        }
+    }
+    w
+}
+
+/// Month and day of a day of 2025 (not a leap year).
+fn month_day(doy: u32) -> (u32, u32) {
+    let lengths = [31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31];
+    let mut d = doy;
+    for (m, len) in lengths.iter().enumerate() {
+        if d <= *len {
+            return (m as u32 + 1, d);
+        }
+        d -= len;
+    }
+    unreachable!("day {doy} of 2025")
+}
+
+/// A site file with one vegetation block `veg` (its text, under `[vegetation.c3]` or `.c4`).
+fn site_text(latitude: f64, veg: &str) -> String {
+    format!(
+        r#"[site]
+name = "synthetic"
+latitude = {latitude}
+longitude = 0.0
+elevation_m = 0
+utc_offset_h = 0
+
+{veg}
+
+[soil]
+field_capacity = 0.3
+wilting_point = 0.1
+root_depth_m = 1.0
+initial_water = 1.0
+
+[atmosphere]
+co2 = 420.0
+d13c_co2 = -8.5
+
+[forcing]
+path = "weather.csv"
+step_minutes = 60
+
+[forcing.columns]
+t_air = "t"
+vpd = "vpd"
+ppfd = "ppfd"
+precip = "p"
+"#
+    )
+}
+
+/// Writes the site and weather into a fresh folder and runs it; returns the folder and the results.
+fn run_site(site: &str, weather: &str) -> (tempfile::TempDir, PathBuf) {
+    let dir = tempfile::tempdir().unwrap();
+    fs::write(dir.path().join("site.toml"), site).unwrap();
+    fs::write(dir.path().join("weather.csv"), weather).unwrap();
+    let out = dir.path().join("out");
+    run(&[
+        "run",
+        dir.path().join("site.toml").to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+    ])
+    .unwrap();
+    (dir, out)
+}
+
+/// A column of a results CSV as numbers (NaN for empty cells), with the first column as labels.
+fn column(path: &Path, name: &str) -> (Vec<String>, Vec<f64>) {
+    let mut r = csv::Reader::from_path(path).unwrap();
+    let i = r
+        .headers()
+        .unwrap()
+        .iter()
+        .position(|h| h == name)
+        .unwrap_or_else(|| panic!("no column {name} in {}", path.display()));
+    r.records()
+        .map(|rec| {
+            let rec = rec.unwrap();
+            (rec[0].to_string(), rec[i].parse().unwrap_or(f64::NAN))
+        })
+        .unzip()
+}
+
+#[test]
+fn deciduous_preset_is_leafless_in_a_cold_winter_and_in_full_leaf_in_summer() {
+    // Temperate site at 45° N: January means near −5 °C, July near 21 °C. The GSI (Jolly et al.
+    // 2005) is 0 through a winter of frost and short days and 1 in a mild, humid summer, so LAI goes
+    // from lai_min = 0 to lai_max (5.1 m2 m-2, the preset's value) — common knowledge of temperate
+    // deciduous forest.
+    let site = site_text(
+        45.0,
+        "[vegetation.c3]\npreset = \"deciduous-broadleaf\"\ncover = 1.0",
+    );
+    let weather = year_of_weather(
+        8.0,
+        13.0,
+        5.0,
+        |_| 1.0,
+        |d| if d % 4 == 0 { 8.0 } else { 0.0 },
+        &[],
+    );
+    let (_dir, out) = run_site(&site, &weather);
+    let (time, lai) = column(&out.join("steps.csv"), "lai_c3");
+    let at = |stamp: &str| lai[time.iter().position(|t| t.starts_with(stamp)).unwrap()];
+    assert_eq!(at("2025-01-20T12"), 0.0, "leafless in January");
+    assert_eq!(at("2025-02-10T12"), 0.0, "leafless in February");
+    assert!(
+        (at("2025-07-20T12") - 5.1).abs() < 0.05,
+        "{}",
+        at("2025-07-20T12")
+    );
+    // And no GPP while leafless.
+    let (_, gpp) = column(&out.join("steps.csv"), "gpp");
+    let jan: f64 = gpp[..31 * 24].iter().sum();
+    assert_eq!(jan, 0.0);
+}
+
+#[test]
+fn an_hour_at_minus_45_runs_and_fixes_nothing() {
+    // The weather may hold any air temperature (−70 to 60 °C); the leaf's −30 °C floor is not applied
+    // to it. The cold rule (Jolly et al. 2005 minimum-temperature ramp; frozen soil stops water
+    // uptake, common practice) gives no photosynthesis at −45 °C. A constant-LAI evergreen canopy
+    // (no phenology) so that only the cold rule can stop it; the cold hours fall at noon in
+    // January and July.
+    let jan_noon = 14 * 24 + 12;
+    let jul_noon = 195 * 24 + 12;
+    let weather = year_of_weather(
+        8.0,
+        13.0,
+        5.0,
+        |_| 1.0,
+        |d| if d % 4 == 0 { 8.0 } else { 0.0 },
+        &[(jan_noon, -45.0), (jul_noon, -45.0), (jul_noon + 1, -70.0)],
+    );
+    let site = site_text(45.0, "[vegetation.c3]\ncover = 1.0\nlai = 3.0");
+    let (_dir, out) = run_site(&site, &weather);
+    let (_, gpp) = column(&out.join("steps.csv"), "gpp");
+    let (_, t) = column(&out.join("steps.csv"), "t_air");
+    for i in [jan_noon, jul_noon, jul_noon + 1] {
+        assert!(t[i] <= -45.0, "hour {i} is the cold one: {}", t[i]);
+        assert_eq!(gpp[i], 0.0, "hour {i} at {} °C", t[i]);
+    }
+    // The same July hour a day earlier fixes carbon: the check can fail.
+    assert!(gpp[jul_noon - 24] > 1.0, "{}", gpp[jul_noon - 24]);
+    // The frost holds photosynthesis back for the next 24 h (the ramp is on the 24-h minimum).
+    assert_eq!(gpp[jul_noon + 20], 0.0);
+}
+
+#[test]
+fn cold_months_carry_under_2_percent_of_annual_gpp() {
+    // Issue check (validation against published relationships): at a cold site, months with mean
+    // air temperature below 0 °C carry < 2% of annual GPP. Boreal conifers keep their needles but
+    // do not photosynthesise in frozen winters (common knowledge of boreal forest; Jolly et al.
+    // 2005's minimum-temperature ramp, frozen soil). Synthetic site at 62° N: annual mean −1 °C,
+    // amplitude 18 °C, so five months are below 0 °C.
+    let site = site_text(
+        62.0,
+        "[vegetation.c3]\npreset = \"evergreen-needleleaf\"\ncover = 1.0",
+    );
+    let weather = year_of_weather(
+        -1.0,
+        18.0,
+        4.0,
+        |_| 0.8,
+        |d| if d % 3 == 0 { 5.0 } else { 0.0 },
+        &[],
+    );
+    let (_dir, out) = run_site(&site, &weather);
+    let (_, gpp) = column(&out.join("monthly.csv"), "gpp");
+    let (_, t) = column(&out.join("monthly.csv"), "t_air");
+    let total: f64 = gpp.iter().sum();
+    let cold: f64 = gpp
+        .iter()
+        .zip(&t)
+        .filter(|(_, t)| **t < 0.0)
+        .map(|(g, _)| g)
+        .sum();
+    let n_cold = t.iter().filter(|t| **t < 0.0).count();
+    assert!(n_cold >= 4, "{n_cold} cold months: {t:?}");
+    assert!(total > 100.0, "annual GPP {total}");
+    assert!(cold < 0.02 * total, "cold months {cold} of {total} gC m-2");
+}
+
+#[test]
+fn c4_grass_preset_is_dormant_in_the_dry_season() {
+    // A C4 grass goes dormant in the dry season (common knowledge of tropical grasslands): at 12° N
+    // with rain only from June to September and a dry, high-VPD rest of the year, the preset's
+    // phenology (GSI times soil water) keeps LAI near 0 in the late dry season and near lai_max
+    // (2.5 m2 m-2) in the wet season.
+    let site = site_text(12.0, "[vegetation.c4]\npreset = \"c4-grass\"\ncover = 1.0");
+    let wet = |d: u32| (152..=273).contains(&d);
+    let weather = year_of_weather(
+        26.0,
+        2.0,
+        6.0,
+        |d| if wet(d) { 0.6 } else { 3.5 },
+        |d| if wet(d) && d % 2 == 0 { 15.0 } else { 0.0 },
+        &[],
+    );
+    let (_dir, out) = run_site(&site, &weather);
+    let (time, lai) = column(&out.join("steps.csv"), "lai_c4");
+    let at = |stamp: &str| lai[time.iter().position(|t| t.starts_with(stamp)).unwrap()];
+    assert!(
+        at("2025-04-15T12") < 0.1,
+        "dry season LAI {}",
+        at("2025-04-15T12")
+    );
+    assert!(
+        at("2025-08-20T12") > 2.0,
+        "wet season LAI {}",
+        at("2025-08-20T12")
+    );
+}
+
+/// Writes a site file into a fresh folder (no weather needed to load it) and loads it.
+fn load(site: &str) -> (tempfile::TempDir, Result<Site, String>) {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("site.toml");
+    fs::write(&path, site).unwrap();
+    let r = Site::load(&path).map_err(|e| e.chain());
+    (dir, r)
+}
+
+#[test]
+fn keys_and_params_override_the_preset() {
+    // Precedence (common practice for layered settings): leaf defaults < preset < the block's keys
+    // and params. The preset's values are those `isodisc presets` lists.
+    let (_d, site) = load(&site_text(
+        45.0,
+        "[vegetation.c3]\npreset = \"deciduous-broadleaf\"\ncover = 1.0\nkn = 0.4\n\
+         params = { vcmax25 = 70.0 }",
+    ));
+    let site = site.unwrap();
+    let v = &site.settings.vegetation[0];
+    assert_eq!(v.leaf.get("vcmax25"), Some(70.0), "params override");
+    assert_eq!(v.leaf.get("jmax25"), Some(96.4), "preset value kept");
+    assert_eq!(v.leaf.get("g1"), Some(4.45));
+    assert_eq!(v.canopy.kn(), 0.4, "key overrides");
+    assert_eq!(v.canopy.radiation().clumping(), 0.7);
+    assert_eq!(v.leaf_width_m, 0.05);
+    let p = v
+        .phenology
+        .expect("a preset defaults to lai = \"phenology\"");
+    assert_eq!((p.lai_min_m2_m2(), p.lai_max_m2_m2()), (0.0, 5.1));
+    // lai = a number overrides the phenology; lai_max overrides the preset's range.
+    let (_d, site) = load(&site_text(
+        45.0,
+        "[vegetation.c3]\npreset = \"deciduous-broadleaf\"\ncover = 1.0\nlai = 2.5",
+    ));
+    let site = site.unwrap();
+    assert!(site.settings.vegetation[0].phenology.is_none());
+    assert_eq!(site.settings.vegetation[0].lai_m2_m2, 2.5);
+    let (_d, site) = load(&site_text(
+        45.0,
+        "[vegetation.c3]\npreset = \"evergreen-needleleaf\"\ncover = 1.0\nlai_max = 6.0",
+    ));
+    let mut site = site.unwrap();
+    let p = site.settings.vegetation[0].phenology.unwrap();
+    assert_eq!((p.lai_min_m2_m2(), p.lai_max_m2_m2()), (3.0, 6.0));
+    // Ensembles and batches set the range by its dotted path; a constant LAI is refused there.
+    site.set_param("vegetation.c3.lai_max", 7.0).unwrap();
+    assert_eq!(site.param_value("vegetation.c3.lai_max"), Some(7.0));
+    assert_eq!(site.param_value("vegetation.c3.lai"), None);
+    assert!(site.set_param("vegetation.c3.lai", 2.0).is_err());
+    let e = site
+        .set_param("vegetation.c3.lai_min", 8.0)
+        .unwrap_err()
+        .chain();
+    assert!(e.contains("lai_min"), "{e}");
+}
+
+#[test]
+fn preset_errors_suggest_the_closest_name_and_the_right_block() {
+    // Unknown names suggest the closest known one (edit distance; common practice).
+    let (_d, r) = load(&site_text(
+        45.0,
+        "[vegetation.c3]\npreset = \"decidous-broadleaf\"\ncover = 1.0",
+    ));
+    let e = r.unwrap_err();
+    assert!(
+        e.contains("did you mean \"deciduous-broadleaf\"") && e.contains("line 9"),
+        "{e}"
+    );
+    // A C4 preset in a C3 block names the key and the block it belongs in.
+    let (_d, r) = load(&site_text(
+        45.0,
+        "[vegetation.c3]\npreset = \"c4-grass\"\ncover = 1.0",
+    ));
+    let e = r.unwrap_err();
+    assert!(
+        e.contains("preset") && e.contains("[vegetation.c4]") && e.contains("line 9"),
+        "{e}"
+    );
+    // A wrong lai value says what the key takes.
+    let (_d, r) = load(&site_text(
+        45.0,
+        "[vegetation.c3]\ncover = 1.0\nlai = \"phenolgy\"",
+    ));
+    let e = r.unwrap_err();
+    assert!(
+        e.contains("\"forcing\"") && e.contains("\"phenology\"") && e.contains("number"),
+        "{e}"
+    );
+    assert!(!e.contains("untagged"), "{e}");
+    // lai = "phenology" without a preset needs its range and kind.
+    let (_d, r) = load(&site_text(
+        45.0,
+        "[vegetation.c3]\ncover = 1.0\nlai = \"phenology\"",
+    ));
+    let e = r.unwrap_err();
+    assert!(e.contains("lai_max") && e.contains("gsi"), "{e}");
+    // And with them it loads.
+    let (_d, r) = load(&site_text(
+        45.0,
+        "[vegetation.c3]\ncover = 1.0\nlai = \"phenology\"\nphenology = \"gsi\"\nlai_max = 4.0",
+    ));
+    assert!(r.is_ok(), "{r:?}");
+}
+
+#[test]
+fn every_preset_lists_its_values_units_and_sources() {
+    // The issue names eight presets; each sets capacity, g1, leaf width, clumping, kn and the LAI
+    // range, with a unit and a source for every value.
+    let names = [
+        "deciduous-broadleaf",
+        "evergreen-needleleaf",
+        "evergreen-broadleaf-tropical",
+        "c3-grass",
+        "c4-grass",
+        "tundra-shrub",
+        "c3-crop",
+        "c4-crop",
+    ];
+    for name in names {
+        let p = PRESETS.iter().find(|p| p.name == name).expect(name);
+        let capacity = if p.pathway.as_str() == "c3" {
+            "vcmax25"
+        } else {
+            "vmax25"
+        };
+        for key in [
+            capacity,
+            "g1",
+            "leaf_width_m",
+            "clumping",
+            "kn",
+            "lai_min",
+            "lai_max",
+        ] {
+            let v = p.values.iter().find(|v| v.key == key);
+            let v = v.unwrap_or_else(|| panic!("{name} sets no {key}"));
+            assert!(!v.unit.is_empty() && !v.source.is_empty(), "{name} {key}");
+        }
+        let (_d, site) = load(&site_text(
+            0.0,
+            &format!(
+                "[vegetation.{}]\npreset = \"{name}\"\ncover = 1.0",
+                p.pathway.as_str()
+            ),
+        ));
+        assert!(site.is_ok(), "{name}: {site:?}");
+    }
+    assert_eq!(PRESETS.len(), names.len());
+    // `isodisc presets --format csv` writes them (a run of the command; the table is the model's).
+    run(&["presets", "--format", "csv"]).unwrap();
+    let e = run(&["presets", "tundra-shrubs"]).unwrap_err();
+    assert!(e.contains("did you mean \"tundra-shrub\""), "{e}");
+}
+
+#[test]
+fn inf_and_the_lloyd_taylor_spelling_are_accepted() {
+    // The README: conductances and tpu25 take inf (no limit); TOML has inf floats, and the string
+    // "inf" is accepted too. temperature_response is spelt "lloyd-taylor" (README); the older
+    // "lloyd_taylor" is still read.
+    for value in ["inf", "\"inf\""] {
+        let (_d, site) = load(&site_text(
+            45.0,
+            &format!(
+                "[vegetation.c3]\ncover = 1.0\nlai = 3.0\nparams = {{ gm = {value}, tpu25 = {value} }}"
+            ),
+        ));
+        let site = site.unwrap();
+        assert_eq!(
+            site.settings.vegetation[0].leaf.get("gm"),
+            Some(f64::INFINITY)
+        );
+        assert_eq!(
+            site.settings.vegetation[0].leaf.get("tpu25"),
+            Some(f64::INFINITY)
+        );
+    }
+    // inf is refused where the range is finite, with the parameter's name.
+    let (_d, r) = load(&site_text(
+        45.0,
+        "[vegetation.c3]\ncover = 1.0\nlai = 3.0\nparams = { g1 = inf }",
+    ));
+    assert!(r.unwrap_err().contains("g1"));
+    run(&["leaf", "--set", "gm=inf", "--format", "json"]).unwrap();
+    for spelling in ["lloyd-taylor", "lloyd_taylor"] {
+        let (_d, site) = load(&format!(
+            "{}\n[pools]\ntemperature_response = \"{spelling}\"\n",
+            site_text(45.0, "[vegetation.c3]\ncover = 1.0\nlai = 3.0")
+        ));
+        assert!(site.is_ok(), "{spelling}: {site:?}");
+    }
+}
