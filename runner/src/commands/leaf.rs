@@ -9,10 +9,13 @@ use isodisc_model::ModelError;
 use isodisc_model::error::closest_name;
 use isodisc_model::leaf::{
     BetaTarget, C3Form, ElectronLimit, LeafConditions, LeafModel, LeafOptions, LeafState, Pathway,
+    TemperatureSet,
 };
 use isodisc_model::water::vpd_from_rh_kpa;
 
-use crate::cli::{BetaTargetArg, ElectronArg, FormArg, Format, LeafArgs, PathwayArg};
+use crate::cli::{
+    BetaTargetArg, ElectronArg, FormArg, Format, LeafArgs, PathwayArg, TemperatureSetArg,
+};
 use crate::error::{Context, Error, Result};
 use crate::output::{AtomicFile, fmt_num, json_num};
 
@@ -70,6 +73,8 @@ impl LeafPlan {
             o2_mmol_mol: args.o2,
             d13c_air_permil: args.d13c_air,
             soil_beta: args.soil_beta,
+            t_growth_c: args.t_growth,
+            d13c_substrate_permil: args.d13c_substrate,
         };
         if let Some(rh) = args.rh {
             check_flag("rh", rh, RH_RANGE.0, RH_RANGE.1, "%")?;
@@ -83,6 +88,9 @@ impl LeafPlan {
         };
         for ((name, unit, min, max), v) in LeafConditions::RANGES.iter().zip(values(&with_vpd)) {
             check_flag(name, v, *min, *max, unit)?;
+        }
+        if let Some(d) = args.d13c_substrate {
+            check_flag("d13c_substrate", d, -100.0, 50.0, "permil")?;
         }
         Ok(Self {
             model,
@@ -99,6 +107,10 @@ impl LeafPlan {
                 c3_form: match args.discrimination {
                     FormArg::Simple => C3Form::Simple,
                     FormArg::Comprehensive => C3Form::Comprehensive,
+                },
+                temperature_set: match args.temperature_set {
+                    TemperatureSetArg::Acclimated => TemperatureSet::Acclimated,
+                    TemperatureSetArg::Fixed => TemperatureSet::Fixed,
                 },
             },
             base,
@@ -219,7 +231,7 @@ impl LeafPlan {
                     .iter()
                     .map(|(_, n)| model.get(n).unwrap_or(f64::NAN)),
             );
-            let mut c = from_values(vals);
+            let mut c = from_values(vals, self.base.d13c_substrate_permil);
             if let Some(rh) = rh {
                 c.vpd_kpa = vpd_from_rh_kpa(c.t_leaf_c, rh);
             }
@@ -244,7 +256,8 @@ impl LeafPlan {
     }
 }
 
-fn values(c: &LeafConditions) -> [f64; 8] {
+/// The conditions in the order of `LeafConditions::RANGES`.
+fn values(c: &LeafConditions) -> [f64; 9] {
     [
         c.t_leaf_c,
         c.ppfd_umol_m2_s,
@@ -254,10 +267,11 @@ fn values(c: &LeafConditions) -> [f64; 8] {
         c.o2_mmol_mol,
         c.d13c_air_permil,
         c.soil_beta,
+        c.t_growth_c,
     ]
 }
 
-fn from_values(v: [f64; 8]) -> LeafConditions {
+fn from_values(v: [f64; 9], d13c_substrate_permil: Option<f64>) -> LeafConditions {
     LeafConditions {
         t_leaf_c: v[0],
         ppfd_umol_m2_s: v[1],
@@ -267,6 +281,8 @@ fn from_values(v: [f64; 8]) -> LeafConditions {
         o2_mmol_mol: v[5],
         d13c_air_permil: v[6],
         soil_beta: v[7],
+        t_growth_c: v[8],
+        d13c_substrate_permil,
     }
 }
 

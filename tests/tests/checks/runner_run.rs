@@ -99,6 +99,9 @@ fn canopy_discrimination_equals_the_leaf_at_the_same_conditions() {
     let weather =
         "time,t,vpd,ppfd,p\n2025-03-21T11:00,25,1.5,1500,0\n2025-03-21T12:00,25,1.5,1500,0\n";
     let site = write_site(dir.path(), 1.0, 0.01, None, weather);
+    // An infinite mesophyll conductance keeps cc = ci, so Δ does not depend on each leaf's light.
+    let text = fs::read_to_string(&site).unwrap();
+    fs::write(&site, text.replace("g1 = 4.0 }", "g1 = 4.0, gm = inf }")).unwrap();
     let out = dir.path().join("out");
     run(&[
         "run",
@@ -110,7 +113,7 @@ fn canopy_discrimination_equals_the_leaf_at_the_same_conditions() {
     .unwrap();
     let steps = Table::read(&out.join("steps.csv"));
     let leaf = solve_c3(
-        &C3Params::with_overrides([("g0", 0.0), ("g1", 4.0)]).unwrap(),
+        &C3Params::with_overrides([("g0", 0.0), ("g1", 4.0), ("gm", f64::INFINITY)]).unwrap(),
         &LeafOptions::default(),
         &LeafConditions {
             t_leaf_c: 25.0,
