@@ -418,6 +418,15 @@ impl LeafModel {
         }
     }
 
+    /// A parameter's value in use under `options` and growth temperature `t_growth_c` (°C): the
+    /// set value or its resolved "auto" default (see [`C3Params::in_use`]).
+    pub fn in_use(&self, name: &str, options: &LeafOptions, t_growth_c: f64) -> Option<f64> {
+        match self {
+            LeafModel::C3(p) => p.in_use(name, options, t_growth_c),
+            LeafModel::C4(p) => p.get(name),
+        }
+    }
+
     /// A parameter by name.
     pub fn get(&self, name: &str) -> Option<f64> {
         match self {

@@ -2,7 +2,7 @@
 //! and source. The same names serve `isodisc leaf --set NAME=VALUE`, the site file's vegetation
 //! blocks and ensemble specs.
 
-use super::TemperatureSet;
+use super::{C3Form, LeafOptions, TemperatureSet};
 use crate::error::{ModelError, Result, check_range, closest_name};
 use crate::temperature::{
     KK07_HA_JMAX_J_MOL, KK07_HA_VCMAX_J_MOL, kattge_knorr_ds_jmax, kattge_knorr_ds_vcmax,
@@ -316,6 +316,30 @@ impl C3Params {
             TemperatureSet::Fixed => 1.67,
         };
         or_auto(self.jmax25, ratio * self.vcmax25)
+    }
+
+    /// The value of parameter `name` in use under these leaf options and growth temperature (°C):
+    /// the set value, or its "auto" default resolved. None for an unknown name.
+    pub fn in_use(&self, name: &str, options: &LeafOptions, t_growth_c: f64) -> Option<f64> {
+        let set = options.temperature_set;
+        let k = self.kinetics_25();
+        let v = self.vcmax_response(set, t_growth_c);
+        let j = self.jmax_response(set, t_growth_c);
+        Some(match name {
+            "jmax25" => self.jmax25_for(set, t_growth_c),
+            "kc25" => k.kc25,
+            "ko25" => k.ko25,
+            "gamma_star25" => k.gamma_star25,
+            "ea_kc" => k.ea_kc,
+            "ea_ko" => k.ea_ko,
+            "ea_gamma_star" => k.ea_gamma_star,
+            "ha_vcmax" => v.ha_j_mol,
+            "ds_vcmax" => v.ds_j_mol_k,
+            "ha_jmax" => j.ha_j_mol,
+            "ds_jmax" => j.ds_j_mol_k,
+            "b" => self.b_for(options.c3_form == C3Form::Comprehensive),
+            other => self.get(other)?,
+        })
     }
 
     /// Carboxylation fractionation b (‰) for the given discrimination form: the set value, or the

@@ -142,7 +142,13 @@ impl LeafPlan {
 
     fn write_to(&self, w: &mut dyn Write) -> Result<()> {
         if self.list_params {
-            return write_params(self.model.pathway(), self.format, w);
+            return write_params(
+                &self.model,
+                &self.options,
+                self.base.t_growth_c,
+                self.format,
+                w,
+            );
         }
         match &self.input {
             Some(path) => self.run_file(path, w),
@@ -526,29 +532,43 @@ impl RowWriter {
     }
 }
 
-fn write_params(pathway: Pathway, format: Format, w: &mut dyn Write) -> Result<()> {
+/// Every parameter with its default (`auto` where a setting chooses it), the value in use under
+/// the given flags and `--set`s, unit, range, description and source.
+fn write_params(
+    model: &LeafModel,
+    options: &LeafOptions,
+    t_growth_c: f64,
+    format: Format,
+    w: &mut dyn Write,
+) -> Result<()> {
+    let pathway = model.pathway();
     let specs = pathway.specs();
     let show = |v: f64| -> String {
         if v.is_nan() {
             "auto".into()
+        } else if v.is_finite() {
+            // Nine decimals drop the binary noise of products such as 1.715 × 60.
+            ((v * 1e9).round() / 1e9).to_string()
         } else {
             v.to_string()
         }
     };
+    let in_use = |name: &str| model.in_use(name, options, t_growth_c).unwrap_or(f64::NAN);
     match format {
         Format::Table => {
             writeln!(w, "{} leaf parameters", pathway.as_str().to_uppercase())?;
             writeln!(
                 w,
-                "{:<14} {:>10} {:<24} {:>10} {:>10}  description; source",
-                "name", "default", "unit", "min", "max"
+                "{:<14} {:>10} {:>10} {:<24} {:>10} {:>10}  description; source",
+                "name", "default", "in use", "unit", "min", "max"
             )?;
             for s in specs {
                 writeln!(
                     w,
-                    "{:<14} {:>10} {:<24} {:>10} {:>10}  {}; {}",
+                    "{:<14} {:>10} {:>10} {:<24} {:>10} {:>10}  {}; {}",
                     s.name,
                     show(s.default),
+                    show(in_use(s.name)),
                     s.unit,
                     s.min,
                     s.max,
@@ -562,6 +582,7 @@ fn write_params(pathway: Pathway, format: Format, w: &mut dyn Write) -> Result<(
             cw.write_record([
                 "name",
                 "default",
+                "in_use",
                 "unit",
                 "min",
                 "max",
@@ -572,6 +593,7 @@ fn write_params(pathway: Pathway, format: Format, w: &mut dyn Write) -> Result<(
                 cw.write_record([
                     s.name,
                     &show(s.default),
+                    &show(in_use(s.name)),
                     s.unit,
                     &s.min.to_string(),
                     &s.max.to_string(),
@@ -582,12 +604,22 @@ fn write_params(pathway: Pathway, format: Format, w: &mut dyn Write) -> Result<(
             cw.flush()?;
         }
         Format::Json => {
+            let num_or_inf = |v: f64| {
+                if v.is_infinite() {
+                    "inf".into()
+                } else {
+                    json_num(v)
+                }
+            };
             let list: Vec<_> = specs
                 .iter()
                 .map(|s| {
                     serde_json::json!({
-                        "name": s.name, "default": json_num(s.default), "unit": s.unit,
-                        "min": json_num(s.min), "max": if s.max.is_infinite() { "inf".into() } else { json_num(s.max) },
+                        "name": s.name,
+                        "default": if s.default.is_nan() { "auto".into() } else { num_or_inf(s.default) },
+                        "in_use": num_or_inf(in_use(s.name)),
+                        "unit": s.unit,
+                        "min": json_num(s.min), "max": num_or_inf(s.max),
                         "description": s.description, "source": s.source,
                     })
                 })

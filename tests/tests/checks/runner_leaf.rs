@@ -184,6 +184,46 @@ fn list_params_names_every_parameter_the_issue_requires() {
 }
 
 #[test]
+fn list_params_gives_every_default_a_source_and_resolves_auto_values() {
+    // Every default carries its source (project rule); "auto" defaults show the value in use:
+    // Kc 272.38 (cc basis, Bernacchi et al. 2002) by default, 404.9 (ci basis, Bernacchi et al.
+    // 2001) with gm = inf; Jmax25 = (2.59 − 0.035·10)·60 = 134.4 at a growth temperature of 10 °C
+    // → held at 11 °C: (2.59 − 0.385)·60 = 132.3 (Kattge & Knorr 2007; hand calculation).
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("p.csv");
+    let list = |extra: &[&str]| {
+        let mut args = vec![
+            "leaf",
+            "--list-params",
+            "--format",
+            "csv",
+            "--output",
+            out.to_str().unwrap(),
+        ];
+        args.extend_from_slice(extra);
+        run(&args).unwrap();
+        read_rows(&out)
+    };
+    let value = |rows: &[csv::StringRecord], name: &str| -> String {
+        rows.iter().find(|r| &r[0] == name).unwrap()[2].to_string()
+    };
+    let rows = list(&[]);
+    for r in &rows {
+        assert!(!r[7].trim().is_empty(), "{} has no source", &r[0]);
+        assert_ne!(&r[2], "auto", "{} has no value in use", &r[0]);
+    }
+    assert_eq!(value(&rows, "kc25"), "272.38");
+    assert_eq!(value(&rows, "gm"), "0.25");
+    let rows = list(&["--set", "gm=inf", "--t-growth", "10"]);
+    assert_eq!(value(&rows, "kc25"), "404.9");
+    assert_eq!(value(&rows, "jmax25"), "132.3");
+    let rows = list(&["--pathway", "c4"]);
+    for r in &rows {
+        assert!(!r[7].trim().is_empty(), "{} has no source", &r[0]);
+    }
+}
+
+#[test]
 fn inf_is_accepted_in_set_and_in_input_cells() {
     // `inf` for a conductance or tpu25 means no resistance / no limit (README); with gm = inf,
     // cc = ci (definition of gm).

@@ -544,3 +544,45 @@ fn a_period_inside_or_outside_the_weather_is_run_or_named() {
     .unwrap_err();
     assert!(err.contains("no step between 2026-06-01"), "{err}");
 }
+
+#[test]
+fn site_runs_acclimate_to_the_preceding_30_days() {
+    // Kattge & Knorr 2007: a leaf grown warm keeps more of its capacity at 38 °C than one grown
+    // cool. Thirty days at 12 °C or at 30 °C, then one hot day at 38 °C: the warm-grown canopy fixes
+    // more at the hot noon (growth temperature = mean air temperature of the preceding 30 days).
+    let noon_gpp = |t_before: f64| {
+        let dir = tempfile::tempdir().unwrap();
+        let mut weather = String::from("time,t,vpd,ppfd,p\n");
+        for day in 0..31 {
+            let t = if day < 30 { t_before } else { 38.0 };
+            for h in 0..24 {
+                let ppfd = if (7..17).contains(&h) { 1200 } else { 0 };
+                let date = chrono_like_date(day);
+                weather.push_str(&format!("{date}T{h:02}:00,{t},1.0,{ppfd},0\n"));
+            }
+        }
+        let site = write_site(dir.path(), 1.0, 2.0, None, &weather);
+        let out = dir.path().join("out");
+        run(&[
+            "run",
+            site.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+            "--quiet",
+        ])
+        .unwrap();
+        let steps = Table::read(&out.join("steps.csv"));
+        steps.num(30 * 24 + 12, "gpp_c3")
+    };
+    let (cool, warm) = (noon_gpp(12.0), noon_gpp(30.0));
+    assert!(warm > cool * 1.05, "warm-grown {warm} vs cool-grown {cool}");
+}
+
+/// 2025-01-01 plus `day` days, as YYYY-MM-DD (January and February only).
+fn chrono_like_date(day: u32) -> String {
+    if day < 31 {
+        format!("2025-01-{:02}", day + 1)
+    } else {
+        format!("2025-02-{:02}", day - 30)
+    }
+}
