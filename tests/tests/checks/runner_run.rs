@@ -586,3 +586,68 @@ fn chrono_like_date(day: u32) -> String {
         format!("2025-02-{:02}", day - 30)
     }
 }
+
+#[test]
+fn after_spin_up_day_respiration_uses_the_leaf_labile_pool_as_substrate() {
+    // Apparent e′ = e + δ(assimilate) − δ(substrate) (Wingate et al. 2007; Tcherkez et al. 2011;
+    // from memory). Two identical years of weather: in the first the substrate is the current
+    // assimilate (the pools start after it), in the second the leaf labile pool, whose δ lags the
+    // diurnal course of the assimilate, so noon Δ differs slightly. Without day respiration
+    // (rd25 = 0) the term vanishes (hand reasoning from the equation).
+    let noon_delta = |params: &str| {
+        let dir = tempfile::tempdir().unwrap();
+        let mut weather = String::from("time,t,vpd,ppfd,p\n");
+        for year in [2025, 2026] {
+            for day in 0..365 {
+                let date = day_of(year, day);
+                for h in 0..24 {
+                    let ppfd = (1500.0 * (std::f64::consts::PI * (h as f64 - 6.0) / 12.0).sin())
+                        .max(0.0)
+                        .round();
+                    let rain = if h == 0 { 5 } else { 0 };
+                    weather.push_str(&format!("{date}T{h:02}:00,22,1.2,{ppfd},{rain}\n"));
+                }
+            }
+        }
+        let site = write_site(dir.path(), 1.0, 2.0, None, &weather);
+        let text = fs::read_to_string(&site).unwrap();
+        fs::write(
+            &site,
+            text.replace("g1 = 4.0 }", &format!("g1 = 4.0{params} }}")),
+        )
+        .unwrap();
+        let out = dir.path().join("out");
+        run(&[
+            "run",
+            site.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+            "--quiet",
+        ])
+        .unwrap();
+        let steps = Table::read(&out.join("steps.csv"));
+        let row = 100 * 24 + 12;
+        (
+            steps.num(row, "discrimination_c3"),
+            steps.num(365 * 24 + row, "discrimination_c3"),
+        )
+    };
+    // Without day respiration only the Sun's position a year later differs (≈1e-4‰ here).
+    let (y1, y2) = noon_delta(", rd25 = 0.0");
+    assert!((y1 - y2).abs() < 1e-3, "{y1} vs {y2}");
+    // At noon the assimilate is the least depleted of the day, above the labile pool's daily
+    // mixture: e′ = δp − δsub > 0 lowers Δ in the second year (≈0.007‰ here).
+    let (y1, y2) = noon_delta("");
+    assert!(y1 - y2 > 3e-3 && y1 - y2 < 0.5, "{y1} vs {y2}");
+}
+
+/// The date `day` days after 1 January of `year` (not a leap year), as YYYY-MM-DD.
+fn day_of(year: i32, mut day: u32) -> String {
+    const DAYS: [u32; 12] = [31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31];
+    let mut month = 0;
+    while day >= DAYS[month] {
+        day -= DAYS[month];
+        month += 1;
+    }
+    format!("{year}-{:02}-{:02}", month + 1, day + 1)
+}
