@@ -4,6 +4,8 @@
 //! a [`StepSink`] receives every step (the `run` command writes `steps.csv` from it; an ensemble
 //! member ignores it), so the same code serves single runs, ensembles and batches.
 
+use std::cell::Cell;
+
 use isodisc_model::isotopes::product_delta_permil;
 use isodisc_model::leaf::Pathway;
 use isodisc_model::observations::{LagSettings, lag_analysis};
@@ -13,6 +15,7 @@ use isodisc_model::pools::{
     AtmosphereHistory, Forcing, MeanDrivers, PoolModel, PoolState, StepResult,
 };
 use isodisc_model::site::{SiteDrivers, SiteModel, SiteStep};
+use isodisc_model::temperature::GrowthTemperature;
 
 use crate::error::{Context, Result};
 use crate::forcing::{ForcingError, ForcingStep, LocalDate, LocalTime};
@@ -230,6 +233,9 @@ pub fn simulate(
     // The first year is run through the site model and held back: its mean forcing sets the
     // pools' starting state, which the rest of the run needs before it can write anything.
     let mut steps = steps.peekable();
+    let mut growth = GrowthTemperature::new();
+    // δ13C of the leaf labile pool after the previous step: the leaves' respiratory substrate.
+    let substrate = Cell::new(None);
     let mut first_year: Vec<(ForcingStep, Option<SiteDrivers>, Option<SiteStep>)> = Vec::new();
     let mut year_end: Option<LocalTime> = None;
     while let Some(item) = steps.peek() {
@@ -245,7 +251,8 @@ pub fn simulate(
             break;
         }
         steps.next();
-        let (d, s) = site_step(site, &mut model, &f, step_minutes)?;
+        // The pools start after this year, so its leaves respire their current assimilate (e′ = e).
+        let (d, s) = site_step(site, &mut model, &f, step_minutes, &mut growth, None)?;
         first_year.push((f, d, s));
     }
     let mut pools = Pools::start(site, &first_year, step_minutes)?;
@@ -271,6 +278,7 @@ pub fn simulate(
             (Some(d), Some(s)) => Some(pools.step(f.time.date(), d, s, step_days)?),
             _ => None,
         };
+        substrate.set(pools.leaf_substrate_d13c());
         let view = StepView {
             forcing: f,
             drivers: d.as_ref(),
@@ -290,7 +298,14 @@ pub fn simulate(
     }
     for item in steps {
         let f = item.with_context(|| format!("site {}", site.path.display()))?;
-        let (d, s) = site_step(site, &mut model, &f, step_minutes)?;
+        let (d, s) = site_step(
+            site,
+            &mut model,
+            &f,
+            step_minutes,
+            &mut growth,
+            substrate.get(),
+        )?;
         process(&f, d, s, sink)?;
     }
     if aggs[0].current.is_some() {
@@ -316,10 +331,14 @@ fn site_step(
     model: &mut SiteModel,
     f: &ForcingStep,
     step_minutes: u32,
+    growth: &mut GrowthTemperature,
+    substrate: Option<f64>,
 ) -> Result<(Option<SiteDrivers>, Option<SiteStep>)> {
-    let Some(d) = drivers(site, f, step_minutes) else {
+    let Some(mut d) = drivers(site, f, step_minutes) else {
         return Ok((None, None));
     };
+    d.t_growth_c = growth.push((d.year, d.day_of_year), d.t_air_c);
+    d.d13c_leaf_substrate_permil = substrate;
     let s = model
         .step(&d)
         .with_context(|| format!("{}: step {}", site.path.display(), f.time))?;
@@ -357,6 +376,8 @@ pub fn drivers(site: &Site, f: &ForcingStep, step_minutes: u32) -> Option<SiteDr
         swc_m3_m3: f.swc_m3_m3,
         lai_m2_m2: lai,
         wind_m_s: f.wind_m_s,
+        t_growth_c: f.t_air_c,
+        d13c_leaf_substrate_permil: None,
     })
 }
 
@@ -544,6 +565,18 @@ impl Pools {
             d13c_ra: delta(r.d13c_ra_permil()),
             d13c_rh: delta(r.d13c_rh_permil()),
         })
+    }
+
+    /// δ13C (‰) of the pool that receives the largest share of assimilation (the leaf labile pool
+    /// of the default network), if it holds carbon.
+    fn leaf_substrate_d13c(&self) -> Option<f64> {
+        let pools = self.model.network().pools();
+        let i = (0..pools.len()).max_by(|&a, &b| {
+            pools[a]
+                .assimilation_share
+                .total_cmp(&pools[b].assimilation_share)
+        })?;
+        self.state.pool_d13c_permil(i, self.r_standard)
     }
 
     fn end_of_day(&mut self, sink: &mut dyn StepSink, date: Option<LocalDate>) -> Result<()> {

@@ -615,6 +615,7 @@ impl Site {
                     electron_limit,
                     beta_target,
                     c3_form,
+                    ..LeafOptions::default()
                 },
                 canopy,
                 cover: b.cover,

@@ -242,12 +242,7 @@ impl RunPlan {
                     .pathway()
                     .specs()
                     .iter()
-                    .map(|s| {
-                        (
-                            s.name.to_string(),
-                            json_num(v.leaf.get(s.name).unwrap_or(f64::NAN)),
-                        )
-                    })
+                    .map(|s| (s.name.to_string(), leaf_param_json(v, s.name)))
                     .collect();
                 (
                     v.pathway().as_str().to_string(),
@@ -591,4 +586,26 @@ fn summary(site: &Site, sim: &Simulated, report: &ForcingReport, out: &Path) -> 
     );
     let _ = writeln!(s, "results: {}", out.display());
     s
+}
+
+/// A leaf parameter for run.json: its value (`inf` spelled out), the value in use of an "auto"
+/// default, or, where that
+/// follows the growth temperature of each step (acclimated Jmax25 and entropy terms), the words
+/// "follows growth temperature".
+fn leaf_param_json(v: &isodisc_model::site::Vegetation, name: &str) -> serde_json::Value {
+    let at = |t_growth_c: f64| {
+        v.leaf
+            .in_use(name, &v.options, t_growth_c)
+            .unwrap_or(f64::NAN)
+    };
+    if at(15.0) == at(30.0) {
+        let x = at(25.0);
+        if x == f64::INFINITY {
+            "inf".into() // as the site file and --set spell it
+        } else {
+            json_num(x)
+        }
+    } else {
+        "follows growth temperature".into()
+    }
 }
