@@ -787,8 +787,10 @@ fn validation_rows() -> Vec<TableRow> {
             climate_name.into(),
             got,
             format!("{lo:.0} – {hi:.0}"),
-            if preset.contains("grass") {
-                "Gilmanov et al. 2010; savanna towers"
+            if preset == "c3-grass" {
+                "Gilmanov et al. 2010"
+            } else if preset == "c4-grass" {
+                "savanna towers, e.g. Hutley et al. 2005"
             } else if preset == "tundra-shrub" {
                 "arctic towers (from memory)"
             } else {
