@@ -40,6 +40,8 @@ pub struct RespirationStep {
     pub ra_umol_m2_s: f64,
     /// Heterotrophic respiration (µmol m⁻² s⁻¹).
     pub rh_umol_m2_s: f64,
+    /// Carbon leaving the pools unrespired through `export` transfers (µmol m⁻² s⁻¹).
+    pub export_umol_m2_s: f64,
     /// δ13C of ecosystem respiration (‰).
     pub d13c_reco: f64,
     /// δ13C of autotrophic respiration (‰).
@@ -127,6 +129,11 @@ pub const PERIOD_COLUMNS: &[(&str, &str, &str)] = &[
         "nee",
         "gC m-2",
         "net ecosystem exchange, reco - gpp (positive: a source)",
+    ),
+    (
+        "export",
+        "gC m-2",
+        "carbon leaving the pools unrespired by their `export` transfers, summed (0 by default)",
     ),
     (
         "d13c_respiration",
@@ -561,6 +568,7 @@ impl Pools {
             reco_umol_m2_s: r.reco().c_g_m2() * per_s,
             ra_umol_m2_s: r.ra.c_g_m2() * per_s,
             rh_umol_m2_s: r.rh.c_g_m2() * per_s,
+            export_umol_m2_s: r.export.c_g_m2() * per_s,
             d13c_reco: delta(r.d13c_reco_permil()),
             d13c_ra: delta(r.d13c_ra_permil()),
             d13c_rh: delta(r.d13c_rh_permil()),
@@ -692,6 +700,7 @@ struct Sums {
     reco: f64,
     ra: f64,
     rh: f64,
+    export: f64,
     w_d13c_reco: f64,
     w_d13c_ra: f64,
     w_d13c_rh: f64,
@@ -730,6 +739,7 @@ impl Sums {
             self.ra,
             self.rh,
             self.reco - self.gpp,
+            self.export,
             d13c_r,
             ratio(self.w_d13c_ra, self.ra),
             ratio(self.w_d13c_rh, self.rh),
@@ -825,6 +835,7 @@ impl Aggregator {
             sums.reco += reco;
             sums.ra += ra;
             sums.rh += rh;
+            sums.export += r.export_umol_m2_s * to_gc;
             if reco > 0.0 {
                 sums.w_d13c_reco += reco * r.d13c_reco;
             }

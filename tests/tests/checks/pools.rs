@@ -669,9 +669,9 @@ fn a_repeating_year_is_in_carbon_balance_from_its_first_year() {
 
 #[test]
 fn pools_daily_holds_the_pools_at_the_end_of_the_dated_day() {
-    // Mass balance (no export in the default network): the pools' total carbon at the end of a
-    // day minus that at the end of the day before equals that day's GPP − Reco = −NEE from
-    // daily.csv. The site sits at longitude 0 with UTC+12, so each local day begins at solar noon:
+    // Mass balance: the pools' total carbon at the end of a day minus that at the end of the day
+    // before equals that day's GPP − Reco − export from daily.csv (a network whose transport pool
+    // exports a fifth of its non-respired outflow, so the `export` column is checked too). The site sits at longitude 0 with UTC+12, so each local day begins at solar noon:
     // the first hour of a day fixes much carbon, and the first hour of the third day none (no
     // light), so a row taken one step late would miss the balance by a whole noon hour's GPP.
     let dir = tempfile::tempdir().unwrap();
@@ -692,7 +692,13 @@ fn pools_daily_holds_the_pools_at_the_end_of_the_dated_day() {
                 [soil]\nfield_capacity = 0.3\nwilting_point = 0.1\nroot_depth_m = 1.0\n\
                 initial_water = 1.0\n\n[atmosphere]\nco2 = 420.0\nd13c_co2 = -8.5\n\n\
                 [forcing]\npath = \"weather.csv\"\nstep_minutes = 60\n\n[forcing.columns]\n\
-                t_air = \"t\"\nvpd = \"vpd\"\nppfd = \"ppfd\"\nprecip = \"p\"\n";
+                t_air = \"t\"\nvpd = \"vpd\"\nppfd = \"ppfd\"\nprecip = \"p\"\n\n\
+                [[pools.pool]]\nname = \"leaf\"\nturnover_days = 1.0\nrespired_fraction = 0.25\n\
+                kind = \"autotrophic\"\nassimilation_share = 1.0\ntransfers = { wood = 1.0 }\n\n\
+                [[pools.pool]]\nname = \"wood\"\nturnover_days = 3.0\nrespired_fraction = 0.3\n\
+                kind = \"autotrophic\"\ntransfers = { soil = 0.8, export = 0.2 }\n\n\
+                [[pools.pool]]\nname = \"soil\"\nturnover_years = 10.0\nrespired_fraction = 1.0\n\
+                kind = \"heterotrophic\"\n";
     fs::write(dir.path().join("site.toml"), site).unwrap();
     let out = dir.path().join("out");
     run(&[
@@ -715,11 +721,12 @@ fn pools_daily_holds_the_pools_at_the_end_of_the_dated_day() {
     let noon_hour_gpp = daily[1]["gpp"] / 6.0;
     for d in 1..3 {
         let change = total(&pools[d]) - total(&pools[d - 1]);
-        let want = -daily[d]["nee"];
+        let want = -daily[d]["nee"] - daily[d]["export"];
+        assert!(daily[d]["export"] > 0.0, "day {d}: no export reported");
         // Tolerance: the CSV's six decimals on each pool.
         assert!(
             (change - want).abs() < 1e-4,
-            "day {d}: pools changed by {change:.6} gC m-2, the day's GPP - Reco is {want:.6} \
+            "day {d}: pools changed by {change:.6} gC m-2, the day's GPP - Reco - export is {want:.6} \
              (a noon hour fixes about {noon_hour_gpp:.3})"
         );
     }
