@@ -310,7 +310,7 @@ fn a_cold_site_fixes_almost_nothing_in_frozen_months() {
     // carry less than 2% of the annual GPP.
     let out = run_site(
         &boreal_climate(),
-        &vegetation("evergreen-needleleaf", None),
+        &vegetation("evergreen-needleleaf"),
         "",
         1,
     );
@@ -326,11 +326,10 @@ fn a_cold_site_fixes_almost_nothing_in_frozen_months() {
 // The cases: climates and vegetation.
 
 /// The `[vegetation.c3]` block of a vegetation preset (or `[vegetation.c4]` for a C4 one),
-/// covering the ground, with the preset's phenology (`lai = None`) or a constant LAI.
-fn vegetation(preset: &str, lai: Option<f64>) -> String {
+/// covering the ground, with the preset's phenology.
+fn vegetation(preset: &str) -> String {
     let pathway = if preset.starts_with("c4") { "c4" } else { "c3" };
-    let lai = lai.map_or(String::new(), |l| format!("lai = {l}\n"));
-    format!("[vegetation.{pathway}]\npreset = \"{preset}\"\ncover = 1.0\n{lai}")
+    format!("[vegetation.{pathway}]\npreset = \"{preset}\"\ncover = 1.0\n")
 }
 
 /// The rainfall gradient: warm-temperate climates at 35° N from arid to wet, with drier air, a
@@ -372,10 +371,7 @@ fn rainfall_gradient() -> Vec<(f64, Climate, f64)> {
 /// The vegetation of the rainfall gradient: the `deciduous-broadleaf` preset (angiosperm trees,
 /// most of the compilation below) with its phenology and the gradient's largest LAI.
 fn gradient_vegetation(lai_max: f64) -> String {
-    format!(
-        "{}lai_max = {lai_max}\n",
-        vegetation("deciduous-broadleaf", None)
-    )
+    format!("{}lai_max = {lai_max}\n", vegetation("deciduous-broadleaf"))
 }
 
 /// Leaf Δ13C (‰) of C3 plants predicted by the global regression of Kohn (2010, PNAS 107, 19691,
@@ -616,7 +612,7 @@ fn assert_c4_discrimination(name: &str) {
         .into_iter()
         .find(|(n, _)| n.starts_with(name))
         .expect("a C4 climate of that name");
-    let out = run_site(&climate, &vegetation("c4-grass", None), "", 1);
+    let out = run_site(&climate, &vegetation("c4-grass"), "", 1);
     let got = annual(&out, "discrimination_c4");
     assert!(
         (3.0..=6.0).contains(&got),
@@ -644,7 +640,7 @@ fn temperate_forest_respiration_lies_in_the_published_keeling_range() {
     // Pataki et al. 2003 (from memory), shifted to today's atmosphere (see PATAKI_FOREST_DR).
     let out = run_site(
         &temperate_humid(),
-        &vegetation("deciduous-broadleaf", None),
+        &vegetation("deciduous-broadleaf"),
         "",
         1,
     );
@@ -664,7 +660,7 @@ fn assert_gpp(preset: &str, climate_name: &str) {
         .into_iter()
         .find(|(p, c, _, _)| *p == preset && c.starts_with(climate_name))
         .expect("a GPP case of that preset and climate");
-    let out = run_site(&climate, &vegetation(preset, None), "", 1);
+    let out = run_site(&climate, &vegetation(preset), "", 1);
     let got = annual(&out, "gpp");
     assert!(
         (lo..=hi).contains(&got),
@@ -750,7 +746,7 @@ fn validation_rows() -> Vec<TableRow> {
         );
     }
     for (name, climate) in c4_climates() {
-        let got = try_run_site(&climate, &vegetation("c4-grass", None), "", 1)
+        let got = try_run_site(&climate, &vegetation("c4-grass"), "", 1)
             .map(|o| annual(&o, "discrimination_c4"));
         push(
             "C4 grass Δ, ‰".into(),
@@ -765,7 +761,7 @@ fn validation_rows() -> Vec<TableRow> {
     let (lo, hi) = PATAKI_FOREST_DR;
     let got = try_run_site(
         &temperate_humid(),
-        &vegetation("deciduous-broadleaf", None),
+        &vegetation("deciduous-broadleaf"),
         "",
         1,
     )
@@ -780,8 +776,7 @@ fn validation_rows() -> Vec<TableRow> {
         1,
     );
     for (preset, climate_name, climate, (lo, hi)) in gpp_cases() {
-        let got =
-            try_run_site(&climate, &vegetation(preset, None), "", 1).map(|o| annual(&o, "gpp"));
+        let got = try_run_site(&climate, &vegetation(preset), "", 1).map(|o| annual(&o, "gpp"));
         push(
             format!("GPP `{preset}`, gC m⁻² yr⁻¹"),
             climate_name.into(),
@@ -802,7 +797,7 @@ fn validation_rows() -> Vec<TableRow> {
     }
     let got = try_run_site(
         &boreal_climate(),
-        &vegetation("evergreen-needleleaf", None),
+        &vegetation("evergreen-needleleaf"),
         "",
         1,
     )
