@@ -8,9 +8,13 @@ use std::fmt::Write as _;
 use std::fs;
 use std::path::{Path, PathBuf};
 
-use isodisc_model::phenology::{daily_gsi, index_photoperiod, index_tmin, index_vpd};
+use isodisc_model::phenology::{
+    ColdState, Phenology, PhenologyKind, PhenologySettings, daily_gsi, index_photoperiod,
+    index_tmin, index_vpd,
+};
 use isodisc_model::presets::PRESETS;
 use isodisc_runner::site::Site;
+use proptest::prelude::*;
 
 use crate::common::run;
 
@@ -314,6 +318,11 @@ fn load(site: &str) -> (tempfile::TempDir, Result<Site, String>) {
     (dir, r)
 }
 
+/// The error of loading a site at 45° N whose vegetation block is `veg`.
+fn load_error(veg: &str) -> String {
+    load(&site_text(45.0, veg)).1.unwrap_err()
+}
+
 #[test]
 fn keys_and_params_override_the_preset() {
     // Precedence (common practice for layered settings): leaf defaults < preset < the block's keys
@@ -365,42 +374,26 @@ fn keys_and_params_override_the_preset() {
 #[test]
 fn preset_errors_suggest_the_closest_name_and_the_right_block() {
     // Unknown names suggest the closest known one (edit distance; common practice).
-    let (_d, r) = load(&site_text(
-        45.0,
-        "[vegetation.c3]\npreset = \"decidous-broadleaf\"\ncover = 1.0",
-    ));
-    let e = r.unwrap_err();
+    let e = load_error("[vegetation.c3]\npreset = \"decidous-broadleaf\"\ncover = 1.0");
     assert!(
         e.contains("did you mean \"deciduous-broadleaf\"") && e.contains("line 9"),
         "{e}"
     );
     // A C4 preset in a C3 block names the key and the block it belongs in.
-    let (_d, r) = load(&site_text(
-        45.0,
-        "[vegetation.c3]\npreset = \"c4-grass\"\ncover = 1.0",
-    ));
-    let e = r.unwrap_err();
+    let e = load_error("[vegetation.c3]\npreset = \"c4-grass\"\ncover = 1.0");
     assert!(
         e.contains("preset") && e.contains("[vegetation.c4]") && e.contains("line 9"),
         "{e}"
     );
     // A wrong lai value says what the key takes.
-    let (_d, r) = load(&site_text(
-        45.0,
-        "[vegetation.c3]\ncover = 1.0\nlai = \"phenolgy\"",
-    ));
-    let e = r.unwrap_err();
+    let e = load_error("[vegetation.c3]\ncover = 1.0\nlai = \"phenolgy\"");
     assert!(
         e.contains("\"forcing\"") && e.contains("\"phenology\"") && e.contains("number"),
         "{e}"
     );
     assert!(!e.contains("untagged"), "{e}");
     // lai = "phenology" without a preset needs its range and kind.
-    let (_d, r) = load(&site_text(
-        45.0,
-        "[vegetation.c3]\ncover = 1.0\nlai = \"phenology\"",
-    ));
-    let e = r.unwrap_err();
+    let e = load_error("[vegetation.c3]\ncover = 1.0\nlai = \"phenology\"");
     assert!(e.contains("lai_max") && e.contains("gsi"), "{e}");
     // And with them it loads.
     let (_d, r) = load(&site_text(
@@ -483,17 +476,63 @@ fn inf_and_the_lloyd_taylor_spelling_are_accepted() {
         );
     }
     // inf is refused where the range is finite, with the parameter's name.
-    let (_d, r) = load(&site_text(
-        45.0,
-        "[vegetation.c3]\ncover = 1.0\nlai = 3.0\nparams = { g1 = inf }",
-    ));
-    assert!(r.unwrap_err().contains("g1"));
+    let e = load_error("[vegetation.c3]\ncover = 1.0\nlai = 3.0\nparams = { g1 = inf }");
+    assert!(e.contains("g1") && e.contains("line 11"), "{e}");
     run(&["leaf", "--set", "gm=inf", "--format", "json"]).unwrap();
+    // ... and `--input` cells: an infinite gm gives cc = ci (no mesophyll drawdown).
+    let dir = tempfile::tempdir().unwrap();
+    let (input, output) = (dir.path().join("in.csv"), dir.path().join("out.csv"));
+    fs::write(&input, "gm\ninf\n0.3\n").unwrap();
+    run(&[
+        "leaf",
+        "--input",
+        input.to_str().unwrap(),
+        "--output",
+        output.to_str().unwrap(),
+        "--format",
+        "csv",
+    ])
+    .unwrap();
+    let (_, ci) = column(&output, "c_i");
+    let (_, cc) = column(&output, "c_c");
+    assert_eq!(ci[0], cc[0]);
+    assert!(cc[1] < ci[1] - 1.0, "finite gm draws cc below ci");
     for spelling in ["lloyd-taylor", "lloyd_taylor"] {
         let (_d, site) = load(&format!(
             "{}\n[pools]\ntemperature_response = \"{spelling}\"\n",
             site_text(45.0, "[vegetation.c3]\ncover = 1.0\nlai = 3.0")
         ));
         assert!(site.is_ok(), "{spelling}: {site:?}");
+    }
+}
+
+proptest! {
+    /// Bounds that follow from the definitions (no source needed): LAI stays within
+    /// [lai_min, lai_max]; the cold factor lies in [0, 1] and is 0 whenever the air is at or below
+    /// −2 °C (the bottom of the ramp) or the soil's running mean is at or below 0 °C.
+    #[test]
+    fn lai_and_cold_factor_stay_in_their_bounds(
+        lai_min in 0.0..3.0f64,
+        extra in 0.0..5.0f64,
+        water in proptest::bool::ANY,
+        hours in proptest::collection::vec(
+            (-70.0..45.0f64, 0.0..6.0f64, 0.0..1.0f64), 1..400,
+        ),
+    ) {
+        let kind = if water { PhenologyKind::GsiSoilWater } else { PhenologyKind::Gsi };
+        let settings = PhenologySettings::new(kind, lai_min, lai_min + extra).unwrap();
+        let mut phenology = Phenology::new(settings);
+        let mut cold = ColdState::default();
+        for (i, &(t, vpd, beta)) in hours.iter().enumerate() {
+            let day = (i / 24) as u32 + 1;
+            let lai = phenology.step((2025, day), t, vpd, beta, 12.0);
+            prop_assert!(lai >= lai_min - 1e-12 && lai <= lai_min + extra + 1e-12);
+            let c = cold.step(t, 1.0);
+            prop_assert!((0.0..=1.0).contains(&c.factor));
+            if t <= -2.0 || c.t_soil_c <= 0.0 {
+                prop_assert_eq!(c.factor, 0.0);
+            }
+            prop_assert!(c.tmin_24h_c <= t);
+        }
     }
 }
