@@ -164,16 +164,10 @@ impl C3Kinetics {
     pub fn demand(&self, ci: f64) -> (f64, f64, Limitation) {
         // Every rate's net curve passes through (cc = Γ*, A = −Rd), so all rates agree on the side
         // of Γ* on which cc lies; the Rubisco rate tells which.
-        let below = self.net_rate(&self.rates[0], ci) + self.rd < 0.0;
-        let mut best = (
-            if below {
-                f64::NEG_INFINITY
-            } else {
-                f64::INFINITY
-            },
-            Limitation::Rubisco,
-        );
-        for r in &self.rates[..self.n_rates] {
+        let a_rubisco = self.net_rate(&self.rates[0], ci);
+        let below = a_rubisco + self.rd < 0.0;
+        let mut best = (a_rubisco, self.rates[0].limitation);
+        for r in &self.rates[1..self.n_rates] {
             if below && r.constant {
                 continue; // TPU caps gross assimilation, of which there is none below Γ*.
             }

@@ -191,7 +191,7 @@ pub struct LeafConditions {
     pub d13c_air_permil: f64,
     /// Soil-water factor β (0–1; 1 = no stress).
     pub soil_beta: f64,
-    /// Growth temperature (°C), −30 to 50: the mean air temperature of the preceding 30 days, for
+    /// Growth temperature (°C), −70 to 60: the mean air temperature of the preceding 30 days, for
     /// the acclimated temperature set.
     pub t_growth_c: f64,
     /// δ13C of the substrate of day respiration (‰ vs VPDB), if known: the C3 respiration term then
@@ -228,7 +228,7 @@ impl LeafConditions {
         ("o2", "mmol mol-1", 0.0, 1000.0),
         ("d13c_air", "permil", -50.0, 50.0),
         ("soil_beta", "-", 0.0, 1.0),
-        ("t_growth", "degC", -30.0, 50.0),
+        ("t_growth", "degC", -70.0, 60.0),
     ];
 
     /// Checks every condition against [`Self::RANGES`]; the error names the condition.

@@ -651,3 +651,42 @@ fn day_of(year: i32, mut day: u32) -> String {
     }
     format!("{year}-{:02}-{:02}", month + 1, day + 1)
 }
+
+#[test]
+fn temperature_set_is_chosen_by_name_in_the_site_file() {
+    // The fixed set (Bernacchi et al. 2001 / Medlyn et al. 2002) stays selectable by name; at 38 °C
+    // it keeps less capacity than the set acclimated to that growth temperature (38 °C, held at
+    // 35 °C; Kattge & Knorr 2007), so the two runs differ; a misspelt name is an error naming the
+    // key and the choices.
+    let gpp = |set: &str| -> Result<f64, String> {
+        let dir = tempfile::tempdir().unwrap();
+        let mut weather = String::from("time,t,vpd,ppfd,p\n");
+        for h in 0..24 {
+            let ppfd = if (7..17).contains(&h) { 1200 } else { 0 };
+            weather.push_str(&format!("2025-01-01T{h:02}:00,38,1.0,{ppfd},0\n"));
+        }
+        let site = write_site(dir.path(), 1.0, 2.0, None, &weather);
+        let text = fs::read_to_string(&site).unwrap();
+        let text = text.replace(
+            "[vegetation.c3]\n",
+            &format!("[vegetation.c3]\ntemperature_set = \"{set}\"\n"),
+        );
+        fs::write(&site, text).unwrap();
+        let out = dir.path().join("out");
+        run(&[
+            "run",
+            site.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+            "--quiet",
+        ])?;
+        Ok(Table::read(&out.join("steps.csv")).num(12, "gpp_c3"))
+    };
+    let (acclimated, fixed) = (gpp("acclimated").unwrap(), gpp("fixed").unwrap());
+    assert!(acclimated > fixed * 1.1, "{acclimated} vs {fixed}");
+    let err = gpp("acclimatised").unwrap_err();
+    assert!(
+        err.contains("temperature_set") && err.contains("\"fixed\""),
+        "{err}"
+    );
+}
