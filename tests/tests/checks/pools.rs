@@ -731,3 +731,39 @@ fn pools_daily_holds_the_pools_at_the_end_of_the_dated_day() {
         );
     }
 }
+
+#[test]
+fn steady_state_at_a_mean_turnover_factor_is_input_over_mean_rate() {
+    // Analytic: a pool losing k·f(t)·C with constant input I has, over a repeating year, a mean
+    // balance of zero at C ≈ I/(k·f̄) when C hardly moves within the year; the steady state at the
+    // mean factor f̄ is that C. Here one heterotrophic pool (τ = 3000 days) at f̄ = 1.7, whatever
+    // the forcing's soil temperature and moisture say; and the mean of a convex Q10 response over
+    // a ±10 °C cycle exceeds its value at the mean (Jensen's inequality), which is why the spin-up
+    // uses the mean factor.
+    let net = PoolNetwork::new(vec![
+        PoolSpec::new("soil", 3000.0, 1.0, PoolKind::Heterotrophic).with_assimilation_share(1.0),
+    ])
+    .unwrap();
+    let m = model(net, Method::Exact);
+    let f = Forcing {
+        assimilation_gc_m2_day: 2.0,
+        d13c_assimilate_permil: -27.0,
+        t_soil_c: 10.0,
+        moisture: 1.0,
+    };
+    let at_mean = m.steady_state_at(&f, Some(1.7)).unwrap();
+    let want = 2.0 * 3000.0 / 1.7;
+    assert!((at_mean.total_c_g_m2() / want - 1.0).abs() < ARITH_TOL * 1e3);
+    let plain = m.steady_state(&f).unwrap();
+    assert!((plain.total_c_g_m2() / (2.0 * 3000.0) - 1.0).abs() < ARITH_TOL * 1e3);
+    let response = EnvironmentResponse::default();
+    let cycle_mean: f64 = (0..365)
+        .map(|d| {
+            let t = 10.0 + 10.0 * (2.0 * std::f64::consts::PI * d as f64 / 365.0).sin();
+            response.factor(t, 1.0).unwrap()
+        })
+        .sum::<f64>()
+        / 365.0;
+    assert!(cycle_mean > response.factor(10.0, 1.0).unwrap() * 1.05);
+    assert!(m.steady_state_at(&f, Some(0.0)).is_err());
+}
