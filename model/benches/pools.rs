@@ -67,6 +67,7 @@ fn spin_up(c: &mut Criterion) {
         assimilation_gc_m2_day: 4.0,
         t_soil_c: 9.0,
         moisture: 0.7,
+        turnover_factor: None,
     };
     c.bench_function("pools_spin_up_320_years", |b| {
         b.iter(|| {

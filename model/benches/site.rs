@@ -66,6 +66,8 @@ fn year() -> Vec<SiteDrivers> {
                 swc_m3_m3: None,
                 lai_m2_m2: None,
                 wind_m_s: None,
+                t_growth_c: 21.0 + 4.0 * season,
+                d13c_leaf_substrate_permil: None,
             }
         })
         .collect()

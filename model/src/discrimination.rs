@@ -6,6 +6,10 @@
 //!   Δ = ab(ca − cs)/ca + a(cs − ci)/ca + (es + al)(ci − cc)/ca + b·cc/ca − (e·Rd/k + f·Γ*)/ca,
 //!   with k = (A + Rd)/(cc − Γ*) the carboxylation efficiency. With no boundary layer, infinite
 //!   mesophyll conductance, e = f = 0 and b = 27‰ it reduces to the simple form.
+//!   The respiration term assumes day respiration releases the current assimilate. When its
+//!   substrate is older carbon of another δ13C (Wingate et al. 2007; Tcherkez et al. 2011; from
+//!   memory), e is replaced by the apparent e′ = e + δ(assimilate) − δ(substrate); since δ of the
+//!   assimilate depends on Δ itself, [`c3_comprehensive_apparent_e_permil`] solves for Δ exactly.
 //! - C4 (Farquhar 1983, Aust. J. Plant Physiol.): Δ = ab(ca − cs)/ca + a(cs − ci)/ca +
 //!   (b4 + φ(b3 − s))·ci/ca, with leakiness φ and b4 the temperature-dependent fractionation of
 //!   CO2 dissolution, hydration and PEP carboxylation, b4 = −9483/T + 23.89 + 2.2 ‰ with T in K
@@ -71,6 +75,31 @@ pub fn c3_comprehensive_permil(g: &C3Gradient, fr: &C3Fractionations) -> f64 {
         - resp
         - fr.f * g.gamma_star)
         / g.ca
+}
+
+/// C3 comprehensive discrimination (‰) with the apparent fractionation of day respiration
+/// e′ = e + δp − δsub, where δp = (δa − Δ)/(1 + Δ/1000) is the δ13C of the assimilate this Δ gives,
+/// `d13c_air_permil` δa and `d13c_substrate_permil` δsub (‰ vs VPDB). With the weight
+/// w = Rd(cc − Γ*)/((A + Rd)·ca) of the respiration term, Δ = Δ₀ − w·e′ where Δ₀ is the form with
+/// e = 0; multiplied by (1 + Δ/1000) this is the quadratic
+/// Δ²/1000 + Δ(1 − c/1000 − w) + (w·δa − c) = 0 with c = Δ₀ − w(e − δsub), whose root near c is
+/// taken in its cancellation-free form. NaN where the comprehensive form is.
+pub fn c3_comprehensive_apparent_e_permil(
+    g: &C3Gradient,
+    fr: &C3Fractionations,
+    d13c_air_permil: f64,
+    d13c_substrate_permil: f64,
+) -> f64 {
+    let delta0 = c3_comprehensive_permil(g, &C3Fractionations { e: 0.0, ..*fr });
+    if delta0.is_nan() {
+        return f64::NAN;
+    }
+    let w = g.rd * (g.cc - g.gamma_star) / ((g.a_net + g.rd) * g.ca);
+    let c = delta0 - w * (fr.e - d13c_substrate_permil);
+    let b = 1.0 - c / 1000.0 - w;
+    let k = w * d13c_air_permil - c;
+    let disc = b * b - 4e-3 * k;
+    2.0 * (c - w * d13c_air_permil) / (b + disc.max(0.0).sqrt())
 }
 
 /// b4 (‰) at leaf temperature `t_leaf_c` (°C): −9483/T + 23.89 + 2.2 with T in K.

@@ -17,14 +17,15 @@
 //!   temperature of the last 24 h; no photosynthesis while the soil is frozen
 //!   ([`crate::phenology`]). With f_cold = 0 the leaves are not solved, so any air temperature the
 //!   weather holds is accepted; otherwise the leaf temperature is the air temperature (> −2 °C).
-//! - With wind, the leaf boundary-layer conductance to H2O is gb = 0.147·√(u/d) mol m⁻² s⁻¹ for leaf
-//!   width d (Campbell & Norman 1998, from memory).
+//! - With wind, the leaf boundary-layer conductance to H2O is gb = 1.4 × 0.147·√(u/d) mol m⁻² s⁻¹
+//!   for leaf width d, 1.4 the outdoor enhancement (Campbell & Norman 1998, from memory).
 
 use crate::canopy::assimilation::{CanopyDrivers, CanopyFlux, CanopySettings, canopy_step};
 use crate::canopy::radiation::diffuse_fraction_erbs;
 use crate::canopy::solar::Location;
 use crate::error::{Result, check_input, check_range};
 use crate::isotopes::product_delta_permil;
+use crate::leaf::stomata::boundary_layer_h2o_from_wind;
 use crate::leaf::{LeafConditions, LeafModel, LeafOptions, Pathway};
 use crate::phenology::{ColdState, Phenology, PhenologySettings};
 use crate::water::bucket::{Bucket, BucketParams};
@@ -119,6 +120,10 @@ pub struct SiteDrivers {
     pub lai_m2_m2: Option<f64>,
     /// Wind speed (m s⁻¹), if known.
     pub wind_m_s: Option<f64>,
+    /// Growth temperature (°C): mean air temperature of the preceding 30 days.
+    pub t_growth_c: f64,
+    /// δ13C of the leaves' respiratory substrate (‰ VPDB; the leaf labile pool), if known.
+    pub d13c_leaf_substrate_permil: Option<f64>,
 }
 
 /// One pathway's part of a site step, per m² of ground (cover applied).
@@ -297,6 +302,8 @@ impl SiteModel {
             o2_mmol_mol: d.o2_mmol_mol,
             d13c_air_permil: d.d13c_co2_permil,
             soil_beta: beta,
+            t_growth_c: d.t_growth_c,
+            d13c_substrate_permil: d.d13c_leaf_substrate_permil,
         };
         let mut pathways = Vec::with_capacity(self.settings.vegetation.len());
         let (mut gpp, mut gpp_c4, mut wd) = (0.0, 0.0, 0.0);
@@ -317,8 +324,7 @@ impl SiteModel {
             let leaf = match d.wind_m_s {
                 Some(u) if u.is_finite() => {
                     let mut l = v.leaf.clone();
-                    let gb = 0.147 * (u.max(0.1) / v.leaf_width_m).sqrt();
-                    l.set("gb", gb.clamp(0.01, 1e6))?;
+                    l.set("gb", boundary_layer_h2o_from_wind(u, v.leaf_width_m))?;
                     std::borrow::Cow::Owned(l)
                 }
                 _ => std::borrow::Cow::Borrowed(&v.leaf),

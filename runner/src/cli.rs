@@ -122,6 +122,15 @@ pub enum BetaTargetArg {
     Both,
 }
 
+/// C3 temperature responses of Vcmax and Jmax.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum TemperatureSetArg {
+    /// Acclimated to the growth temperature (Kattge & Knorr 2007).
+    Acclimated,
+    /// One set for every leaf (Bernacchi et al. 2001 / Medlyn et al. 2002).
+    Fixed,
+}
+
 /// `isodisc leaf`.
 #[derive(Debug, clap::Args)]
 pub struct LeafArgs {
@@ -155,6 +164,18 @@ pub struct LeafArgs {
     /// Soil-water factor β (0–1; 1 = no stress).
     #[arg(long, default_value_t = 1.0)]
     pub soil_beta: f64,
+    /// Growth temperature (°C): mean air temperature of the preceding 30 days, for the acclimated
+    /// C3 temperature set.
+    #[arg(long, default_value_t = 25.0, allow_negative_numbers = true)]
+    pub t_growth: f64,
+    /// C3 temperature responses of Vcmax and Jmax: acclimated to --t-growth (Kattge & Knorr 2007)
+    /// or one fixed set (Bernacchi et al. 2001 / Medlyn et al. 2002).
+    #[arg(long, value_enum, default_value = "acclimated")]
+    pub temperature_set: TemperatureSetArg,
+    /// δ13C of the substrate of day respiration (‰ vs VPDB): the C3 respiration term then uses the
+    /// apparent e′ = e + δ(assimilate) − δ(substrate) [default: the current assimilate, e′ = e].
+    #[arg(long, allow_negative_numbers = true)]
+    pub d13c_substrate: Option<f64>,
     /// C3 discrimination form (ignored for C4, which has one form).
     #[arg(long, value_enum, default_value = "comprehensive")]
     pub discrimination: FormArg,

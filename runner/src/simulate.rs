@@ -4,6 +4,8 @@
 //! a [`StepSink`] receives every step (the `run` command writes `steps.csv` from it; an ensemble
 //! member ignores it), so the same code serves single runs, ensembles and batches.
 
+use std::cell::Cell;
+
 use isodisc_model::isotopes::product_delta_permil;
 use isodisc_model::leaf::Pathway;
 use isodisc_model::observations::{LagSettings, lag_analysis};
@@ -13,6 +15,7 @@ use isodisc_model::pools::{
     AtmosphereHistory, Forcing, MeanDrivers, PoolModel, PoolState, StepResult,
 };
 use isodisc_model::site::{SiteDrivers, SiteModel, SiteStep};
+use isodisc_model::temperature::GrowthTemperature;
 
 use crate::error::{Context, Result};
 use crate::forcing::{ForcingError, ForcingStep, LocalDate, LocalTime};
@@ -37,6 +40,8 @@ pub struct RespirationStep {
     pub ra_umol_m2_s: f64,
     /// Heterotrophic respiration (µmol m⁻² s⁻¹).
     pub rh_umol_m2_s: f64,
+    /// Carbon leaving the pools unrespired through `export` transfers (µmol m⁻² s⁻¹).
+    pub export_umol_m2_s: f64,
     /// δ13C of ecosystem respiration (‰).
     pub d13c_reco: f64,
     /// δ13C of autotrophic respiration (‰).
@@ -124,6 +129,11 @@ pub const PERIOD_COLUMNS: &[(&str, &str, &str)] = &[
         "nee",
         "gC m-2",
         "net ecosystem exchange, reco - gpp (positive: a source)",
+    ),
+    (
+        "export",
+        "gC m-2",
+        "carbon leaving the pools unrespired by their `export` transfers, summed (0 by default)",
     ),
     (
         "d13c_respiration",
@@ -230,6 +240,9 @@ pub fn simulate(
     // The first year is run through the site model and held back: its mean forcing sets the
     // pools' starting state, which the rest of the run needs before it can write anything.
     let mut steps = steps.peekable();
+    let mut growth = GrowthTemperature::new();
+    // δ13C of the leaf labile pool after the previous step: the leaves' respiratory substrate.
+    let substrate = Cell::new(None);
     let mut first_year: Vec<(ForcingStep, Option<SiteDrivers>, Option<SiteStep>)> = Vec::new();
     let mut year_end: Option<LocalTime> = None;
     while let Some(item) = steps.peek() {
@@ -245,10 +258,14 @@ pub fn simulate(
             break;
         }
         steps.next();
-        let (d, s) = site_step(site, &mut model, &f, step_minutes)?;
+        // The pools start after this year, so its leaves respire their current assimilate (e′ = e).
+        let (d, s) = site_step(site, &mut model, &f, step_minutes, &mut growth, None)?;
         first_year.push((f, d, s));
     }
     let mut pools = Pools::start(site, &first_year, step_minutes)?;
+    if first_year.len() as f64 * step_days >= 365.0 {
+        pools.cycle(&first_year, step_days)?;
+    }
 
     let mut aggs = [
         Aggregator::new(PeriodKind::Daily),
@@ -260,10 +277,15 @@ pub fn simulate(
                        s: Option<SiteStep>,
                        sink: &mut dyn StepSink|
      -> Result<()> {
+        // The pools as they stand at the end of the day just closed, before this step moves them.
+        if aggs[0].current_key_differs(f.time) {
+            pools.end_of_day(sink, aggs[0].current_date)?;
+        }
         let resp = match (&d, &s) {
             (Some(d), Some(s)) => Some(pools.step(f.time.date(), d, s, step_days)?),
             _ => None,
         };
+        substrate.set(pools.leaf_substrate_d13c());
         let view = StepView {
             forcing: f,
             drivers: d.as_ref(),
@@ -273,10 +295,6 @@ pub fn simulate(
             c4,
         };
         sink.step(&view)?;
-        let closed_day = aggs[0].current_key_differs(f.time);
-        if closed_day {
-            pools.end_of_day(sink, aggs[0].current_date)?;
-        }
         for a in &mut aggs {
             a.add(&view, step_days * SECONDS_PER_DAY);
         }
@@ -287,7 +305,14 @@ pub fn simulate(
     }
     for item in steps {
         let f = item.with_context(|| format!("site {}", site.path.display()))?;
-        let (d, s) = site_step(site, &mut model, &f, step_minutes)?;
+        let (d, s) = site_step(
+            site,
+            &mut model,
+            &f,
+            step_minutes,
+            &mut growth,
+            substrate.get(),
+        )?;
         process(&f, d, s, sink)?;
     }
     if aggs[0].current.is_some() {
@@ -313,10 +338,14 @@ fn site_step(
     model: &mut SiteModel,
     f: &ForcingStep,
     step_minutes: u32,
+    growth: &mut GrowthTemperature,
+    substrate: Option<f64>,
 ) -> Result<(Option<SiteDrivers>, Option<SiteStep>)> {
-    let Some(d) = drivers(site, f, step_minutes) else {
+    let Some(mut d) = drivers(site, f, step_minutes) else {
         return Ok((None, None));
     };
+    d.t_growth_c = growth.push((d.year, d.day_of_year), d.t_air_c);
+    d.d13c_leaf_substrate_permil = substrate;
     let s = model
         .step(&d)
         .with_context(|| format!("{}: step {}", site.path.display(), f.time))?;
@@ -354,6 +383,8 @@ pub fn drivers(site: &Site, f: &ForcingStep, step_minutes: u32) -> Option<SiteDr
         swc_m3_m3: f.swc_m3_m3,
         lai_m2_m2: lai,
         wind_m_s: f.wind_m_s,
+        t_growth_c: f.t_air_c,
+        d13c_leaf_substrate_permil: None,
     })
 }
 
@@ -370,7 +401,7 @@ struct Pools {
 }
 
 impl Pools {
-    /// Spins the pools up from the first year's mean forcing.
+    /// Spins the pools up from the first year's mean assimilation and mean turnover rates.
     fn start(
         site: &Site,
         first_year: &[(ForcingStep, Option<SiteDrivers>, Option<SiteStep>)],
@@ -406,10 +437,17 @@ impl Pools {
             )));
         }
         let days = seconds / SECONDS_PER_DAY;
+        let t_mean = (t_sum / n as f64).clamp(T_SOIL_RANGE_C.0, T_SOIL_RANGE_C.1);
         let mean = MeanDrivers {
             assimilation_gc_m2_day: gpp_gc / days,
-            t_soil_c: (t_sum / n as f64).clamp(T_SOIL_RANGE_C.0, T_SOIL_RANGE_C.1),
+            t_soil_c: t_mean,
             moisture: beta_sum / n as f64,
+            turnover_factor: Some(mean_turnover_factor(
+                &model,
+                first_year,
+                t_mean,
+                step_s / SECONDS_PER_DAY,
+            )?),
         };
         let mean_disc = w_disc / gpp_gc;
         let mean_d13c_air = w_d13c_air / gpp_gc;
@@ -420,7 +458,7 @@ impl Pools {
             t_soil_c: mean.t_soil_c,
             moisture: mean.moisture,
         };
-        let report = model.steady_state_report(&steady_forcing)?;
+        let report = model.steady_state_report_at(&steady_forcing, mean.turnover_factor)?;
         let state = match &site.history {
             Some(h) => {
                 let t0 = first_time.expect("n > 0");
@@ -437,7 +475,7 @@ impl Pools {
                         )
                     })?
             }
-            None => model.steady_state(&steady_forcing)?,
+            None => model.steady_state_at(&steady_forcing, mean.turnover_factor)?,
         };
         let pool_names = model
             .network()
@@ -464,6 +502,28 @@ impl Pools {
                 pool_names,
             },
         })
+    }
+
+    /// Runs the first (whole) year once through the pools from their steady state and keeps the
+    /// pools it ends with, so the fast pools start where the year's end leaves them rather than at
+    /// their annual mean (they would release their surplus in the first weeks otherwise) and the
+    /// slower ones a year nearer the cycle a repeating year settles into. Soil temperature and the
+    /// assimilate's δ restart as before.
+    fn cycle(
+        &mut self,
+        first_year: &[(ForcingStep, Option<SiteDrivers>, Option<SiteStep>)],
+        step_days: f64,
+    ) -> Result<()> {
+        let (t_soil_c, d13c) = (self.t_soil_c, self.last_d13c_assimilate);
+        for (f, d, s) in first_year {
+            if let (Some(d), Some(s)) = (d, s) {
+                self.step(f.time.date(), d, s, step_days)?;
+            }
+        }
+        self.t_soil_c = t_soil_c;
+        self.last_d13c_assimilate = d13c;
+        self.soil_of_day = None;
+        Ok(())
     }
 
     fn step(
@@ -508,10 +568,23 @@ impl Pools {
             reco_umol_m2_s: r.reco().c_g_m2() * per_s,
             ra_umol_m2_s: r.ra.c_g_m2() * per_s,
             rh_umol_m2_s: r.rh.c_g_m2() * per_s,
+            export_umol_m2_s: r.export.c_g_m2() * per_s,
             d13c_reco: delta(r.d13c_reco_permil()),
             d13c_ra: delta(r.d13c_ra_permil()),
             d13c_rh: delta(r.d13c_rh_permil()),
         })
+    }
+
+    /// δ13C (‰) of the pool that receives the largest share of assimilation (the leaf labile pool
+    /// of the default network), if it holds carbon.
+    fn leaf_substrate_d13c(&self) -> Option<f64> {
+        let pools = self.model.network().pools();
+        let i = (0..pools.len()).max_by(|&a, &b| {
+            pools[a]
+                .assimilation_share
+                .total_cmp(&pools[b].assimilation_share)
+        })?;
+        self.state.pool_d13c_permil(i, self.r_standard)
     }
 
     fn end_of_day(&mut self, sink: &mut dyn StepSink, date: Option<LocalDate>) -> Result<()> {
@@ -527,6 +600,36 @@ impl Pools {
             .collect();
         sink.pools_daily(date, &c, &d)
     }
+}
+
+/// Mean over the first year of the responsive pools' turnover multiplier f(T)·g(β), with soil
+/// temperature and moisture as the run will see them (the running mean of air temperature started
+/// at the year's mean, held with β from each day's first step): the pools' steady state at the
+/// mean of the rates, not at the rate of the mean temperature, is what a repeating year keeps.
+fn mean_turnover_factor(
+    model: &PoolModel,
+    first_year: &[(ForcingStep, Option<SiteDrivers>, Option<SiteStep>)],
+    t_start_c: f64,
+    step_days: f64,
+) -> Result<f64> {
+    let response = model.settings().response();
+    let (mut t_soil, mut held, mut sum, mut n) = (t_start_c, None, 0.0, 0usize);
+    for (f, d, s) in first_year {
+        let (Some(d), Some(s)) = (d, s) else { continue };
+        t_soil = running_mean_step(t_soil, d.t_air_c, step_days, SOIL_TEMPERATURE_LAG_DAYS)
+            .clamp(T_SOIL_RANGE_C.0, T_SOIL_RANGE_C.1);
+        let factor = match held {
+            Some((day, factor)) if day == f.time.date() => factor,
+            _ => {
+                let factor = response.factor(t_soil, s.beta)?;
+                held = Some((f.time.date(), factor));
+                factor
+            }
+        };
+        sum += factor;
+        n += 1;
+    }
+    Ok(sum / n.max(1) as f64)
 }
 
 /// The lag (days) at which daily δR correlates best with the daily δ13C of the assimilate of
@@ -597,6 +700,7 @@ struct Sums {
     reco: f64,
     ra: f64,
     rh: f64,
+    export: f64,
     w_d13c_reco: f64,
     w_d13c_ra: f64,
     w_d13c_rh: f64,
@@ -635,6 +739,7 @@ impl Sums {
             self.ra,
             self.rh,
             self.reco - self.gpp,
+            self.export,
             d13c_r,
             ratio(self.w_d13c_ra, self.ra),
             ratio(self.w_d13c_rh, self.rh),
@@ -730,6 +835,7 @@ impl Aggregator {
             sums.reco += reco;
             sums.ra += ra;
             sums.rh += rh;
+            sums.export += r.export_umol_m2_s * to_gc;
             if reco > 0.0 {
                 sums.w_d13c_reco += reco * r.d13c_reco;
             }

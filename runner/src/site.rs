@@ -11,7 +11,9 @@ use isodisc_model::canopy::assimilation::CanopySettings;
 use isodisc_model::canopy::radiation::TwoLeafCanopy;
 use isodisc_model::canopy::solar::Location;
 use isodisc_model::error::closest_name;
-use isodisc_model::leaf::{BetaTarget, C3Form, ElectronLimit, LeafModel, LeafOptions, Pathway};
+use isodisc_model::leaf::{
+    BetaTarget, C3Form, ElectronLimit, LeafModel, LeafOptions, Pathway, TemperatureSet,
+};
 use isodisc_model::phenology::{PhenologyKind, PhenologySettings};
 use isodisc_model::pools::{AtmosphereHistory, PoolsConfig};
 use isodisc_model::site::{SiteSettings, SoilWater, Vegetation};
@@ -200,6 +202,9 @@ pub struct VegetationBlock {
     /// C3 electron-transport limit: "nadph" (default) or "atp".
     #[serde(default)]
     pub electron_limit: Option<String>,
+    /// C3 temperature responses of Vcmax and Jmax: "acclimated" (default) or "fixed".
+    #[serde(default)]
+    pub temperature_set: Option<String>,
     /// Extinction of leaf capacity with canopy depth (per unit LAI). Default 0.3.
     #[serde(default)]
     pub kn: Option<f64>,
@@ -509,6 +514,21 @@ impl Site {
                     ));
                 }
             };
+            let temperature_set = match b.temperature_set.as_deref() {
+                None => TemperatureSet::default(),
+                Some(name) => TemperatureSet::from_name(name)
+                    .filter(|_| pathway == Pathway::C3)
+                    .ok_or_else(|| {
+                        let names: Vec<_> = TemperatureSet::NAMES.iter().map(|n| n.0).collect();
+                        err(
+                            line_of_key(&text, &section, "temperature_set"),
+                            format!(
+                                "[{section}] temperature_set = \"{name}\": use \"{}\" (C3 only)",
+                                names.join("\" or \"")
+                            ),
+                        )
+                    })?,
+            };
             let beta_target = match file.soil.beta_target.as_deref() {
                 None | Some("g1") => BetaTarget::G1,
                 Some("capacity") => BetaTarget::Capacity,
@@ -615,6 +635,7 @@ impl Site {
                     electron_limit,
                     beta_target,
                     c3_form,
+                    temperature_set,
                 },
                 canopy,
                 cover: b.cover,

@@ -7,7 +7,9 @@
 //! it. Leaf temperature is the air temperature (no energy balance).
 //!
 //! Flux weighting: the canopy Δ is Σ Aᵢ·Δᵢ / Σ Aᵢ over the classes with net assimilation Aᵢ > 0 —
-//! never an unweighted mean.
+//! never an unweighted mean. A class that fixes no carbon (A ≤ 0: in the dark, below its light
+//! compensation point, or with stomata shut because its stomatal ci lies below its CO2
+//! compensation point) books neither GPP nor weight for Δ.
 
 use crate::canopy::radiation::{TwoLeafCanopy, TwoLeafLight};
 use crate::error::{Result, check_range};
@@ -148,7 +150,7 @@ pub fn canopy_step(
         out.a_net_umol_m2_s += lai * s.a_net;
         out.rd_umol_m2_s += lai * s.rd;
         out.gs_canopy_mol_m2_s += lai * s.g_s;
-        if s.a_net > 0.0 {
+        if s.a_net > 0.0 && s.discrimination.is_finite() {
             out.gpp_umol_m2_s += lai * (s.a_net + s.rd);
             let w = lai * s.a_net;
             w_sum += w;

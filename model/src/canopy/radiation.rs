@@ -9,7 +9,9 @@
 //! ρcd = 0.036 of the diffuse light. Sunlit leaves at cumulative leaf area l are the fraction
 //! Ω·e^{−Ω·kb·l} (Ω the clumping index; Ω = 1 is de Pury & Farquhar's random canopy), so the
 //! sunlit leaf area is (1 − e^{−Ω·kb·L})/kb. Clumping multiplies every extinction coefficient by
-//! Ω, a common extension of their model (e.g. the Community Land Model; from memory).
+//! Ω: the gap fraction of a clumped canopy is e^{−Ω·G·L/cos Z} (Nilson 1971, Agric. Meteorol. 8:
+//! 25–38; Chen et al. 1997, J. Geophys. Res. 102: 29429–29443; both from memory), applied here to
+//! de Pury & Farquhar's extinction coefficients.
 
 use crate::error::{Result, check_input, check_range};
 

@@ -1,19 +1,25 @@
 //! C3 photosynthesis after Farquhar, von Caemmerer & Berry (1980, Planta).
 //!
-//! Gross carboxylation is the hard minimum of the Rubisco-limited rate
-//! Wc = Vcmax(cc − Γ*)/(cc + Kc(1 + O/Ko)), the electron-transport-limited rate
-//! Wj = J(cc − Γ*)/(4cc + 8Γ*) (NADPH-limited; the ATP-limited 4.5/10.5 form is an option) and, when
-//! set, the triose-phosphate-limited rate Wp = 3·TPU; A = min(Wc, Wj, Wp) − Rd.
+//! Rubisco carboxylates at the smaller of two rates, vc = Vcmax·cc/(cc + Kc(1 + O/Ko)) and
+//! vj = J·cc/(4cc + 8Γ*) (NADPH-limited; the ATP-limited 4.5/10.5 form is an option), and for every
+//! carboxylation 0.5 oxygenations release CO2, so net assimilation is
+//! A = (1 − Γ*/cc)·min(vc, vj) − Rd. Above Γ* this is the usual min(Wc, Wj) − Rd with
+//! Wc = Vcmax(cc − Γ*)/(cc + Kc(1 + O/Ko)) and Wj = J(cc − Γ*)/(4cc + 8Γ*); below Γ* the factor is
+//! negative and the minimum must be taken of the carboxylation rates, not of the net rates (more
+//! light there means more photorespiratory release, never an unbounded one). When set, the
+//! triose-phosphate limit Wp = 3·TPU caps gross assimilation above Γ*.
 //! J is the smaller root of θJ² − (αI + Jmax)J + αI·Jmax = 0, with α applied to incident PPFD.
-//! Kc, Ko, Γ* and Rd follow Arrhenius functions with the Bernacchi et al. (2001) constants; Vcmax
-//! and Jmax follow peaked Arrhenius functions (Medlyn et al. 2002).
+//! Kc, Ko, Γ* and Rd follow Arrhenius functions (Bernacchi et al. 2001 or 2002 constants, see
+//! [`C3Params::kinetics_25`]); Vcmax, Jmax and gm follow peaked Arrhenius functions (Medlyn et al.
+//! 2002 form; acclimated constants of Kattge & Knorr 2007, gm of Bernacchi et al. 2002).
 //!
-//! The kinetic constants are given as mole fractions at 101.325 kPa. Rubisco sees partial pressures,
-//! so at another pressure P they are scaled by 101.325/P (the same partial pressure is a larger mole
-//! fraction at altitude).
+//! Pressure and O2: the constants are given as mole fractions at 101.325 kPa and 210 mmol mol⁻¹ O2.
+//! Kc and Ko are partial-pressure constants, so as mole fractions at pressure P they scale with
+//! 101.325/P. Γ* = 0.5·O/S(c/o) is proportional to the O2 partial pressure, so as a mole fraction it
+//! does not depend on P and scales with O2/210 mmol mol⁻¹ (von Caemmerer 2000).
 
 use super::params::C3Params;
-use super::{ElectronLimit, Limitation};
+use super::{ElectronLimit, LeafConditions, LeafOptions, Limitation};
 use crate::numerics::smaller_root;
 use crate::temperature::{arrhenius_factor, peaked_arrhenius_factor};
 
@@ -45,44 +51,61 @@ pub(crate) struct Rate {
 pub(crate) struct C3Kinetics {
     pub gamma_star: f64,
     pub rd: f64,
+    /// Mesophyll conductance at leaf temperature (mol m⁻² s⁻¹; infinite: cc = ci).
+    pub gm: f64,
     pub rates: [Rate; 3],
     pub n_rates: usize,
+}
+
+/// O2 (mmol mol⁻¹) at which Γ*25 is given.
+pub const REFERENCE_O2_MMOL_MOL: f64 = 210.0;
+
+/// Γ* (µmol mol⁻¹) at leaf temperature `t_leaf_c` (°C) and O2 `o2_mmol_mol`, from its value at
+/// 25 °C and 210 mmol mol⁻¹ and its activation energy (J mol⁻¹). Independent of air pressure.
+pub fn gamma_star_at(gamma_star25: f64, ea_j_mol: f64, t_leaf_c: f64, o2_mmol_mol: f64) -> f64 {
+    gamma_star25 * arrhenius_factor(ea_j_mol, t_leaf_c) * o2_mmol_mol / REFERENCE_O2_MMOL_MOL
+}
+
+/// Kc (µmol mol⁻¹) or Ko (mmol mol⁻¹) as a mole fraction at `pressure_kpa`, from its value at 25 °C
+/// and 101.325 kPa and its activation energy (J mol⁻¹).
+pub fn michaelis_at(k25: f64, ea_j_mol: f64, t_leaf_c: f64, pressure_kpa: f64) -> f64 {
+    k25 * arrhenius_factor(ea_j_mol, t_leaf_c) * STANDARD_PRESSURE_KPA / pressure_kpa
 }
 
 impl C3Kinetics {
     pub fn new(
         p: &C3Params,
-        t_leaf_c: f64,
-        ppfd: f64,
-        pressure_kpa: f64,
-        o2_mmol_mol: f64,
+        options: &LeafOptions,
+        c: &LeafConditions,
         capacity_scale: f64,
-        electron: ElectronLimit,
     ) -> Self {
-        let pscale = STANDARD_PRESSURE_KPA / pressure_kpa;
-        let kc = p.kc25() * arrhenius_factor(p.ea_kc(), t_leaf_c) * pscale;
-        let ko = p.ko25() * arrhenius_factor(p.ea_ko(), t_leaf_c) * pscale;
-        let gamma_star = p.gamma_star25() * arrhenius_factor(p.ea_gamma_star(), t_leaf_c) * pscale;
+        let t = c.t_leaf_c;
+        let ppfd = c.ppfd_umol_m2_s;
+        let k25 = p.kinetics_25();
+        let kc = michaelis_at(k25.kc25, k25.ea_kc, t, c.pressure_kpa);
+        let ko = michaelis_at(k25.ko25, k25.ea_ko, t, c.pressure_kpa);
+        let gamma_star = gamma_star_at(k25.gamma_star25, k25.ea_gamma_star, t, c.o2_mmol_mol);
         let light_factor = if ppfd > 10.0 {
             p.rd_light_factor()
         } else {
             1.0
         };
-        let rd = p.rd25() * arrhenius_factor(p.ea_rd(), t_leaf_c) * light_factor;
-        let vcmax = capacity_scale
-            * p.vcmax25()
-            * peaked_arrhenius_factor(p.ha_vcmax(), p.hd_vcmax(), p.ds_vcmax(), t_leaf_c);
+        let rd = p.rd25() * arrhenius_factor(p.ea_rd(), t) * light_factor;
+        let set = options.temperature_set;
+        let vcmax_response = p.vcmax_response(set, c.t_growth_c);
+        let vcmax = capacity_scale * p.vcmax25() * vcmax_response.factor(t);
         let jmax = capacity_scale
-            * p.jmax25()
-            * peaked_arrhenius_factor(p.ha_jmax(), p.hd_jmax(), p.ds_jmax(), t_leaf_c);
+            * p.jmax25_for(set, c.t_growth_c)
+            * p.jmax_response(set, c.t_growth_c).factor(t);
+        let gm = p.gm() * peaked_arrhenius_factor(p.ha_gm(), p.hd_gm(), p.ds_gm(), t);
         let j = electron_transport(ppfd, jmax, p.alpha(), p.theta());
-        let (jdiv, kj) = match electron {
+        let (jdiv, kj) = match options.electron_limit {
             ElectronLimit::Nadph => (4.0, 2.0),
             ElectronLimit::Atp => (4.5, 10.5 / 4.5),
         };
         let wc = Rate {
             v: vcmax,
-            k: kc * (1.0 + o2_mmol_mol / ko),
+            k: kc * (1.0 + c.o2_mmol_mol / ko),
             constant: false,
             limitation: Limitation::Rubisco,
         };
@@ -100,9 +123,7 @@ impl C3Kinetics {
         let mut n_rates = 2;
         if p.tpu25().is_finite() {
             // TPU follows Vcmax's temperature response (common practice, from memory).
-            let tpu = capacity_scale
-                * p.tpu25()
-                * peaked_arrhenius_factor(p.ha_vcmax(), p.hd_vcmax(), p.ds_vcmax(), t_leaf_c);
+            let tpu = capacity_scale * p.tpu25() * vcmax_response.factor(t);
             rates[2] = Rate {
                 v: 3.0 * tpu,
                 k: 0.0,
@@ -114,39 +135,54 @@ impl C3Kinetics {
         Self {
             gamma_star,
             rd,
+            gm,
             rates,
             n_rates,
         }
     }
 
+    /// Net assimilation (µmol m⁻² s⁻¹) if rate `r` limits, at intercellular CO2 `ci`.
+    fn net_rate(&self, r: &Rate, ci: f64) -> f64 {
+        if r.constant {
+            r.v - self.rd
+        } else if self.gm.is_infinite() {
+            r.v * (ci - self.gamma_star) / (ci + r.k) - self.rd
+        } else {
+            // (A + Rd)(cc + k) = v(cc − Γ*) with cc = ci − A/gm: a quadratic in A,
+            // A² − A(gm(ci + k) − Rd + v) + gm(v(ci − Γ*) − Rd(ci + k)) = 0, smaller root.
+            let gm = self.gm;
+            smaller_root(
+                1.0,
+                -(gm * (ci + r.k) - self.rd + r.v),
+                gm * (r.v * (ci - self.gamma_star) - self.rd * (ci + r.k)),
+            )
+        }
+    }
+
     /// Net assimilation (µmol m⁻² s⁻¹), cc (µmol mol⁻¹) and the limiting rate at intercellular CO2
-    /// `ci`, with mesophyll conductance `gm` (mol m⁻² s⁻¹; infinite: cc = ci).
-    pub fn demand(&self, ci: f64, gm: f64) -> (f64, f64, Limitation) {
-        let mut best = (f64::INFINITY, ci, Limitation::Rubisco);
-        for r in &self.rates[..self.n_rates] {
-            let a = if r.constant {
-                r.v - self.rd
-            } else if gm.is_infinite() {
-                r.v * (ci - self.gamma_star) / (ci + r.k) - self.rd
-            } else {
-                // (A + Rd)(cc + k) = v(cc − Γ*) with cc = ci − A/gm: a quadratic in A,
-                // A² − A(gm(ci + k) − Rd + v) + gm(v(ci − Γ*) − Rd(ci + k)) = 0, smaller root.
-                smaller_root(
-                    1.0,
-                    -(gm * (ci + r.k) - self.rd + r.v),
-                    gm * (r.v * (ci - self.gamma_star) - self.rd * (ci + r.k)),
-                )
-            };
-            if a < best.0 {
-                best = (a, ci, r.limitation);
+    /// `ci` (µmol mol⁻¹).
+    pub fn demand(&self, ci: f64) -> (f64, f64, Limitation) {
+        // Every rate's net curve passes through (cc = Γ*, A = −Rd), so all rates agree on the side
+        // of Γ* on which cc lies; the Rubisco rate tells which.
+        let a_rubisco = self.net_rate(&self.rates[0], ci);
+        let below = a_rubisco + self.rd < 0.0;
+        let mut best = (a_rubisco, self.rates[0].limitation);
+        for r in &self.rates[1..self.n_rates] {
+            if below && r.constant {
+                continue; // TPU caps gross assimilation, of which there is none below Γ*.
+            }
+            let a = self.net_rate(r, ci);
+            // Below Γ*, (1 − Γ*/cc) < 0: the smaller carboxylation rate gives the larger A.
+            if (below && a > best.0) || (!below && a < best.0) {
+                best = (a, r.limitation);
             }
         }
-        let cc = if gm.is_infinite() {
+        let cc = if self.gm.is_infinite() {
             ci
         } else {
-            ci - best.0 / gm
+            ci - best.0 / self.gm
         };
-        (best.0, cc, best.2)
+        (best.0, cc, best.1)
     }
 }
 

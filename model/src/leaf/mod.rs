@@ -1,6 +1,7 @@
 //! Leaf gas exchange and 13C discrimination: one leaf, one set of conditions.
 //!
-//! - [`c3`]: Farquhar–von Caemmerer–Berry (1980) photosynthesis with Bernacchi et al. (2001) kinetics;
+//! - [`c3`]: Farquhar–von Caemmerer–Berry (1980) photosynthesis with Bernacchi et al. kinetics and a
+//!   finite, temperature-dependent mesophyll conductance;
 //! - [`c4`]: Collatz, Ribas-Carbo & Berry (1992) photosynthesis;
 //! - [`stomata`]: Medlyn et al. (2011) stomatal conductance;
 //! - [`params`]: the validated parameter sets;
@@ -18,12 +19,12 @@ pub mod stomata;
 use std::fmt;
 
 use crate::discrimination::{
-    C3Fractionations, C3Gradient, C4Fractionations, c3_comprehensive_permil, c3_simple_permil,
-    c4_permil,
+    C3Fractionations, C3Gradient, C4Fractionations, c3_comprehensive_apparent_e_permil,
+    c3_comprehensive_permil, c3_simple_permil, c4_permil,
 };
 use crate::error::{Result, check_input};
 use crate::isotopes::product_delta_permil;
-pub use params::{C3Params, C4Params, ParamSpec};
+pub use params::{C3Params, C4Params, Kinetics25, ParamSpec, PeakedResponse};
 use stomata::Medlyn;
 
 /// Photosynthetic pathway.
@@ -123,6 +124,41 @@ pub enum C3Form {
     Comprehensive,
 }
 
+/// The temperature responses of C3 Vcmax and Jmax.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum TemperatureSet {
+    /// Acclimated to the growth temperature (Kattge & Knorr 2007): the default.
+    #[default]
+    Acclimated,
+    /// One set for every leaf: Bernacchi et al. (2001) Ha of Vcmax, Medlyn et al. (2002) Ha of
+    /// Jmax, Hd 200 kJ mol⁻¹, ΔS 650 J mol⁻¹ K⁻¹, Jmax25 = 1.67·Vcmax25.
+    Fixed,
+}
+
+impl TemperatureSet {
+    /// Every set with its name, as the command line and site files spell it.
+    pub const NAMES: &'static [(&'static str, TemperatureSet)] = &[
+        ("acclimated", TemperatureSet::Acclimated),
+        ("fixed", TemperatureSet::Fixed),
+    ];
+
+    /// The set's name.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            TemperatureSet::Acclimated => "acclimated",
+            TemperatureSet::Fixed => "fixed",
+        }
+    }
+
+    /// The set called `name`, if any.
+    pub fn from_name(name: &str) -> Option<Self> {
+        Self::NAMES
+            .iter()
+            .find(|(n, _)| *n == name)
+            .map(|(_, s)| *s)
+    }
+}
+
 /// Settings of the leaf model that are choices rather than numbers.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub struct LeafOptions {
@@ -132,6 +168,8 @@ pub struct LeafOptions {
     pub beta_target: BetaTarget,
     /// C3 discrimination form.
     pub c3_form: C3Form,
+    /// C3 temperature responses of Vcmax and Jmax.
+    pub temperature_set: TemperatureSet,
 }
 
 /// The environment of one leaf.
@@ -153,6 +191,13 @@ pub struct LeafConditions {
     pub d13c_air_permil: f64,
     /// Soil-water factor β (0–1; 1 = no stress).
     pub soil_beta: f64,
+    /// Growth temperature (°C), −70 to 60: the mean air temperature of the preceding 30 days, for
+    /// the acclimated temperature set.
+    pub t_growth_c: f64,
+    /// δ13C of the substrate of day respiration (‰ vs VPDB), if known: the C3 respiration term then
+    /// uses the apparent e′ = e + δ(assimilate) − δ(substrate) (Wingate et al. 2007; Tcherkez et al.
+    /// 2011; from memory). None: the substrate is the current assimilate (e′ = e).
+    pub d13c_substrate_permil: Option<f64>,
 }
 
 impl Default for LeafConditions {
@@ -166,6 +211,8 @@ impl Default for LeafConditions {
             o2_mmol_mol: 210.0,
             d13c_air_permil: -8.5,
             soil_beta: 1.0,
+            t_growth_c: 25.0,
+            d13c_substrate_permil: None,
         }
     }
 }
@@ -181,6 +228,7 @@ impl LeafConditions {
         ("o2", "mmol mol-1", 0.0, 1000.0),
         ("d13c_air", "permil", -50.0, 50.0),
         ("soil_beta", "-", 0.0, 1.0),
+        ("t_growth", "degC", -70.0, 60.0),
     ];
 
     /// Checks every condition against [`Self::RANGES`]; the error names the condition.
@@ -194,9 +242,13 @@ impl LeafConditions {
             self.o2_mmol_mol,
             self.d13c_air_permil,
             self.soil_beta,
+            self.t_growth_c,
         ];
         for ((name, _, min, max), v) in Self::RANGES.iter().zip(values) {
             check_input(name, v, *min, *max)?;
+        }
+        if let Some(d) = self.d13c_substrate_permil {
+            check_input("d13c_substrate", d, -100.0, 50.0)?;
         }
         Ok(())
     }
@@ -240,26 +292,17 @@ fn g1_and_capacity(g1: f64, beta: f64, target: BetaTarget) -> (f64, f64) {
 pub fn solve_c3(p: &C3Params, options: &LeafOptions, c: &LeafConditions) -> Result<LeafState> {
     c.validate()?;
     let (g1, capacity) = g1_and_capacity(p.g1(), c.soil_beta, options.beta_target);
-    let kin = c3::C3Kinetics::new(
-        p,
-        c.t_leaf_c,
-        c.ppfd_umol_m2_s,
-        c.pressure_kpa,
-        c.o2_mmol_mol,
-        capacity,
-        options.electron_limit,
-    );
+    let kin = c3::C3Kinetics::new(p, options, c, capacity);
     let stomata = Medlyn::new(p.g0(), g1, c.vpd_kpa);
-    let gm = p.gm();
-    let s = solve::solve(|ci| kin.demand(ci, gm), &stomata, c.ca_umol_mol, p.gb())?;
+    let s = solve::solve(|ci| kin.demand(ci), &stomata, c.ca_umol_mol, p.gb())?;
     let ca = c.ca_umol_mol;
     let discrimination = if s.a_net <= 0.0 {
         f64::NAN
     } else {
         match options.c3_form {
             C3Form::Simple => c3_simple_permil(s.ci / ca, p.a(), p.b_for(false)),
-            C3Form::Comprehensive => c3_comprehensive_permil(
-                &C3Gradient {
+            C3Form::Comprehensive => {
+                let g = C3Gradient {
                     ca,
                     cs: s.cs,
                     ci: s.ci,
@@ -267,8 +310,8 @@ pub fn solve_c3(p: &C3Params, options: &LeafOptions, c: &LeafConditions) -> Resu
                     a_net: s.a_net,
                     rd: kin.rd,
                     gamma_star: kin.gamma_star,
-                },
-                &C3Fractionations {
+                };
+                let fr = C3Fractionations {
                     ab: p.ab(),
                     a: p.a(),
                     es: p.es(),
@@ -276,8 +319,14 @@ pub fn solve_c3(p: &C3Params, options: &LeafOptions, c: &LeafConditions) -> Resu
                     b: p.b_for(true),
                     e: p.e(),
                     f: p.f(),
-                },
-            ),
+                };
+                match c.d13c_substrate_permil {
+                    Some(sub) => {
+                        c3_comprehensive_apparent_e_permil(&g, &fr, c.d13c_air_permil, sub)
+                    }
+                    None => c3_comprehensive_permil(&g, &fr),
+                }
+            }
         }
     };
     Ok(finish(s, kin.rd, ca, c.d13c_air_permil, discrimination))
@@ -366,6 +415,15 @@ impl LeafModel {
         match self {
             LeafModel::C3(p) => p.set(name, value),
             LeafModel::C4(p) => p.set(name, value),
+        }
+    }
+
+    /// A parameter's value in use under `options` and growth temperature `t_growth_c` (°C): the
+    /// set value or its resolved "auto" default (see [`C3Params::in_use`]).
+    pub fn in_use(&self, name: &str, options: &LeafOptions, t_growth_c: f64) -> Option<f64> {
+        match self {
+            LeafModel::C3(p) => p.in_use(name, options, t_growth_c),
+            LeafModel::C4(p) => p.get(name),
         }
     }
 

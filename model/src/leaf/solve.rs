@@ -7,6 +7,8 @@
 //! r ≥ A > 0 at ci = ca when the leaf can fix carbon, so the bracket always holds and the search
 //! cannot diverge. A leaf that cannot fix carbon even at ci = ca respires through g0: the bracket
 //! then lies above ca and is widened until it holds; with g0 = 0 its stomata are shut and ci = ca.
+//! A leaf with g0 = 0 whose stomatal ci lies below its compensation point fixes no carbon: A = 0,
+//! gs = 0, ci at the compensation point.
 
 use super::Limitation;
 use super::stomata::{GB_H2O_PER_CO2, GS_H2O_PER_CO2, Medlyn};
@@ -26,6 +28,10 @@ pub(crate) struct Coupled {
 
 /// Tolerance on ci (µmol mol⁻¹) of the root search.
 const CI_TOL: f64 = 1e-9;
+
+/// Distance (µmol mol⁻¹) above the stomatal ci at which a root is taken to be the compensation
+/// point instead (far above the root search's tolerance, far below any real drawdown).
+const COMPENSATION_TOL: f64 = 1e-6;
 
 pub(crate) fn solve(
     demand: impl Fn(f64) -> (f64, f64, Limitation),
@@ -92,5 +98,19 @@ pub(crate) fn solve(
     let ci = brent(|x| state(x).0, lo, hi, rl, rh, CI_TOL, 200).ok_or_else(|| {
         ModelError::Numerical(format!("leaf CO2 root search failed at ca = {ca}"))
     })?;
-    Ok(state(ci).1)
+    let found = state(ci).1;
+    // Without g0, r(ci) = A·(1 − slope·(cs − ci)/cs) has two roots: the stomatal one,
+    // ci = cs(1 − 1/slope), and A = 0 at the compensation point. When the stomatal ci lies below
+    // the compensation point only the second is left: stomata are shut, the leaf fixes nothing
+    // and sits at its compensation point with A = 0 (never a vanishing "positive" A with a Δ).
+    if stomata.g0 <= 0.0 && found.ci - found.cs * (1.0 - 1.0 / stomata.slope) > COMPENSATION_TOL {
+        return Ok(Coupled {
+            a_net: 0.0,
+            gs: 0.0,
+            cs: ca,
+            cc: found.ci,
+            ..found
+        });
+    }
+    Ok(found)
 }

@@ -115,7 +115,8 @@ pub struct PoolEntry {
     pub respired_fraction: f64,
     /// `"autotrophic"` or `"heterotrophic"`.
     pub kind: PoolKind,
-    /// Fractions of the non-respired outflow by target pool; default none (all exported).
+    /// Fractions of the non-respired outflow by target pool, or out of the system by the target
+    /// `export`; unless `respired_fraction` is 1 they sum to 1. Default none.
     #[serde(default)]
     pub transfers: BTreeMap<String, f64>,
     /// Share of assimilation, [0, 1]; default 0.

@@ -45,17 +45,24 @@ impl PoolModel {
     /// Pool sizes, δ and mean ages at the steady state of constant `forcing`, whose assimilation
     /// must be positive (gC m⁻² day⁻¹).
     pub fn steady_state_report(&self, forcing: &Forcing) -> Result<SteadyStateReport> {
+        self.steady_state_report_at(forcing, None)
+    }
+
+    /// [`PoolModel::steady_state_report`] with the turnover multiplier `turnover_factor`
+    /// (dimensionless) when given; see [`PoolModel::steady_state_at`].
+    pub fn steady_state_report_at(
+        &self,
+        forcing: &Forcing,
+        turnover_factor: Option<f64>,
+    ) -> Result<SteadyStateReport> {
         check_input(
             "assimilation_gc_m2_day",
             forcing.assimilation_gc_m2_day,
             f64::MIN_POSITIVE,
             f64::MAX,
         )?;
-        let state = self.steady_state(forcing)?;
-        let env = self
-            .settings()
-            .response()
-            .factor(forcing.t_soil_c, forcing.moisture)?;
+        let state = self.steady_state_at(forcing, turnover_factor)?;
+        let env = self.turnover_factor(forcing, turnover_factor)?;
         let n = self.network().len();
         let x = state.c12_g_m2();
         let (mut mat, _) = self.pool_block(env, false);

@@ -260,17 +260,37 @@ impl PoolModel {
         forcing: &Forcing,
         step_days: f64,
     ) -> Result<StepResult> {
-        self.step_with(self.settings.method, state, forcing, step_days)
+        self.step_with(self.settings.method, state, forcing, step_days, None)
     }
 
-    /// [`PoolModel::step`] with the exact method whatever the settings (for spin-up).
+    /// [`PoolModel::step`] with the exact method whatever the settings (for spin-up), and with
+    /// the turnover multiplier `turnover_factor` instead of the one at the forcing's soil
+    /// temperature and moisture when it is given.
     pub(crate) fn step_exactly(
         &mut self,
         state: &mut PoolState,
         forcing: &Forcing,
         step_days: f64,
+        turnover_factor: Option<f64>,
     ) -> Result<StepResult> {
-        self.step_with(Method::Exact, state, forcing, step_days)
+        self.step_with(Method::Exact, state, forcing, step_days, turnover_factor)
+    }
+
+    /// The multiplier of the responsive pools' turnover rates: `turnover_factor` when given
+    /// (checked: finite, in (0, 1e3]), else the response at the forcing's soil temperature and
+    /// moisture.
+    pub(crate) fn turnover_factor(
+        &self,
+        forcing: &Forcing,
+        turnover_factor: Option<f64>,
+    ) -> Result<f64> {
+        match turnover_factor {
+            Some(f) => check_input("turnover_factor", f, f64::MIN_POSITIVE, 1e3),
+            None => self
+                .settings
+                .response
+                .factor(forcing.t_soil_c, forcing.moisture),
+        }
     }
 
     fn step_with(
@@ -279,14 +299,12 @@ impl PoolModel {
         state: &mut PoolState,
         forcing: &Forcing,
         step_days: f64,
+        turnover_factor: Option<f64>,
     ) -> Result<StepResult> {
         self.check_state(state)?;
         let h = check_input("step_days", step_days, f64::MIN_POSITIVE, MAX_STEP_DAYS)?;
         let (in12, in13) = forcing.isotope_inputs(self.settings.r_standard)?;
-        let env = self
-            .settings
-            .response
-            .factor(forcing.t_soil_c, forcing.moisture)?;
+        let env = self.turnover_factor(forcing, turnover_factor)?;
         let (acc12, acc13) = match method {
             Method::Exact => self.step_exact(state, in12, in13, env, h)?,
             Method::Dopri5 { rtol, atol } => {
@@ -404,11 +422,24 @@ impl PoolModel {
     /// Steady state under constant `forcing` (step length plays no part): solves M·y = −s·A for
     /// each isotope directly.
     pub fn steady_state(&self, forcing: &Forcing) -> Result<PoolState> {
+        self.steady_state_at(forcing, None)
+    }
+
+    /// Steady state under constant assimilation, with the responsive pools' turnover multiplied
+    /// by `turnover_factor` (dimensionless, in (0, 1e3]) when given, instead of the response at
+    /// the forcing's soil temperature and moisture. For a year of changing weather, the steady
+    /// state of the year's mean factor — the mean of f(T)·g(θ) over the year, not f at the mean
+    /// T — is the state a repeating year returns to, up to the covariance of input and turnover
+    /// within the year (the pools' carbon balance is linear in the rates: dC/dt = I − k·f(t)·C,
+    /// whose yearly mean vanishes for a C that hardly moves within the year when
+    /// C = Ī/(k·f̄); common practice, derivation here).
+    pub fn steady_state_at(
+        &self,
+        forcing: &Forcing,
+        turnover_factor: Option<f64>,
+    ) -> Result<PoolState> {
         let (in12, in13) = forcing.isotope_inputs(self.settings.r_standard)?;
-        let env = self
-            .settings
-            .response
-            .factor(forcing.t_soil_c, forcing.moisture)?;
+        let env = self.turnover_factor(forcing, turnover_factor)?;
         let c12 = self.solve_pools(env, false, in12)?;
         let c13 = self.solve_pools(env, true, in13)?;
         Ok(PoolState { c12, c13 })

@@ -28,7 +28,7 @@ pub mod state;
 pub use config::{MethodName, PoolEntry, PoolsConfig, TemperatureResponseName};
 pub use diagnostics::{PoolReport, SteadyStateReport};
 pub use integrate::{Method, PoolModel, PoolSettings};
-pub use network::{PoolKind, PoolNetwork, PoolSpec};
+pub use network::{EXPORT, PoolKind, PoolNetwork, PoolSpec};
 pub use response::{EnvironmentResponse, TemperatureResponse};
 pub use spinup::{AtmosphereHistory, AtmosphereRow, MeanDrivers};
 pub use state::{Flux, Forcing, PoolState, R_VPDB_DEFAULT, StepResult};

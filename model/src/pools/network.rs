@@ -3,8 +3,10 @@
 //!
 //! The network is a linear donor-controlled compartment model: each pool loses carbon at
 //! k = 1/τ times its content; a fraction of that outflow is respired, the rest is passed on to
-//! other pools by fixed fractions, and whatever the transfer fractions leave over is exported
-//! (it leaves the system without being respired, e.g. harvest or leaching).
+//! other pools by fixed fractions or exported (it leaves the system without being respired, e.g.
+//! harvest or leaching) by an explicit fraction named [`EXPORT`]. The respired fraction, the
+//! transfers and the export of a pool must account for all its outflow: carbon that would leave by
+//! no named path is an error, not a silent loss.
 
 use std::collections::HashSet;
 
@@ -17,6 +19,13 @@ pub const DAYS_PER_YEAR: f64 = 365.25;
 
 /// Largest allowed turnover time, days (about 2700 years).
 pub const MAX_TURNOVER_DAYS: f64 = 1e6;
+
+/// The reserved transfer target that sends carbon out of the system without respiration
+/// (`transfers = { soil = 0.3, export = 0.7 }`); no pool may take this name.
+pub const EXPORT: &str = "export";
+
+/// Tolerance on the sum of a pool's transfer and export fractions (round-off of decimal input).
+pub const FRACTION_SUM_TOL: f64 = 1e-9;
 
 /// Largest allowed |ε| of a post-photosynthetic fractionation, ‰.
 pub const MAX_ABS_EPSILON_PERMIL: f64 = 100.0;
@@ -43,8 +52,9 @@ pub struct PoolSpec {
     pub respired_fraction: f64,
     /// Whether the respired flux is autotrophic or heterotrophic.
     pub kind: PoolKind,
-    /// Fractions of the non-respired outflow sent to other pools, by target name; each in [0, 1],
-    /// summing to at most 1. The remainder is exported from the system.
+    /// Fractions of the non-respired outflow sent to other pools, by target name, or out of the
+    /// system by the target [`EXPORT`]; each in [0, 1]. Unless the pool respires all its outflow
+    /// they sum to 1 (±[`FRACTION_SUM_TOL`]).
     pub transfers: Vec<(String, f64)>,
     /// Share of assimilation that enters this pool, in [0, 1]; the shares of all pools sum to 1.
     pub assimilation_share: f64,
@@ -73,7 +83,8 @@ impl PoolSpec {
         }
     }
 
-    /// Adds a transfer of `fraction` (of the non-respired outflow, in [0, 1]) to pool `target`.
+    /// Adds a transfer of `fraction` (of the non-respired outflow, in [0, 1]) to pool `target`
+    /// (or out of the system when `target` is [`EXPORT`]).
     pub fn transfer_to(mut self, target: &str, fraction: f64) -> Self {
         self.transfers.push((target.to_string(), fraction));
         self
@@ -108,8 +119,10 @@ pub const DEFAULT_CUE: f64 = 0.5;
 impl PoolNetwork {
     /// Validates the pools and builds the network.
     ///
-    /// Rejected, with the pool (and target) named: empty list, duplicate or empty names, turnover
-    /// outside (0, 1e6] days, fractions outside [0, 1], transfer fractions summing above 1,
+    /// Rejected, with the pool (and target) named: empty list, duplicate or empty names, a pool
+    /// named [`EXPORT`], turnover outside (0, 1e6] days, fractions outside [0, 1], a pool that
+    /// respires less than all its outflow and whose transfer and export fractions do not sum to 1
+    /// (carbon would vanish, or be created),
     /// transfers to the pool itself or to unknown pools, |ε| above 100‰, assimilation shares not
     /// summing to 1 (±1e-9), and networks where some carbon could never leave (a closed loop with
     /// no respiration or export), which would have no steady state.
@@ -123,6 +136,12 @@ impl PoolNetwork {
         for p in &specs {
             if p.name.trim().is_empty() {
                 return Err(ModelError::InvalidConfig("a pool has an empty name".into()));
+            }
+            if p.name == EXPORT {
+                return Err(ModelError::InvalidConfig(format!(
+                    "a pool is named `{EXPORT}`, which is reserved for the export of carbon out of \
+                     the system (`transfers = {{ {EXPORT} = ... }}`): rename the pool"
+                )));
             }
             if !seen.insert(p.name.as_str()) {
                 return Err(ModelError::InvalidConfig(format!(
@@ -174,6 +193,10 @@ impl PoolNetwork {
                         "pool `{n}` transfers to itself"
                     )));
                 }
+                sum += f;
+                if target == EXPORT {
+                    continue;
+                }
                 let j = specs
                     .iter()
                     .position(|q| &q.name == target)
@@ -187,12 +210,28 @@ impl PoolNetwork {
                         "pool `{n}` lists its transfer to `{target}` twice"
                     )));
                 }
-                sum += f;
                 links.push((i, j, *f));
             }
-            if sum > 1.0 + 1e-12 {
+            if p.transfers.iter().filter(|(t, _)| t == EXPORT).count() > 1 {
                 return Err(ModelError::InvalidConfig(format!(
-                    "pool `{n}`: transfer fractions sum to {sum}, more than 1"
+                    "pool `{n}` lists `{EXPORT}` twice"
+                )));
+            }
+            if sum > 1.0 + FRACTION_SUM_TOL {
+                return Err(ModelError::InvalidConfig(format!(
+                    "pool `{n}`: transfer and export fractions sum to {sum}, more than 1"
+                )));
+            }
+            let kept = 1.0 - p.respired_fraction;
+            if kept > 0.0 && sum < 1.0 - FRACTION_SUM_TOL {
+                return Err(ModelError::InvalidConfig(format!(
+                    "pool `{n}`: it respires {r} of its outflow and its transfer and export fractions \
+                     sum to {sum}, so {lost:.4} of the carbon leaving it would go nowhere; make the \
+                     fractions sum to 1, sending the rest out of the system explicitly with \
+                     `{EXPORT} = {rest:.4}` in its transfers if that is meant",
+                    r = p.respired_fraction,
+                    lost = kept * (1.0 - sum),
+                    rest = 1.0 - sum,
                 )));
             }
         }
@@ -295,15 +334,15 @@ impl PoolNetwork {
         &self.links
     }
 
-    /// Fraction of pool `i`'s non-respired outflow that is exported (not passed to a pool).
+    /// Fraction of pool `i`'s non-respired outflow that is exported out of the system (its
+    /// [`EXPORT`] transfer; 0 when it has none).
     pub fn export_fraction(&self, i: usize) -> f64 {
-        let sent: f64 = self
-            .links
+        self.specs[i]
+            .transfers
             .iter()
-            .filter(|&&(s, _, _)| s == i)
-            .map(|&(_, _, f)| f)
-            .sum();
-        (1.0 - sent).max(0.0)
+            .filter(|(t, _)| t == EXPORT)
+            .map(|(_, f)| f)
+            .sum()
     }
 
     /// The specs, for rebuilding a modified network.

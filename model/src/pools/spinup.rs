@@ -1,6 +1,7 @@
 //! Spin-up through an atmospheric history, so that old carbon carries the older atmosphere.
 //!
-//! The pools start at the steady state of the history's first year, with the assimilate's δ from
+//! The pools start at the steady state of the history's first year (at the mean turnover
+//! multiplier when the drivers give one), with the assimilate's δ from
 //! the atmosphere and a mean discrimination Δ̄: δp = (δa − Δ̄)/(1 + Δ̄/1000) (Farquhar, Ehleringer
 //! & Hubick 1989, Annu. Rev. Plant Physiol.). They are then stepped exactly, one year at a time
 //! (the last step shorter if needed), to the run's start year. Each step uses the history's δa
@@ -96,6 +97,10 @@ pub struct MeanDrivers {
     pub t_soil_c: f64,
     /// Mean moisture index β, dimensionless, in [0, 1].
     pub moisture: f64,
+    /// Mean over the year of the responsive pools' turnover multiplier f(T)·g(θ)
+    /// (dimensionless); when given it is used instead of the multiplier at `t_soil_c` and
+    /// `moisture`, which for a convex f(T) underestimates the mean turnover.
+    pub turnover_factor: Option<f64>,
 }
 
 impl PoolModel {
@@ -124,7 +129,7 @@ impl PoolModel {
             t_soil_c: drivers.t_soil_c,
             moisture: drivers.moisture,
         };
-        let mut state = self.steady_state(&forcing_at(first))?;
+        let mut state = self.steady_state_at(&forcing_at(first), drivers.turnover_factor)?;
         let mut t = first;
         while t < start_year {
             let h_years = (start_year - t).min(1.0);
@@ -132,6 +137,7 @@ impl PoolModel {
                 &mut state,
                 &forcing_at(t + 0.5 * h_years),
                 h_years * DAYS_PER_YEAR,
+                drivers.turnover_factor,
             )?;
             t += h_years;
         }

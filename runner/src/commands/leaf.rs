@@ -9,10 +9,13 @@ use isodisc_model::ModelError;
 use isodisc_model::error::closest_name;
 use isodisc_model::leaf::{
     BetaTarget, C3Form, ElectronLimit, LeafConditions, LeafModel, LeafOptions, LeafState, Pathway,
+    TemperatureSet,
 };
 use isodisc_model::water::vpd_from_rh_kpa;
 
-use crate::cli::{BetaTargetArg, ElectronArg, FormArg, Format, LeafArgs, PathwayArg};
+use crate::cli::{
+    BetaTargetArg, ElectronArg, FormArg, Format, LeafArgs, PathwayArg, TemperatureSetArg,
+};
 use crate::error::{Context, Error, Result};
 use crate::output::{AtomicFile, fmt_num, json_num};
 
@@ -70,6 +73,8 @@ impl LeafPlan {
             o2_mmol_mol: args.o2,
             d13c_air_permil: args.d13c_air,
             soil_beta: args.soil_beta,
+            t_growth_c: args.t_growth,
+            d13c_substrate_permil: args.d13c_substrate,
         };
         if let Some(rh) = args.rh {
             check_flag("rh", rh, RH_RANGE.0, RH_RANGE.1, "%")?;
@@ -83,6 +88,9 @@ impl LeafPlan {
         };
         for ((name, unit, min, max), v) in LeafConditions::RANGES.iter().zip(values(&with_vpd)) {
             check_flag(name, v, *min, *max, unit)?;
+        }
+        if let Some(d) = args.d13c_substrate {
+            check_flag("d13c_substrate", d, -100.0, 50.0, "permil")?;
         }
         Ok(Self {
             model,
@@ -99,6 +107,10 @@ impl LeafPlan {
                 c3_form: match args.discrimination {
                     FormArg::Simple => C3Form::Simple,
                     FormArg::Comprehensive => C3Form::Comprehensive,
+                },
+                temperature_set: match args.temperature_set {
+                    TemperatureSetArg::Acclimated => TemperatureSet::Acclimated,
+                    TemperatureSetArg::Fixed => TemperatureSet::Fixed,
                 },
             },
             base,
@@ -130,7 +142,13 @@ impl LeafPlan {
 
     fn write_to(&self, w: &mut dyn Write) -> Result<()> {
         if self.list_params {
-            return write_params(self.model.pathway(), self.format, w);
+            return write_params(
+                &self.model,
+                &self.options,
+                self.base.t_growth_c,
+                self.format,
+                w,
+            );
         }
         match &self.input {
             Some(path) => self.run_file(path, w),
@@ -219,7 +237,7 @@ impl LeafPlan {
                     .iter()
                     .map(|(_, n)| model.get(n).unwrap_or(f64::NAN)),
             );
-            let mut c = from_values(vals);
+            let mut c = from_values(vals, self.base.d13c_substrate_permil);
             if let Some(rh) = rh {
                 c.vpd_kpa = vpd_from_rh_kpa(c.t_leaf_c, rh);
             }
@@ -244,7 +262,8 @@ impl LeafPlan {
     }
 }
 
-fn values(c: &LeafConditions) -> [f64; 8] {
+/// The conditions in the order of `LeafConditions::RANGES`.
+fn values(c: &LeafConditions) -> [f64; 9] {
     [
         c.t_leaf_c,
         c.ppfd_umol_m2_s,
@@ -254,10 +273,11 @@ fn values(c: &LeafConditions) -> [f64; 8] {
         c.o2_mmol_mol,
         c.d13c_air_permil,
         c.soil_beta,
+        c.t_growth_c,
     ]
 }
 
-fn from_values(v: [f64; 8]) -> LeafConditions {
+fn from_values(v: [f64; 9], d13c_substrate_permil: Option<f64>) -> LeafConditions {
     LeafConditions {
         t_leaf_c: v[0],
         ppfd_umol_m2_s: v[1],
@@ -267,6 +287,8 @@ fn from_values(v: [f64; 8]) -> LeafConditions {
         o2_mmol_mol: v[5],
         d13c_air_permil: v[6],
         soil_beta: v[7],
+        t_growth_c: v[8],
+        d13c_substrate_permil,
     }
 }
 
@@ -510,29 +532,43 @@ impl RowWriter {
     }
 }
 
-fn write_params(pathway: Pathway, format: Format, w: &mut dyn Write) -> Result<()> {
+/// Every parameter with its default (`auto` where a setting chooses it), the value in use under
+/// the given flags and `--set`s, unit, range, description and source.
+fn write_params(
+    model: &LeafModel,
+    options: &LeafOptions,
+    t_growth_c: f64,
+    format: Format,
+    w: &mut dyn Write,
+) -> Result<()> {
+    let pathway = model.pathway();
     let specs = pathway.specs();
     let show = |v: f64| -> String {
         if v.is_nan() {
             "auto".into()
+        } else if v.is_finite() {
+            // Nine decimals drop the binary noise of products such as 1.715 × 60.
+            ((v * 1e9).round() / 1e9).to_string()
         } else {
             v.to_string()
         }
     };
+    let in_use = |name: &str| model.in_use(name, options, t_growth_c).unwrap_or(f64::NAN);
     match format {
         Format::Table => {
             writeln!(w, "{} leaf parameters", pathway.as_str().to_uppercase())?;
             writeln!(
                 w,
-                "{:<14} {:>10} {:<24} {:>10} {:>10}  description; source",
-                "name", "default", "unit", "min", "max"
+                "{:<14} {:>10} {:>10} {:<24} {:>10} {:>10}  description; source",
+                "name", "default", "in use", "unit", "min", "max"
             )?;
             for s in specs {
                 writeln!(
                     w,
-                    "{:<14} {:>10} {:<24} {:>10} {:>10}  {}; {}",
+                    "{:<14} {:>10} {:>10} {:<24} {:>10} {:>10}  {}; {}",
                     s.name,
                     show(s.default),
+                    show(in_use(s.name)),
                     s.unit,
                     s.min,
                     s.max,
@@ -546,6 +582,7 @@ fn write_params(pathway: Pathway, format: Format, w: &mut dyn Write) -> Result<(
             cw.write_record([
                 "name",
                 "default",
+                "in_use",
                 "unit",
                 "min",
                 "max",
@@ -556,6 +593,7 @@ fn write_params(pathway: Pathway, format: Format, w: &mut dyn Write) -> Result<(
                 cw.write_record([
                     s.name,
                     &show(s.default),
+                    &show(in_use(s.name)),
                     s.unit,
                     &s.min.to_string(),
                     &s.max.to_string(),
@@ -566,12 +604,22 @@ fn write_params(pathway: Pathway, format: Format, w: &mut dyn Write) -> Result<(
             cw.flush()?;
         }
         Format::Json => {
+            let num_or_inf = |v: f64| {
+                if v.is_infinite() {
+                    "inf".into()
+                } else {
+                    json_num(v)
+                }
+            };
             let list: Vec<_> = specs
                 .iter()
                 .map(|s| {
                     serde_json::json!({
-                        "name": s.name, "default": json_num(s.default), "unit": s.unit,
-                        "min": json_num(s.min), "max": if s.max.is_infinite() { "inf".into() } else { json_num(s.max) },
+                        "name": s.name,
+                        "default": if s.default.is_nan() { "auto".into() } else { num_or_inf(s.default) },
+                        "in_use": num_or_inf(in_use(s.name)),
+                        "unit": s.unit,
+                        "min": json_num(s.min), "max": num_or_inf(s.max),
                         "description": s.description, "source": s.source,
                     })
                 })

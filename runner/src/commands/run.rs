@@ -242,12 +242,7 @@ impl RunPlan {
                     .pathway()
                     .specs()
                     .iter()
-                    .map(|s| {
-                        (
-                            s.name.to_string(),
-                            json_num(v.leaf.get(s.name).unwrap_or(f64::NAN)),
-                        )
-                    })
+                    .map(|s| (s.name.to_string(), leaf_param_json(v, s.name)))
                     .collect();
                 (
                     v.pathway().as_str().to_string(),
@@ -350,6 +345,7 @@ impl RunPlan {
                     "mean_assimilation_gc_m2_day": sim.pools.spin_up.assimilation_gc_m2_day,
                     "mean_soil_temperature_c": sim.pools.spin_up.t_soil_c,
                     "mean_moisture": sim.pools.spin_up.moisture,
+                    "mean_turnover_factor": sim.pools.spin_up.turnover_factor,
                     "mean_discrimination_permil": sim.pools.spin_up_discrimination_permil,
                 },
                 "mean_age_respired_days": sim.pools.mean_age_respired_days,
@@ -590,4 +586,26 @@ fn summary(site: &Site, sim: &Simulated, report: &ForcingReport, out: &Path) -> 
     );
     let _ = writeln!(s, "results: {}", out.display());
     s
+}
+
+/// A leaf parameter for run.json: its value (`inf` spelled out), the value in use of an "auto"
+/// default, or, where that
+/// follows the growth temperature of each step (acclimated Jmax25 and entropy terms), the words
+/// "follows growth temperature".
+fn leaf_param_json(v: &isodisc_model::site::Vegetation, name: &str) -> serde_json::Value {
+    let at = |t_growth_c: f64| {
+        v.leaf
+            .in_use(name, &v.options, t_growth_c)
+            .unwrap_or(f64::NAN)
+    };
+    if at(15.0) == at(30.0) {
+        let x = at(25.0);
+        if x == f64::INFINITY {
+            "inf".into() // as the site file and --set spell it
+        } else {
+            json_num(x)
+        }
+    } else {
+        "follows growth temperature".into()
+    }
 }

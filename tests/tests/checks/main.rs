@@ -14,3 +14,4 @@ mod runner_forcing;
 mod runner_leaf;
 mod runner_observations;
 mod runner_run;
+mod validation;

@@ -182,3 +182,160 @@ fn list_params_names_every_parameter_the_issue_requires() {
         assert!(names.iter().any(|x| x == n), "C4 lacks {n}");
     }
 }
+
+#[test]
+fn list_params_gives_every_default_a_source_and_resolves_auto_values() {
+    // Every default carries its source (project rule); "auto" defaults show the value in use:
+    // Kc 272.38 (cc basis, Bernacchi et al. 2002) by default, 404.9 (ci basis, Bernacchi et al.
+    // 2001) with gm = inf; Jmax25 = (2.59 − 0.035·10)·60 = 134.4 at a growth temperature of 10 °C
+    // → held at 11 °C: (2.59 − 0.385)·60 = 132.3 (Kattge & Knorr 2007; hand calculation).
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("p.csv");
+    let list = |extra: &[&str]| {
+        let mut args = vec![
+            "leaf",
+            "--list-params",
+            "--format",
+            "csv",
+            "--output",
+            out.to_str().unwrap(),
+        ];
+        args.extend_from_slice(extra);
+        run(&args).unwrap();
+        read_rows(&out)
+    };
+    let value = |rows: &[csv::StringRecord], name: &str| -> String {
+        rows.iter().find(|r| &r[0] == name).unwrap()[2].to_string()
+    };
+    let rows = list(&[]);
+    for r in &rows {
+        assert!(!r[7].trim().is_empty(), "{} has no source", &r[0]);
+        assert_ne!(&r[2], "auto", "{} has no value in use", &r[0]);
+    }
+    assert_eq!(value(&rows, "kc25"), "272.38");
+    assert_eq!(value(&rows, "gm"), "0.25");
+    let rows = list(&["--set", "gm=inf", "--t-growth", "10"]);
+    assert_eq!(value(&rows, "kc25"), "404.9");
+    assert_eq!(value(&rows, "jmax25"), "132.3");
+    let rows = list(&["--pathway", "c4"]);
+    for r in &rows {
+        assert!(!r[7].trim().is_empty(), "{} has no source", &r[0]);
+    }
+}
+
+#[test]
+fn inf_is_accepted_in_set_and_in_input_cells() {
+    // `inf` for a conductance or tpu25 means no resistance / no limit (README); with gm = inf,
+    // cc = ci (definition of gm).
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("leaf.json");
+    run(&[
+        "leaf",
+        "--set",
+        "gm=inf",
+        "--set",
+        "tpu25=inf",
+        "--set",
+        "gb=inf",
+        "--format",
+        "json",
+        "--output",
+        out.to_str().unwrap(),
+    ])
+    .unwrap();
+    let v: serde_json::Value = serde_json::from_str(&fs::read_to_string(&out).unwrap()).unwrap();
+    assert_eq!(v["c_c"].as_f64(), v["c_i"].as_f64());
+    let input = dir.path().join("sweep.csv");
+    fs::write(&input, "gm,gb\ninf,inf\n0.2,1.5\n").unwrap();
+    let csv_out = dir.path().join("sweep_out.csv");
+    run(&[
+        "leaf",
+        "--input",
+        input.to_str().unwrap(),
+        "--format",
+        "csv",
+        "--output",
+        csv_out.to_str().unwrap(),
+    ])
+    .unwrap();
+    let rows = read_rows(&csv_out);
+    let header = csv::Reader::from_path(&csv_out)
+        .unwrap()
+        .headers()
+        .unwrap()
+        .clone();
+    let col = |name: &str| header.iter().position(|h| h == name).unwrap();
+    assert_eq!(rows[0][col("c_c")], rows[0][col("c_i")]);
+    let (ci, cc): (f64, f64) = (
+        rows[1][col("c_i")].parse().unwrap(),
+        rows[1][col("c_c")].parse().unwrap(),
+    );
+    assert!(cc < ci);
+    // Where the range is closed, inf is refused with the parameter's name.
+    let err = run(&["leaf", "--set", "g1=inf"]).unwrap_err();
+    assert!(err.contains("g1"), "{err}");
+}
+
+#[test]
+fn growth_temperature_set_and_substrate_flags_reach_the_model() {
+    // The flags agree with the model called directly (Kattge & Knorr 2007 acclimation; apparent e′
+    // of Wingate et al. 2007) — and each flag changes the answer, so none is inert.
+    use isodisc_model::leaf::TemperatureSet;
+    let dir = tempfile::tempdir().unwrap();
+    let leaf_json = |extra: &[&str]| -> serde_json::Value {
+        let out = dir.path().join("l.json");
+        let mut args = vec![
+            "leaf",
+            "--t-leaf",
+            "35",
+            "--format",
+            "json",
+            "--output",
+            out.to_str().unwrap(),
+        ];
+        args.extend_from_slice(extra);
+        run(&args).unwrap();
+        serde_json::from_str(&fs::read_to_string(&out).unwrap()).unwrap()
+    };
+    let base = LeafConditions {
+        t_leaf_c: 35.0,
+        ..LeafConditions::default()
+    };
+    let cases: [(&[&str], LeafConditions, TemperatureSet); 3] = [
+        (
+            &["--t-growth", "15"],
+            LeafConditions {
+                t_growth_c: 15.0,
+                ..base
+            },
+            TemperatureSet::Acclimated,
+        ),
+        (&["--temperature-set", "fixed"], base, TemperatureSet::Fixed),
+        (
+            &["--d13c-substrate", "-20"],
+            LeafConditions {
+                d13c_substrate_permil: Some(-20.0),
+                ..base
+            },
+            TemperatureSet::Acclimated,
+        ),
+    ];
+    let plain = leaf_json(&[]);
+    for (flags, c, set) in cases {
+        let v = leaf_json(flags);
+        let opts = LeafOptions {
+            temperature_set: set,
+            ..LeafOptions::default()
+        };
+        let s = solve_c3(&C3Params::default(), &opts, &c).unwrap();
+        for (key, want) in [("a_net", s.a_net), ("discrimination", s.discrimination)] {
+            let got = v[key].as_f64().unwrap();
+            assert!(
+                (got - want).abs() < 1e-5,
+                "{flags:?} {key}: {got} vs {want}"
+            );
+        }
+        assert_ne!(v["discrimination"], plain["discrimination"], "{flags:?}");
+    }
+    assert_eq!(plain["t_growth"].as_f64(), Some(25.0));
+}

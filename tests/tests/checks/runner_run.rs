@@ -99,6 +99,9 @@ fn canopy_discrimination_equals_the_leaf_at_the_same_conditions() {
     let weather =
         "time,t,vpd,ppfd,p\n2025-03-21T11:00,25,1.5,1500,0\n2025-03-21T12:00,25,1.5,1500,0\n";
     let site = write_site(dir.path(), 1.0, 0.01, None, weather);
+    // An infinite mesophyll conductance keeps cc = ci, so Δ does not depend on each leaf's light.
+    let text = fs::read_to_string(&site).unwrap();
+    fs::write(&site, text.replace("g1 = 4.0 }", "g1 = 4.0, gm = inf }")).unwrap();
     let out = dir.path().join("out");
     run(&[
         "run",
@@ -110,7 +113,7 @@ fn canopy_discrimination_equals_the_leaf_at_the_same_conditions() {
     .unwrap();
     let steps = Table::read(&out.join("steps.csv"));
     let leaf = solve_c3(
-        &C3Params::with_overrides([("g0", 0.0), ("g1", 4.0)]).unwrap(),
+        &C3Params::with_overrides([("g0", 0.0), ("g1", 4.0), ("gm", f64::INFINITY)]).unwrap(),
         &LeafOptions::default(),
         &LeafConditions {
             t_leaf_c: 25.0,
@@ -540,4 +543,150 @@ fn a_period_inside_or_outside_the_weather_is_run_or_named() {
     ])
     .unwrap_err();
     assert!(err.contains("no step between 2026-06-01"), "{err}");
+}
+
+#[test]
+fn site_runs_acclimate_to_the_preceding_30_days() {
+    // Kattge & Knorr 2007: a leaf grown warm keeps more of its capacity at 38 °C than one grown
+    // cool. Thirty days at 12 °C or at 30 °C, then one hot day at 38 °C: the warm-grown canopy fixes
+    // more at the hot noon (growth temperature = mean air temperature of the preceding 30 days).
+    let noon_gpp = |t_before: f64| {
+        let dir = tempfile::tempdir().unwrap();
+        let mut weather = String::from("time,t,vpd,ppfd,p\n");
+        for day in 0..31 {
+            let t = if day < 30 { t_before } else { 38.0 };
+            for h in 0..24 {
+                let ppfd = if (7..17).contains(&h) { 1200 } else { 0 };
+                let date = chrono_like_date(day);
+                weather.push_str(&format!("{date}T{h:02}:00,{t},1.0,{ppfd},0\n"));
+            }
+        }
+        let site = write_site(dir.path(), 1.0, 2.0, None, &weather);
+        let out = dir.path().join("out");
+        run(&[
+            "run",
+            site.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+            "--quiet",
+        ])
+        .unwrap();
+        let steps = Table::read(&out.join("steps.csv"));
+        steps.num(30 * 24 + 12, "gpp_c3")
+    };
+    let (cool, warm) = (noon_gpp(12.0), noon_gpp(30.0));
+    assert!(warm > cool * 1.05, "warm-grown {warm} vs cool-grown {cool}");
+}
+
+/// 2025-01-01 plus `day` days, as YYYY-MM-DD (January and February only).
+fn chrono_like_date(day: u32) -> String {
+    if day < 31 {
+        format!("2025-01-{:02}", day + 1)
+    } else {
+        format!("2025-02-{:02}", day - 30)
+    }
+}
+
+#[test]
+fn after_spin_up_day_respiration_uses_the_leaf_labile_pool_as_substrate() {
+    // Apparent e′ = e + δ(assimilate) − δ(substrate) (Wingate et al. 2007; Tcherkez et al. 2011;
+    // from memory). Two identical years of weather: in the first the substrate is the current
+    // assimilate (the pools start after it), in the second the leaf labile pool, whose δ lags the
+    // diurnal course of the assimilate, so noon Δ differs slightly. Without day respiration
+    // (rd25 = 0) the term vanishes (hand reasoning from the equation).
+    let noon_delta = |params: &str| {
+        let dir = tempfile::tempdir().unwrap();
+        let mut weather = String::from("time,t,vpd,ppfd,p\n");
+        for year in [2025, 2026] {
+            for day in 0..365 {
+                let date = day_of(year, day);
+                for h in 0..24 {
+                    let ppfd = (1500.0 * (std::f64::consts::PI * (h as f64 - 6.0) / 12.0).sin())
+                        .max(0.0)
+                        .round();
+                    let rain = if h == 0 { 5 } else { 0 };
+                    weather.push_str(&format!("{date}T{h:02}:00,22,1.2,{ppfd},{rain}\n"));
+                }
+            }
+        }
+        let site = write_site(dir.path(), 1.0, 2.0, None, &weather);
+        let text = fs::read_to_string(&site).unwrap();
+        fs::write(
+            &site,
+            text.replace("g1 = 4.0 }", &format!("g1 = 4.0{params} }}")),
+        )
+        .unwrap();
+        let out = dir.path().join("out");
+        run(&[
+            "run",
+            site.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+            "--quiet",
+        ])
+        .unwrap();
+        let steps = Table::read(&out.join("steps.csv"));
+        let row = 100 * 24 + 12;
+        (
+            steps.num(row, "discrimination_c3"),
+            steps.num(365 * 24 + row, "discrimination_c3"),
+        )
+    };
+    // Without day respiration only the Sun's position a year later differs (≈1e-4‰ here).
+    let (y1, y2) = noon_delta(", rd25 = 0.0");
+    assert!((y1 - y2).abs() < 1e-3, "{y1} vs {y2}");
+    // At noon the assimilate is the least depleted of the day, above the labile pool's daily
+    // mixture: e′ = δp − δsub > 0 lowers Δ in the second year (≈0.007‰ here).
+    let (y1, y2) = noon_delta("");
+    assert!(y1 - y2 > 3e-3 && y1 - y2 < 0.5, "{y1} vs {y2}");
+}
+
+/// The date `day` days after 1 January of `year` (not a leap year), as YYYY-MM-DD.
+fn day_of(year: i32, mut day: u32) -> String {
+    const DAYS: [u32; 12] = [31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31];
+    let mut month = 0;
+    while day >= DAYS[month] {
+        day -= DAYS[month];
+        month += 1;
+    }
+    format!("{year}-{:02}-{:02}", month + 1, day + 1)
+}
+
+#[test]
+fn temperature_set_is_chosen_by_name_in_the_site_file() {
+    // The fixed set (Bernacchi et al. 2001 / Medlyn et al. 2002) stays selectable by name; at 38 °C
+    // it keeps less capacity than the set acclimated to that growth temperature (38 °C, held at
+    // 35 °C; Kattge & Knorr 2007), so the two runs differ; a misspelt name is an error naming the
+    // key and the choices.
+    let gpp = |set: &str| -> Result<f64, String> {
+        let dir = tempfile::tempdir().unwrap();
+        let mut weather = String::from("time,t,vpd,ppfd,p\n");
+        for h in 0..24 {
+            let ppfd = if (7..17).contains(&h) { 1200 } else { 0 };
+            weather.push_str(&format!("2025-01-01T{h:02}:00,38,1.0,{ppfd},0\n"));
+        }
+        let site = write_site(dir.path(), 1.0, 2.0, None, &weather);
+        let text = fs::read_to_string(&site).unwrap();
+        let text = text.replace(
+            "[vegetation.c3]\n",
+            &format!("[vegetation.c3]\ntemperature_set = \"{set}\"\n"),
+        );
+        fs::write(&site, text).unwrap();
+        let out = dir.path().join("out");
+        run(&[
+            "run",
+            site.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+            "--quiet",
+        ])?;
+        Ok(Table::read(&out.join("steps.csv")).num(12, "gpp_c3"))
+    };
+    let (acclimated, fixed) = (gpp("acclimated").unwrap(), gpp("fixed").unwrap());
+    assert!(acclimated > fixed * 1.1, "{acclimated} vs {fixed}");
+    let err = gpp("acclimatised").unwrap_err();
+    assert!(
+        err.contains("temperature_set") && err.contains("\"fixed\""),
+        "{err}"
+    );
 }
