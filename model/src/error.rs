@@ -49,7 +49,9 @@ impl fmt::Display for ModelError {
                 max,
             } => write!(
                 f,
-                "parameter `{name}` = {value} is outside its valid range [{min}, {max}]"
+                "parameter `{name}` = {value} is outside its valid range [{}, {}]",
+                show_bound(*min),
+                show_bound(*max)
             ),
             ModelError::UnknownParameter { name, suggestion } => {
                 write!(f, "unknown parameter `{name}`")?;
@@ -67,6 +69,21 @@ impl fmt::Display for ModelError {
             ModelError::Numerical(msg) => write!(f, "numerical failure: {msg}"),
         }
     }
+}
+
+/// A range bound as a reader wants it: at most six decimals, so that a round-off tolerance added
+/// to a bound (1 + 1e-9) shows as the bound itself (1); very large or small bounds in
+/// scientific notation.
+pub fn show_bound(x: f64) -> String {
+    if x == 0.0 || !x.is_finite() {
+        return format!("{x}");
+    }
+    if !(1e-4..1e12).contains(&x.abs()) {
+        return format!("{x:e}");
+    }
+    let s = format!("{x:.6}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    if s == "-0" { "0".into() } else { s.to_string() }
 }
 
 impl std::error::Error for ModelError {}
@@ -112,7 +129,7 @@ fn input_error(name: &str, value: f64, min: f64, max: f64) -> ModelError {
     ModelError::InvalidInput {
         name: name.to_string(),
         value,
-        reason: format!("valid range is [{min}, {max}]"),
+        reason: format!("valid range is [{}, {}]", show_bound(min), show_bound(max)),
     }
 }
 

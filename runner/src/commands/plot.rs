@@ -120,10 +120,28 @@ impl PlotPlan {
         })
     }
 
-    /// Draws every figure the inputs allow and returns the files written.
+    /// Every file (or folder) the figures are drawn from: the output must not hold one.
+    fn inputs(&self) -> Vec<PathBuf> {
+        let mut inputs = vec![
+            self.dir.join("daily.csv"),
+            self.dir.join("quantiles_monthly.csv"),
+        ];
+        if let Some((fits, samples, _)) = &self.keeling {
+            inputs.extend([fits.clone(), samples.clone()]);
+        }
+        if let Some((observed, _)) = &self.observed {
+            inputs.push(observed.clone());
+        }
+        inputs
+    }
+
+    /// Draws every figure the inputs allow and returns the files written: all into a temporary
+    /// folder that replaces the figures folder only when every figure is drawn.
     pub fn draw(&self) -> Result<Vec<PathBuf>> {
-        std::fs::create_dir_all(&self.out)
-            .map_err(|e| Error::msg(format!("cannot create {}: {e}", self.out.display())))?;
+        crate::output::write_figures(&self.out, &self.inputs(), |tmp| self.draw_into(tmp))
+    }
+
+    fn draw_into(&self, tmp: &std::path::Path) -> Result<Vec<PathBuf>> {
         let daily_path = self.dir.join("daily.csv");
         let daily = if daily_path.is_file() {
             Some(CsvTable::read(&daily_path)?)
@@ -132,9 +150,8 @@ impl PlotPlan {
         };
         let mut written = Vec::new();
         let mut save = |name: &str, fig: Figure| -> Result<()> {
-            let path = self.out.join(name);
-            write_atomic(&path, render(&fig)?.as_bytes())?;
-            written.push(path);
+            write_atomic(&tmp.join(name), render(&fig)?.as_bytes())?;
+            written.push(self.out.join(name));
             Ok(())
         };
         if let Some(daily) = &daily {

@@ -7,6 +7,7 @@ mod ensemble;
 mod isotopes_leaf;
 mod observations;
 mod pools;
+mod robustness;
 mod runner_forcing;
 mod runner_leaf;
 mod runner_observations;
