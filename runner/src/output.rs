@@ -656,7 +656,43 @@ impl Drop for FolderLock {
 
 #[cfg(test)]
 mod tests {
-    use super::fmt_num;
+    use super::{NamedWriter, fmt_num, plural, resolved};
+    use std::fs::{self, File};
+    use std::io::{BufWriter, Write};
+
+    #[test]
+    fn write_errors_name_the_file() {
+        // A file opened read-only refuses writes (EBADF), as a full disk refuses them (ENOSPC):
+        // the error must say which file was being written (common practice).
+        let dir = tempfile::tempdir().unwrap();
+        let ro = dir.path().join("ro.txt");
+        fs::write(&ro, "").unwrap();
+        let mut w = NamedWriter {
+            inner: BufWriter::with_capacity(4, File::open(&ro).unwrap()),
+            path: dir.path().join("priors.csv"),
+        };
+        let e = w
+            .write_all(b"0123456789")
+            .and_then(|()| w.flush())
+            .unwrap_err();
+        assert!(e.to_string().contains("priors.csv"), "{e}");
+    }
+
+    #[test]
+    fn counts_take_the_singular_for_one() {
+        assert_eq!(plural(1u64, "day"), "1 day");
+        assert_eq!(plural(0u64, "value"), "0 values");
+        assert_eq!(plural(2u64, "site"), "2 sites");
+    }
+
+    #[test]
+    fn resolved_paths_see_through_dot_dot_and_missing_parts() {
+        let dir = tempfile::tempdir().unwrap();
+        fs::create_dir(dir.path().join("a")).unwrap();
+        let base = fs::canonicalize(dir.path()).unwrap();
+        assert_eq!(resolved(&dir.path().join("a/../b/c")), base.join("b/c"));
+        assert_eq!(resolved(&dir.path().join("a/./x")), base.join("a/x"));
+    }
 
     #[test]
     fn numbers_round_to_six_decimals_and_drop_trailing_zeros() {

@@ -1,4 +1,4 @@
-//! Monthly land priors for atmospheric inversions (SCIENCE.md §8), per site and month: GPP,
+//! Monthly land priors for atmospheric inversions (docs/science.md §8), per site and month: GPP,
 //! flux-weighted Δ, the C4 share of GPP, Reco, δR, the disequilibrium D = δR − δP and the isoflux
 //! Reco·D, each as a mean and a standard deviation over ensemble members. Without an ensemble the
 //! mean is the single run's value and the sd is left empty (CSV) or at the fill value (NetCDF):

@@ -1,7 +1,7 @@
 //! `isodisc compare`: a run's predictions against observations — n, bias, MAE, RMSE, Pearson r,
 //! r² and the Nash–Sutcliffe efficiency (Nash & Sutcliffe 1970) on matched days or steps — and,
 //! with `--lags`, the correlation of the observations with a predicted driver averaged over a
-//! window ending k days earlier (SCIENCE.md §7). The statistics are the model's
+//! window ending k days earlier (docs/science.md §7). The statistics are the model's
 //! (`isodisc_model::observations`); this module only reads, matches and prints.
 
 use std::collections::BTreeMap;

@@ -1,4 +1,4 @@
-//! Parameter ensembles of one site (SCIENCE.md §8): the spec, the sampling design, running the
+//! Parameter ensembles of one site (docs/science.md §8): the spec, the sampling design, running the
 //! members in parallel over weather read once, and the summaries written from the members'
 //! monthly and annual numbers (hourly outputs are never kept, so memory grows only by a few
 //! hundred numbers per member).

@@ -1,4 +1,4 @@
-//! Ensembles, batches and priors (SCIENCE.md §8): fixed members reproduce the single run, Latin
+//! Ensembles, batches and priors (docs/science.md §8): fixed members reproduce the single run, Latin
 //! hypercube strata and moments, Spearman sensitivities, thread-count independence, sharding,
 //! merging and resuming, and the NetCDF priors against the CSV.
 

@@ -1,5 +1,5 @@
 //! `isodisc keeling`, `compare` and `plot` end to end: exact two-end-member mixtures (Keeling 1958;
-//! SCIENCE.md §7), the three ways of grouping, flagged and bad input, hand-computed scores, a
+//! docs/science.md §7), the three ways of grouping, flagged and bad input, hand-computed scores, a
 //! planted lag, and SVG figures that carry their axis labels.
 
 use std::fs;
@@ -75,7 +75,7 @@ fn write_mixture_samples(path: &Path) {
 
 #[test]
 fn keeling_exact_mixture_returns_the_source_for_every_method() {
-    // SCIENCE.md §7 worked example: 400 µmol mol⁻¹ at −8.5 ‰ plus 50 of source at −26 ‰ gives
+    // docs/science.md §7 worked example: 400 µmol mol⁻¹ at −8.5 ‰ plus 50 of source at −26 ‰ gives
     // −10.444 ‰ (checks the mixture used below).
     let (c, d) = mixture(400.0, -8.5, 50.0, -26.0);
     assert_eq!(c, 450.0);
@@ -303,7 +303,7 @@ fn keeling_small_groups_are_flagged_and_bad_input_is_named() {
     let ok = (0..t.rows.len())
         .find(|&i| t.cell(i, "group") == "ok")
         .unwrap();
-    // CO2 range 100 ≥ 40: no small-range flag (common practice threshold, SCIENCE.md §7).
+    // CO2 range 100 ≥ 40: no small-range flag (common practice threshold, docs/science.md §7).
     assert!(!t.cell(ok, "flags").contains("small_co2_range"));
 
     // Zero CO2 on the 3rd line (header = line 1): the message names file, line, column, value.
