@@ -49,7 +49,8 @@ impl fmt::Display for ModelError {
                 max,
             } => write!(
                 f,
-                "parameter `{name}` = {value} is outside its valid range [{}, {}]",
+                "parameter `{name}` = {} is outside its valid range [{}, {}]",
+                show_value(*value),
                 show_bound(*min),
                 show_bound(*max)
             ),
@@ -64,10 +65,20 @@ impl fmt::Display for ModelError {
                 name,
                 value,
                 reason,
-            } => write!(f, "input `{name}` = {value}: {reason}"),
+            } => write!(f, "input `{name}` = {}: {reason}", show_value(*value)),
             ModelError::InvalidConfig(msg) => write!(f, "invalid configuration: {msg}"),
             ModelError::Numerical(msg) => write!(f, "numerical failure: {msg}"),
         }
+    }
+}
+
+/// A value as given, readable: as written for ordinary magnitudes, in scientific notation when
+/// it would take more than about fifteen digits (1e308 rather than 309 digits).
+pub fn show_value(x: f64) -> String {
+    if x == 0.0 || !x.is_finite() || (1e-4..1e15).contains(&x.abs()) {
+        format!("{x}")
+    } else {
+        format!("{x:e}")
     }
 }
 

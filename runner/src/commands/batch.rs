@@ -21,7 +21,7 @@ use indicatif::{ParallelProgressIterator, ProgressBar};
 use rayon::prelude::*;
 
 use super::ensemble::{
-    check_members, check_spec_paths, read_steps, thread_pool, write_ensemble_files,
+    check_members, check_spec_paths, check_threads, read_steps, thread_pool, write_ensemble_files,
 };
 use crate::cli::BatchArgs;
 use crate::commands::run::write_periods;
@@ -102,14 +102,14 @@ pub fn shard_from_env(get: impl Fn(&str) -> Option<String>) -> Result<(usize, us
     let count = match num("SLURM_ARRAY_TASK_COUNT")? {
         Some(c) => c,
         None => num("SLURM_ARRAY_TASK_MAX")?
-            .map(|max| max + 1 - min.min(max + 1))
+            .map(|max| max.saturating_add(1) - min.min(max.saturating_add(1)))
             .ok_or_else(|| {
                 Error::msg(
                     "--shard env: neither SLURM_ARRAY_TASK_COUNT nor SLURM_ARRAY_TASK_MAX is set",
                 )
             })?,
     };
-    if id < min || id - min + 1 > count {
+    if id < min || id - min >= count {
         return Err(Error::msg(format!(
             "--shard env: task {id} lies outside the array (min {min}, count {count})"
         )));
@@ -261,9 +261,7 @@ impl BatchPlan {
             (None, None, None) => None,
             _ => return Err(Error::msg("--spec, --members and --seed go together")),
         };
-        if args.threads == Some(0) {
-            return Err(Error::msg("--threads must be at least 1"));
-        }
+        check_threads(args.threads)?;
         if args.out.exists() && !args.out.is_dir() {
             return Err(Error::msg(format!(
                 "--out {}: exists and is not a folder",

@@ -52,11 +52,23 @@ pub(crate) fn check_members(members: usize) -> Result<()> {
     Ok(())
 }
 
+/// Most worker threads a command takes: far above any node's cores, low enough that a typo
+/// (100000000) is refused instead of exhausting the system.
+pub const MAX_THREADS: usize = 1024;
+
+/// Checks `--threads`: 1 to [`MAX_THREADS`].
+pub(crate) fn check_threads(threads: Option<usize>) -> Result<()> {
+    match threads {
+        Some(t) if t == 0 || t > MAX_THREADS => {
+            Err(Error::msg(format!("--threads {t}: use 1 to {MAX_THREADS}")))
+        }
+        _ => Ok(()),
+    }
+}
+
 /// A rayon pool of `threads` threads (None: one per core).
 pub(crate) fn thread_pool(threads: Option<usize>) -> Result<rayon::ThreadPool> {
-    if threads == Some(0) {
-        return Err(Error::msg("--threads must be at least 1"));
-    }
+    check_threads(threads)?;
     rayon::ThreadPoolBuilder::new()
         .num_threads(threads.unwrap_or(0))
         .build()
@@ -146,9 +158,7 @@ impl EnsemblePlan {
         let spec = EnsembleSpec::load(&args.spec)?;
         check_spec_paths(&spec, &site)?;
         check_members(args.members)?;
-        if args.threads == Some(0) {
-            return Err(Error::msg("--threads must be at least 1"));
-        }
+        check_threads(args.threads)?;
         let mut inputs: Vec<PathBuf> = site.input_files().into_iter().map(|f| f.1).collect();
         inputs.push(spec.path.clone());
         check_out_dir(&args.out, args.overwrite, &inputs)?;

@@ -147,10 +147,10 @@ pub fn parse_window_minutes(text: &str) -> Result<i64> {
         _ => return Err(bad()),
     };
     let n: i64 = t[..t.len() - 1].trim().parse().map_err(|_| bad())?;
-    if n <= 0 || n * unit > 366 * DAY_MIN {
-        return Err(bad());
+    match n.checked_mul(unit) {
+        Some(m) if n > 0 && m <= 366 * DAY_MIN => Ok(m),
+        _ => Err(bad()),
     }
-    Ok(n * unit)
 }
 
 impl KeelingPlan {

@@ -58,7 +58,11 @@ impl LeafPlan {
         for s in &args.set {
             let (name, value) = parse_assignment(s)?;
             model.set(&name, value).with_context(|| {
-                format!("--set {name}={value} for the {} leaf", pathway.as_str())
+                format!(
+                    "--set {name}={} for the {} leaf",
+                    isodisc_model::error::show_value(value),
+                    pathway.as_str()
+                )
             })?;
         }
         let base = LeafConditions {
@@ -282,8 +286,9 @@ fn check_flag(name: &str, v: f64, min: f64, max: f64, unit: &str) -> Result<()> 
         Ok(())
     } else {
         Err(Error::msg(format!(
-            "--{} = {v}: valid range is {min} to {max} {unit}",
-            name.replace('_', "-")
+            "--{} = {}: valid range is {min} to {max} {unit}",
+            name.replace('_', "-"),
+            isodisc_model::error::show_value(v)
         )))
     }
 }

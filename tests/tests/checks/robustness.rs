@@ -401,6 +401,15 @@ fn member_counts_are_bounded_and_never_panic() {
         );
     }
     assert!(!out.exists());
+    // The largest array a Slurm environment could claim is an error or a shard, never an
+    // overflow (`MAX + 1` once panicked).
+    let huge = |name: &str| match name {
+        "SLURM_ARRAY_TASK_ID" | "SLURM_ARRAY_TASK_MAX" => Some(usize::MAX.to_string()),
+        "SLURM_ARRAY_TASK_MIN" => Some("0".to_string()),
+        _ => None,
+    };
+    let shard = catch_unwind(|| isodisc_runner::commands::batch::shard_from_env(huge));
+    assert!(shard.is_ok(), "shard_from_env panicked");
 }
 
 #[test]
@@ -1066,7 +1075,54 @@ fn every_bad_input_gets_a_clear_error_and_no_panic() {
             "/no/such.csv",
         ),
         (vec!["leaf", "--t-leaf", "inf"], "t-leaf"),
-        (vec!["leaf", "--set", "vcmax25=1e308"], "vcmax25"),
+        (vec!["leaf", "--set", "vcmax25=1e308"], "vcmax25=1e308"),
+        (vec!["leaf", "--ppfd", "1e308"], "--ppfd = 1e308"),
+        (
+            vec![
+                "keeling",
+                s(&air),
+                "--by",
+                "window",
+                "--window",
+                "9000000000000000000d",
+            ],
+            "--window",
+        ),
+        (
+            vec![
+                "ensemble",
+                s(&site),
+                "--spec",
+                s(&spec),
+                "--members",
+                "2",
+                "--seed",
+                "1",
+                "--out",
+                o,
+                "--threads",
+                "100000000",
+            ],
+            "--threads",
+        ),
+        (
+            vec!["batch", s(&manifest), "--out", o, "--threads", "5000"],
+            "--threads",
+        ),
+        (
+            vec![
+                "compare",
+                "--predicted",
+                s(&site),
+                "--observed",
+                s(&site),
+                "--variable",
+                "x",
+                "--lags",
+                "18446744073709551615",
+            ],
+            "--lags",
+        ),
         (
             vec!["leaf", "--input", "/no/such/leaves.csv"],
             "/no/such/leaves.csv",
