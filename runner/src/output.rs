@@ -418,8 +418,8 @@ pub fn resolved(p: &Path) -> PathBuf {
     }
 }
 
-/// Refuses an output folder `out` that is, contains or lies inside one of `inputs` (the files and
-/// folders the command reads): replacing it would delete or mix up its own input.
+/// Refuses an output `out` (a folder, or a file) that is, contains or lies inside one of `inputs`
+/// (the files and folders the command reads): replacing it would delete or mix up its own input.
 pub fn check_not_input(flag: &str, out: &Path, inputs: &[PathBuf]) -> Result<()> {
     let o = resolved(out);
     for input in inputs {
@@ -434,8 +434,8 @@ pub fn check_not_input(flag: &str, out: &Path, inputs: &[PathBuf]) -> Result<()>
             continue;
         };
         return Err(Error::msg(format!(
-            "{flag} {}: the output folder {why} the input {}; isodisc never writes over what it \
-             reads: choose another folder",
+            "{flag} {}: the output {why} the input {}; isodisc never writes over what it reads: \
+             choose another place",
             out.display(),
             input.display()
         )));

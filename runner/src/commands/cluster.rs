@@ -144,6 +144,9 @@ impl ClusterScriptPlan {
             (None, None) => None,
             _ => return Err(Error::msg("--spec and --members go together")),
         };
+        let mut inputs = vec![a.manifest.clone()];
+        inputs.extend(a.spec.clone());
+        crate::output::check_not_input("--out", &a.out, &inputs)?;
         let manifest = absolute(&a.manifest)?;
         let results = absolute(&a.results)?;
         check_shell_safe("manifest", &manifest.display().to_string(), false)?;

@@ -143,6 +143,13 @@ impl ComparePlan {
             }
             None => None,
         };
+        if let Some(out) = &args.out {
+            crate::output::check_not_input(
+                "--out",
+                out,
+                &[args.predicted.clone(), args.observed.clone()],
+            )?;
+        }
         Ok(Self {
             predicted: args.predicted.clone(),
             observed: args.observed.clone(),

@@ -212,6 +212,11 @@ impl KeelingPlan {
             settings =
                 settings.with_bootstrap(Bootstrap::new(n, args.seed).context("--bootstrap")?);
         }
+        if let Some(out) = &args.out {
+            let mut inputs = vec![args.samples.clone()];
+            inputs.extend(args.site.clone());
+            crate::output::check_not_input("--out", out, &inputs)?;
+        }
         Ok(Self {
             samples: args.samples.clone(),
             grouping,

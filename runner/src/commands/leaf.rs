@@ -88,6 +88,9 @@ impl LeafPlan {
         for ((name, unit, min, max), v) in LeafConditions::RANGES.iter().zip(values(&with_vpd)) {
             check_flag(name, v, *min, *max, unit)?;
         }
+        if let (Some(out), Some(input)) = (&args.output, &args.input) {
+            crate::output::check_not_input("--output", out, std::slice::from_ref(input))?;
+        }
         Ok(Self {
             model,
             options: LeafOptions {

@@ -876,6 +876,7 @@ fn every_bad_input_gets_a_clear_error_and_no_panic() {
     let manifest = t.path().join("batch/manifest.toml");
     let spec = t.path().join("ensemble.toml");
     let air = t.path().join("observations/canopy_air.csv");
+    let obs = t.path().join("observations/d13c_respiration_observed.csv");
     let elsewhere = tempfile::tempdir().unwrap();
     let out = elsewhere.path().join("out");
     let o = s(&out);
@@ -1128,6 +1129,39 @@ fn every_bad_input_gets_a_clear_error_and_no_panic() {
             "/no/such/leaves.csv",
         ),
         (vec!["plot", s(t.path())], "daily.csv"),
+        // Single-file outputs never replace an input either.
+        (vec!["keeling", s(&air), "--out", s(&air)], "is the input"),
+        (
+            vec![
+                "compare",
+                "--predicted",
+                s(&obs),
+                "--observed",
+                s(&obs),
+                "--variable",
+                "d13c_respiration",
+                "--out",
+                s(&obs),
+            ],
+            "is the input",
+        ),
+        (
+            vec!["leaf", "--input", s(&air), "--output", s(&air)],
+            "is the input",
+        ),
+        (
+            vec![
+                "cluster-script",
+                s(&manifest),
+                "--shards",
+                "2",
+                "--results",
+                "r",
+                "--out",
+                s(&manifest),
+            ],
+            "is the input",
+        ),
     ];
     // A panic fails the test inside `attempt`, so reaching the tally means none happened.
     let (mut tried, mut clear) = (0, 0);
