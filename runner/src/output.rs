@@ -487,20 +487,26 @@ pub fn replace_dir(tmp: &Path, out: &Path, overwrite: bool) -> Result<()> {
     Ok(())
 }
 
+/// The checks every output folder gets: not one of the `inputs`, leftovers of killed runs beside
+/// it cleaned, not a file. True when the folder exists.
+fn prepare_out_dir(out: &Path, inputs: &[PathBuf]) -> Result<bool> {
+    check_not_input("--out", out, inputs)?;
+    clean_stale(out);
+    if out.exists() && !out.is_dir() {
+        return Err(Error::msg(format!(
+            "--out {}: exists and is not a folder",
+            out.display()
+        )));
+    }
+    Ok(out.exists())
+}
+
 /// Checks an output folder before any work: not one of the `inputs` (see [`check_not_input`]), not
 /// a file, and either absent, empty, or — with `overwrite` — a folder isodisc wrote (see
 /// [`written_by_isodisc`]). What an interrupted earlier run left beside it is cleaned first (see
 /// [`clean_stale`]).
 pub fn check_out_dir(out: &Path, overwrite: bool, inputs: &[PathBuf]) -> Result<()> {
-    check_not_input("--out", out, inputs)?;
-    clean_stale(out);
-    if out.exists() {
-        if !out.is_dir() {
-            return Err(Error::msg(format!(
-                "--out {}: exists and is not a folder",
-                out.display()
-            )));
-        }
+    if prepare_out_dir(out, inputs)? {
         let empty = fs::read_dir(out)
             .with_context(|| format!("cannot read the folder {}", out.display()))?
             .next()
@@ -560,15 +566,7 @@ pub fn write_figures<T>(
     inputs: &[PathBuf],
     draw: impl FnOnce(&Path) -> Result<T>,
 ) -> Result<T> {
-    check_not_input("--out", out, inputs)?;
-    clean_stale(out);
-    if out.exists() {
-        if !out.is_dir() {
-            return Err(Error::msg(format!(
-                "--out {}: exists and is not a folder",
-                out.display()
-            )));
-        }
+    if prepare_out_dir(out, inputs)? {
         let only_svg = fs::read_dir(out)?
             .flatten()
             .all(|e| e.path().is_file() && e.path().extension().is_some_and(|x| x == "svg"));

@@ -221,26 +221,21 @@ fn batch_log(out: &Path) -> serde_json::Value {
     serde_json::from_str(&fs::read_to_string(out.join("run.json")).unwrap()).unwrap()
 }
 
+/// `isodisc batch MANIFEST --out OUT [EXTRA] --from FROM --to TO --quiet`.
+fn batch(manifest: &Path, out: &Path, extra: &[&str]) -> Result<(), String> {
+    let mut a = vec!["batch", s(manifest), "--out", s(out)];
+    a.extend_from_slice(extra);
+    a.extend(["--from", FROM, "--to", TO, "--quiet"]);
+    attempt(&a)
+}
+
 #[test]
 fn a_changed_history_file_is_not_resumed() {
     let t = tempfile::tempdir().unwrap();
     copy_demo(t.path());
     let manifest = one_site_manifest(t.path());
     let out = t.path().join("b");
-    let batch = || {
-        attempt(&[
-            "batch",
-            s(&manifest),
-            "--out",
-            s(&out),
-            "--from",
-            FROM,
-            "--to",
-            TO,
-            "--quiet",
-        ])
-        .unwrap()
-    };
+    let batch = || batch(&manifest, &out, &[]).unwrap();
     batch();
     let first = fs::read_to_string(out.join("priors.csv")).unwrap();
     batch();
@@ -308,20 +303,7 @@ fn merge_refuses_cut_short_sites_and_folders_that_are_not_shards() {
     let manifest = t.path().join("batch/manifest.toml");
     let shards: Vec<PathBuf> = (1..=2).map(|k| t.path().join(format!("s{k}"))).collect();
     for (k, d) in shards.iter().enumerate() {
-        attempt(&[
-            "batch",
-            s(&manifest),
-            "--out",
-            s(d),
-            "--shard",
-            &format!("{}/2", k + 1),
-            "--from",
-            FROM,
-            "--to",
-            TO,
-            "--quiet",
-        ])
-        .unwrap();
+        batch(&manifest, d, &["--shard", &format!("{}/2", k + 1)]).unwrap();
     }
     let merged = t.path().join("m");
     let merge = |extra: &[&str]| {
@@ -338,20 +320,7 @@ fn merge_refuses_cut_short_sites_and_folders_that_are_not_shards() {
     let e = merge(&[]).unwrap_err();
     assert!(e.contains("priors.csv") && e.contains("cut short"), "{e}");
     // The batch itself re-runs the damaged site instead of keeping it.
-    attempt(&[
-        "batch",
-        s(&manifest),
-        "--out",
-        s(&shards[0]),
-        "--shard",
-        "1/2",
-        "--from",
-        FROM,
-        "--to",
-        TO,
-        "--quiet",
-    ])
-    .unwrap();
+    batch(&manifest, &shards[0], &["--shard", "1/2"]).unwrap();
     assert_eq!(fs::read_to_string(&priors).unwrap(), text);
     merge(&[]).unwrap();
     // A folder that is not a shard says so.
@@ -555,20 +524,7 @@ fn shards_without_sites_and_more_shards_than_sites() {
     // Shard 2 of 2 of a one-site manifest holds no site: a valid, empty shard that merge takes.
     let shards: Vec<PathBuf> = (1..=2).map(|k| t.path().join(format!("s{k}"))).collect();
     for (k, d) in shards.iter().enumerate() {
-        attempt(&[
-            "batch",
-            s(&manifest),
-            "--out",
-            s(d),
-            "--shard",
-            &format!("{}/2", k + 1),
-            "--from",
-            FROM,
-            "--to",
-            TO,
-            "--quiet",
-        ])
-        .unwrap();
+        batch(&manifest, d, &["--shard", &format!("{}/2", k + 1)]).unwrap();
     }
     assert_eq!(
         fs::read_to_string(shards[1].join("priors.csv"))
@@ -780,47 +736,34 @@ fn messages_are_exact_and_outputs_feed_each_other() {
         s(&fits),
     ])
     .unwrap();
+    // The run's δR against the nightly Keeling intercepts, with lags, as JSON and as a table.
+    let compare = |extra: &[&str], out: &Path| {
+        let daily = results.join("daily.csv");
+        let mut a = vec![
+            "compare",
+            "--predicted",
+            s(&daily),
+            "--observed",
+            s(&fits),
+            "--variable",
+            "d13c_respiration",
+            "--observed-column",
+            "intercept",
+            "--lags",
+            "2",
+            "--out",
+            s(out),
+        ];
+        a.extend_from_slice(extra);
+        attempt(&a).unwrap();
+    };
     let json = t.path().join("cmp.json");
-    attempt(&[
-        "compare",
-        "--predicted",
-        s(&results.join("daily.csv")),
-        "--observed",
-        s(&fits),
-        "--variable",
-        "d13c_respiration",
-        "--observed-column",
-        "intercept",
-        "--lags",
-        "2",
-        "--window",
-        "1",
-        "--format",
-        "json",
-        "--out",
-        s(&json),
-    ])
-    .unwrap();
+    compare(&["--window", "1", "--format", "json"], &json);
     let v: serde_json::Value = serde_json::from_str(&fs::read_to_string(&json).unwrap()).unwrap();
     assert!(v["scores"]["n"].as_u64().unwrap() >= 20, "{v}");
     // "1 day", not "1 day(s)".
     let table = t.path().join("cmp.txt");
-    attempt(&[
-        "compare",
-        "--predicted",
-        s(&results.join("daily.csv")),
-        "--observed",
-        s(&fits),
-        "--variable",
-        "d13c_respiration",
-        "--observed-column",
-        "intercept",
-        "--lags",
-        "2",
-        "--out",
-        s(&table),
-    ])
-    .unwrap();
+    compare(&[], &table);
     let text = fs::read_to_string(&table).unwrap();
     assert!(text.contains("averaged over 1 day ending"), "{text}");
 
