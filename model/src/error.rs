@@ -49,7 +49,10 @@ impl fmt::Display for ModelError {
                 max,
             } => write!(
                 f,
-                "parameter `{name}` = {value} is outside its valid range [{min}, {max}]"
+                "parameter `{name}` = {} is outside its valid range [{}, {}]",
+                show_value(*value),
+                show_bound(*min),
+                show_bound(*max)
             ),
             ModelError::UnknownParameter { name, suggestion } => {
                 write!(f, "unknown parameter `{name}`")?;
@@ -62,11 +65,36 @@ impl fmt::Display for ModelError {
                 name,
                 value,
                 reason,
-            } => write!(f, "input `{name}` = {value}: {reason}"),
+            } => write!(f, "input `{name}` = {}: {reason}", show_value(*value)),
             ModelError::InvalidConfig(msg) => write!(f, "invalid configuration: {msg}"),
             ModelError::Numerical(msg) => write!(f, "numerical failure: {msg}"),
         }
     }
+}
+
+/// A value as given, readable: as written for ordinary magnitudes, in scientific notation when
+/// it would take more than about fifteen digits (1e308 rather than 309 digits).
+pub fn show_value(x: f64) -> String {
+    if x == 0.0 || !x.is_finite() || (1e-4..1e15).contains(&x.abs()) {
+        format!("{x}")
+    } else {
+        format!("{x:e}")
+    }
+}
+
+/// A range bound as a reader wants it: at most six decimals, so that a round-off tolerance added
+/// to a bound (1 + 1e-9) shows as the bound itself (1); very large or small bounds in
+/// scientific notation.
+pub fn show_bound(x: f64) -> String {
+    if x == 0.0 || !x.is_finite() {
+        return format!("{x}");
+    }
+    if !(1e-4..1e12).contains(&x.abs()) {
+        return format!("{x:e}");
+    }
+    let s = format!("{x:.6}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    if s == "-0" { "0".into() } else { s.to_string() }
 }
 
 impl std::error::Error for ModelError {}
@@ -113,7 +141,7 @@ fn input_error(name: &str, value: f64, min: f64, max: f64) -> ModelError {
     ModelError::InvalidInput {
         name: name.to_string(),
         value,
-        reason: format!("valid range is [{min}, {max}]"),
+        reason: format!("valid range is [{}, {}]", show_bound(min), show_bound(max)),
     }
 }
 

@@ -252,6 +252,15 @@ pub struct KeelingArgs {
     pub out: Option<PathBuf>,
 }
 
+/// Output format of `isodisc compare`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum CompareFormat {
+    /// Aligned text for reading.
+    Table,
+    /// One JSON object.
+    Json,
+}
+
 /// How `isodisc compare` pairs predictions with observations.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum MatchArg {
@@ -288,9 +297,9 @@ pub struct CompareArgs {
     /// Predicted column used as the lag driver.
     #[arg(long, default_value = "discrimination", requires = "lags")]
     pub driver: String,
-    /// Output format (table or json).
+    /// Output format.
     #[arg(long, value_enum, default_value = "table")]
-    pub format: Format,
+    pub format: CompareFormat,
     /// Write to this file (atomically) instead of standard output.
     #[arg(long, value_name = "FILE")]
     pub out: Option<PathBuf>,

@@ -24,6 +24,7 @@ use error::Result;
 
 /// Parses the command line, runs it and turns the outcome into an exit code (2 on error).
 pub fn main_entry() -> ExitCode {
+    output::install_interrupt_handler();
     match run(Cli::parse()) {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) if e.is_broken_pipe() => ExitCode::SUCCESS,

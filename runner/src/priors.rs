@@ -245,6 +245,10 @@ fn nc_err(what: &str, e: impl std::fmt::Debug) -> Error {
     Error::msg(format!("NetCDF {what}: {e:?}"))
 }
 
+fn nc_file_err(path: &Path, what: &str, e: impl std::fmt::Debug) -> Error {
+    Error::msg(format!("{}: NetCDF {what}: {e:?}", path.display()))
+}
+
 /// Writes `priors.nc` (NetCDF classic, CF-1.8) with global `title` and `history`.
 pub fn write_priors_nc(path: &Path, rows: &[PriorRow], title: &str, history: &str) -> Result<()> {
     let g = PriorsGrid::from_rows(rows);
@@ -330,8 +334,10 @@ pub fn write_priors_nc(path: &Path, rows: &[PriorRow], title: &str, history: &st
         .map(|n| n.to_string_lossy().into_owned())
         .unwrap_or_default();
     let tmp = path.with_file_name(format!(".{name}.tmp-{}", std::process::id()));
+    crate::output::clean_stale(path);
+    crate::output::track_temp(&tmp);
     let result = (|| -> Result<()> {
-        let w = |e| nc_err("write", e);
+        let w = |e| nc_file_err(path, "write", e);
         let mut fw = FileWriter::open(&tmp).map_err(w)?;
         fw.set_def(&ds, Version::Classic, 0).map_err(w)?;
         let chars: Vec<u8> = g
@@ -369,6 +375,7 @@ pub fn write_priors_nc(path: &Path, rows: &[PriorRow], title: &str, history: &st
     if result.is_err() {
         let _ = std::fs::remove_file(&tmp);
     }
+    crate::output::untrack(&tmp);
     result
 }
 
@@ -438,8 +445,13 @@ pub fn read_priors_nc(path: &Path) -> Result<(PriorsGrid, Vec<(String, String)>)
     ))
 }
 
-/// Writes `priors.csv` and `priors.nc` into `dir`.
+/// Writes `priors.csv` and `priors.nc` into `dir`. Without rows (a shard with no site) only the
+/// CSV header is written: NetCDF classic has no empty fixed dimensions, and an empty file would
+/// claim a site grid that does not exist.
 pub fn write_priors(dir: &Path, rows: &[PriorRow], title: &str, history: &str) -> Result<()> {
     write_priors_csv(&dir.join("priors.csv"), rows)?;
+    if rows.is_empty() {
+        return Ok(());
+    }
     write_priors_nc(&dir.join("priors.nc"), rows, title, history)
 }

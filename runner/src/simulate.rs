@@ -17,7 +17,7 @@ use isodisc_model::pools::{
 use isodisc_model::site::{SiteDrivers, SiteModel, SiteStep};
 use isodisc_model::temperature::GrowthTemperature;
 
-use crate::error::{Context, Result};
+use crate::error::{Context, Error, Result};
 use crate::forcing::{ForcingError, ForcingStep, LocalDate, LocalTime};
 use crate::site::Site;
 
@@ -883,5 +883,22 @@ pub fn read_history(path: &std::path::Path) -> Result<AtmosphereHistory> {
             d13c_permil,
         })
         .collect();
-    AtmosphereHistory::new(rows).with_context(|| format!("atmospheric history {}", path.display()))
+    AtmosphereHistory::new(rows).map_err(|e| {
+        // The model names the row as `history[i].field`: turn i into the file's line.
+        let row = match &e {
+            isodisc_model::ModelError::InvalidInput { name, .. } => name
+                .strip_prefix("history[")
+                .and_then(|r| r.split(']').next())
+                .and_then(|i| i.parse::<usize>().ok()),
+            _ => None,
+        };
+        match row {
+            Some(i) => Error::msg(format!(
+                "atmospheric history {}: line {}: {e}",
+                path.display(),
+                table.line(i)
+            )),
+            None => Error::msg(format!("atmospheric history {}: {e}", path.display())),
+        }
+    })
 }

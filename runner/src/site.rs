@@ -783,6 +783,20 @@ impl Site {
         })
     }
 
+    /// Every file the site reads, with its role: the site file, the weather file and the
+    /// atmospheric history (when given).
+    pub fn input_files(&self) -> Vec<(&'static str, PathBuf)> {
+        let dir = self.dir();
+        let mut files = vec![
+            ("site_file", self.path.clone()),
+            ("forcing", dir.join(&self.file.forcing.path)),
+        ];
+        if let Some(h) = &self.file.atmosphere.history {
+            files.push(("atmosphere_history", dir.join(h)));
+        }
+        files
+    }
+
     /// The folder of the site file (relative paths inside it are taken from here).
     pub fn dir(&self) -> PathBuf {
         self.path

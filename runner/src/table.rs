@@ -71,14 +71,23 @@ impl CsvTable {
             })
     }
 
-    fn bad(&self, row: usize, col: usize, why: &str) -> Error {
-        let r = &self.rows[row];
+    /// The line in the file of data row `row` (0 = first data row).
+    pub(crate) fn line(&self, row: usize) -> u64 {
+        self.rows
+            .get(row)
+            .and_then(|r| r.position())
+            .map_or(0, |p| p.line())
+    }
+
+    /// An error naming the file, line, column (number and name) and the cell's text.
+    pub(crate) fn bad(&self, row: usize, col: usize, why: &str) -> Error {
         Error::msg(format!(
-            "{}: line {}, column {}: `{}` {why}",
+            "{}: line {}, column {} ({}): `{}` {why}",
             self.path.display(),
-            r.position().map_or(0, |p| p.line()),
+            self.line(row),
+            col + 1,
             self.header[col],
-            &r[col]
+            &self.rows[row][col]
         ))
     }
 
@@ -95,8 +104,11 @@ impl CsvTable {
                 if s.is_empty() {
                     return Ok(f64::NAN);
                 }
-                s.parse::<f64>()
-                    .map_err(|_| self.bad(i, col, "is not a number"))
+                match s.parse::<f64>() {
+                    Ok(v) if v.is_finite() => Ok(v),
+                    Ok(_) => Err(self.bad(i, col, "is not a finite number")),
+                    Err(_) => Err(self.bad(i, col, "is not a number")),
+                }
             })
             .collect()
     }
@@ -116,8 +128,9 @@ impl CsvTable {
             .collect()
     }
 
-    /// The times of the `time` (or `date`) column.
+    /// The times of the `time` column, else the `date` column, else the `start` column (the
+    /// start of each group in `isodisc keeling` output, which so feeds `compare --observed`).
     pub(crate) fn time_column(&self) -> Result<Vec<LocalTime>> {
-        self.times(self.first_column(&["time", "date"])?)
+        self.times(self.first_column(&["time", "date", "start"])?)
     }
 }

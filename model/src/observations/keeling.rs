@@ -50,6 +50,11 @@ impl KeelingMethod {
     }
 }
 
+/// CO2 ranges (max − min, µmol mol⁻¹) at or below this count as constant: a tenth of the
+/// 0.01 µmol mol⁻¹ resolution of common CO2 analysers (common practice), so no real gradient is
+/// this small.
+pub const CONSTANT_CO2_RANGE_UMOL_MOL: f64 = 1e-3;
+
 /// Quality flags of a fit, as a small bitset.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Default)]
 pub struct KeelingFlags(u8);
@@ -66,12 +71,17 @@ impl KeelingFlags {
     pub const INFLUENTIAL_POINT: Self = Self(4);
     /// The York iteration did not converge within its iteration limit.
     pub const NOT_CONVERGED: Self = Self(8);
+    /// CO2 is constant within [`CONSTANT_CO2_RANGE_UMOL_MOL`]: the line is undefined (its slope
+    /// would divide by a spread of round-off), so every estimate is NaN rather than a number
+    /// like 1e14‰.
+    pub const CONSTANT_CO2: Self = Self(16);
 
-    const NAMES: [(Self, &'static str); 4] = [
+    const NAMES: [(Self, &'static str); 5] = [
         (Self::TOO_FEW_POINTS, "too_few_points"),
         (Self::SMALL_CO2_RANGE, "small_co2_range"),
         (Self::INFLUENTIAL_POINT, "influential_point"),
         (Self::NOT_CONVERGED, "not_converged"),
+        (Self::CONSTANT_CO2, "constant_co2"),
     ];
 
     /// No flag set.
@@ -304,8 +314,24 @@ impl<'a> KeelingData<'a> {
         if !converged {
             flags.insert(KeelingFlags::NOT_CONVERGED);
         }
-        let (source, source_se) = source_of(method, &line);
-        if n >= 4 && self.has_influential_point(method, &line, sums.as_ref(), settings) {
+        let (mut source, mut source_se) = source_of(method, &line);
+        let mut line = line;
+        let constant = n >= 2 && co2_range <= CONSTANT_CO2_RANGE_UMOL_MOL;
+        if constant || !(source.is_finite() && source_se.is_finite()) && n >= 3 {
+            if constant {
+                flags.insert(KeelingFlags::CONSTANT_CO2);
+            }
+            source = f64::NAN;
+            source_se = f64::NAN;
+            line = LineFit {
+                n: line.n,
+                intercept: f64::NAN,
+                intercept_se: f64::NAN,
+                slope: f64::NAN,
+                slope_se: f64::NAN,
+                r2: f64::NAN,
+            };
+        } else if n >= 4 && self.has_influential_point(method, &line, sums.as_ref(), settings) {
             flags.insert(KeelingFlags::INFLUENTIAL_POINT);
         }
         let half_width = if n >= 3 {
@@ -314,7 +340,7 @@ impl<'a> KeelingData<'a> {
             f64::NAN
         };
         let bootstrap_se_permil = match settings.bootstrap {
-            Some(b) if n >= 3 => self.bootstrap_se(method, settings, b),
+            Some(b) if n >= 3 && source.is_finite() => self.bootstrap_se(method, settings, b),
             _ => f64::NAN,
         };
         Ok(KeelingFit {

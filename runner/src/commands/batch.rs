@@ -20,7 +20,9 @@ use std::time::Instant;
 use indicatif::{ParallelProgressIterator, ProgressBar};
 use rayon::prelude::*;
 
-use super::ensemble::{check_spec_paths, read_steps, thread_pool, write_ensemble_files};
+use super::ensemble::{
+    check_members, check_spec_paths, check_threads, read_steps, thread_pool, write_ensemble_files,
+};
 use crate::cli::BatchArgs;
 use crate::commands::run::write_periods;
 use crate::commands::{Period, parse_period};
@@ -28,8 +30,10 @@ use crate::ensemble::manifest::{Manifest, ManifestSite};
 use crate::ensemble::spec::EnsembleSpec;
 use crate::ensemble::{Member, MemberPeriods, MemberStatus, run_members};
 use crate::error::{Context, Error, Result};
-use crate::output::write_atomic;
-use crate::output::{fnv1a64, replace_dir, sibling, write_json};
+use crate::output::{
+    FolderLock, check_not_input, clean_stale, fnv1a64, plural, replace_dir, sibling, track_temp,
+    untrack, write_json, write_marker,
+};
 use crate::priors::{PriorRow, prior_rows, read_priors_csv, write_priors, write_priors_csv};
 use crate::simulate::{NoSink, simulate};
 
@@ -98,14 +102,14 @@ pub fn shard_from_env(get: impl Fn(&str) -> Option<String>) -> Result<(usize, us
     let count = match num("SLURM_ARRAY_TASK_COUNT")? {
         Some(c) => c,
         None => num("SLURM_ARRAY_TASK_MAX")?
-            .map(|max| max + 1 - min.min(max + 1))
+            .map(|max| max.saturating_add(1) - min.min(max.saturating_add(1)))
             .ok_or_else(|| {
                 Error::msg(
                     "--shard env: neither SLURM_ARRAY_TASK_COUNT nor SLURM_ARRAY_TASK_MAX is set",
                 )
             })?,
     };
-    if id < min || id - min + 1 > count {
+    if id < min || id - min >= count {
         return Err(Error::msg(format!(
             "--shard env: task {id} lies outside the array (min {min}, count {count})"
         )));
@@ -176,6 +180,65 @@ pub(crate) fn combine_priors(dir: &Path, ids: &[&str], identity: &serde_json::Va
     write_priors(dir, &rows, &s("title"), &s("history"))
 }
 
+/// Writes a finished site's `done.json`: its inputs (see `BatchPlan::site_inputs`) and the size
+/// and checksum of every file in `dir`, so that a truncated or edited file is found by the next
+/// batch (which re-runs the site) and by `merge` (which refuses it).
+fn write_done(dir: &Path, inputs: serde_json::Value) -> Result<()> {
+    let mut outputs = serde_json::Map::new();
+    let mut names: Vec<String> = fs::read_dir(dir)?
+        .flatten()
+        .map(|e| e.file_name().to_string_lossy().into_owned())
+        .filter(|n| !n.starts_with('.'))
+        .collect();
+    names.sort();
+    for name in names {
+        let bytes = fs::read(dir.join(&name))
+            .with_context(|| format!("cannot read {}", dir.join(&name).display()))?;
+        outputs.insert(
+            name,
+            serde_json::json!({"bytes": bytes.len(), "fnv1a64": fnv1a64(&bytes)}),
+        );
+    }
+    let done = serde_json::json!({
+        "isodisc_version": env!("CARGO_PKG_VERSION"),
+        "inputs": inputs,
+        "outputs": outputs,
+    });
+    write_json(&dir.join("done.json"), &done)
+}
+
+/// Reads a site folder's `done.json` and checks that every file it lists is there, whole and
+/// unchanged; the error names the file.
+pub(crate) fn read_done(dir: &Path) -> Result<serde_json::Value> {
+    let path = dir.join("done.json");
+    let text = fs::read_to_string(&path)
+        .with_context(|| format!("{}: the site is not finished (no done.json)", dir.display()))?;
+    let done: serde_json::Value =
+        serde_json::from_str(&text).with_context(|| format!("{} is damaged", path.display()))?;
+    let outputs = done["outputs"].as_object().ok_or_else(|| {
+        Error::msg(format!(
+            "{} lists no outputs (written by an older isodisc: re-run the batch into this folder)",
+            path.display()
+        ))
+    })?;
+    for (name, want) in outputs {
+        let file = dir.join(name);
+        let bytes = fs::read(&file).with_context(|| format!("cannot read {}", file.display()))?;
+        if Some(bytes.len() as u64) != want["bytes"].as_u64()
+            || want["fnv1a64"].as_str() != Some(fnv1a64(&bytes).as_str())
+        {
+            return Err(Error::msg(format!(
+                "{}: {} bytes, {} when the site finished: the file was cut short or changed since; \
+                 re-run the batch into this folder to redo the site",
+                file.display(),
+                bytes.len(),
+                want["bytes"]
+            )));
+        }
+    }
+    Ok(done)
+}
+
 impl BatchPlan {
     /// Reads the manifest, its sites and the spec, and checks the flags, before any work starts.
     pub fn from_args(args: &BatchArgs) -> Result<Self> {
@@ -188,9 +251,7 @@ impl BatchPlan {
                     check_spec_paths(&spec, &s.site)
                         .with_context(|| format!("manifest site `{}`", s.id))?;
                 }
-                if members == 0 {
-                    return Err(Error::msg("--members must be at least 1"));
-                }
+                check_members(members)?;
                 Some(SiteEnsemble {
                     spec,
                     members,
@@ -200,15 +261,21 @@ impl BatchPlan {
             (None, None, None) => None,
             _ => return Err(Error::msg("--spec, --members and --seed go together")),
         };
-        if args.threads == Some(0) {
-            return Err(Error::msg("--threads must be at least 1"));
-        }
+        check_threads(args.threads)?;
         if args.out.exists() && !args.out.is_dir() {
             return Err(Error::msg(format!(
                 "--out {}: exists and is not a folder",
                 args.out.display()
             )));
         }
+        let mut inputs = vec![manifest.path.clone()];
+        if let Some(e) = &ensemble {
+            inputs.push(e.spec.path.clone());
+        }
+        for s in &manifest.sites {
+            inputs.extend(s.site.input_files().into_iter().map(|f| f.1));
+        }
+        check_not_input("--out", &args.out, &inputs)?;
         Ok(Self {
             manifest,
             out: args.out.clone(),
@@ -234,45 +301,49 @@ impl BatchPlan {
             .collect()
     }
 
-    /// The marker a finished site carries: checksums of everything its outputs depend on.
-    fn marker(&self, s: &ManifestSite) -> Result<String> {
-        let forcing = s.forcing_path();
-        let bytes = fs::read(&forcing)
-            .with_context(|| format!("site `{}`: cannot read {}", s.id, forcing.display()))?;
+    /// What a finished site's outputs depend on: the checksum of every input file (site file,
+    /// weather, atmospheric history), the overrides, weight, spec, members, seed, period and the
+    /// isodisc version. Stored as `inputs` in its `done.json`; a re-run skips the site only when
+    /// this is unchanged.
+    fn site_inputs(&self, s: &ManifestSite) -> Result<serde_json::Value> {
         let overrides: String = s
             .overrides
             .iter()
             .map(|(k, v)| format!("{k}={v:?}\n"))
             .collect();
-        let value = serde_json::json!({
+        Ok(serde_json::json!({
             "site": s.id,
             "isodisc_version": env!("CARGO_PKG_VERSION"),
-            "inputs": {
-                "site_file_fnv1a64": fnv1a64(s.site.text.as_bytes()),
-                "forcing_fnv1a64": fnv1a64(&bytes),
-                "overrides_fnv1a64": fnv1a64(overrides.as_bytes()),
-                "spec_fnv1a64": self.ensemble.as_ref().map(|e| fnv1a64(e.spec.text.as_bytes())),
-                "members": self.ensemble.as_ref().map(|e| e.members),
-                "seed": self.ensemble.as_ref().map(|e| e.seed),
-                "weight": s.weight,
-                "from": self.from_to.0, "to": self.from_to.1,
-            }
-        });
-        Ok(serde_json::to_string_pretty(&value)? + "\n")
+            // Checksums only: the same files reached by another path are the same inputs.
+            "files_fnv1a64": s.site.input_files().iter().map(|(role, path)| {
+                fs::read(path)
+                    .map(|b| ((*role).to_string(), fnv1a64(&b).into()))
+                    .with_context(|| format!("site `{}`: cannot read {}", s.id, path.display()))
+            }).collect::<Result<serde_json::Map<String, serde_json::Value>>>()?,
+            "overrides_fnv1a64": fnv1a64(overrides.as_bytes()),
+            "spec_fnv1a64": self.ensemble.as_ref().map(|e| fnv1a64(e.spec.text.as_bytes())),
+            "members": self.ensemble.as_ref().map(|e| e.members),
+            "seed": self.ensemble.as_ref().map(|e| e.seed),
+            "weight": s.weight,
+            "from": self.from_to.0, "to": self.from_to.1,
+        }))
     }
 
     /// Runs one site into `sites/<id>` unless its marker matches. Returns true when it ran.
     fn run_site(&self, s: &ManifestSite, sites_dir: &Path) -> Result<bool> {
-        let marker = self.marker(s)?;
+        let inputs = self.site_inputs(s)?;
         let dir = sites_dir.join(&s.id);
-        if fs::read_to_string(dir.join("done.json")).is_ok_and(|m| m == marker) {
+        clean_stale(&dir);
+        if read_done(&dir).is_ok_and(|done| done["inputs"] == inputs) {
             return Ok(false);
         }
         let tmp = sibling(&dir, "tmp");
         if tmp.exists() {
             fs::remove_dir_all(&tmp)?;
         }
-        fs::create_dir_all(&tmp)?;
+        track_temp(&tmp);
+        fs::create_dir_all(&tmp)
+            .with_context(|| format!("cannot create the folder {}", tmp.display()))?;
         let result = (|| -> Result<()> {
             let (steps, report) = read_steps(&s.site, self.period)?;
             let members: Vec<Member> = match &self.ensemble {
@@ -316,11 +387,12 @@ impl BatchPlan {
                 &members,
             );
             write_priors_csv(&tmp.join("priors.csv"), &rows)?;
-            write_atomic(&tmp.join("done.json"), marker.as_bytes())?;
+            write_done(&tmp, inputs)?;
             replace_dir(&tmp, &dir, true)
         })();
         if result.is_err() {
             let _ = fs::remove_dir_all(&tmp);
+            untrack(&tmp);
         }
         result.with_context(|| format!("site `{}`", s.id))?;
         Ok(true)
@@ -333,6 +405,13 @@ impl BatchPlan {
         let mut batch = identity.clone();
         batch["shard"] = format!("{}/{}", self.shard.0, self.shard.1).into();
         let batch_file = self.out.join("batch.json");
+        let lock = FolderLock::acquire(&self.out)?;
+        if lock.took_over && !self.quiet {
+            eprintln!(
+                "isodisc batch: {} held a lock file of an ended batch; taken over",
+                self.out.display()
+            );
+        }
         if let Ok(text) = fs::read_to_string(&batch_file) {
             let mut old: serde_json::Value = serde_json::from_str(&text)
                 .with_context(|| format!("{} is not a batch file", batch_file.display()))?;
@@ -344,12 +423,16 @@ impl BatchPlan {
                     self.out.display()
                 )));
             }
-        } else if self.out.exists() && fs::read_dir(&self.out)?.next().is_some() {
+        } else if fs::read_dir(&self.out)?
+            .flatten()
+            .any(|e| e.file_name() != crate::output::LOCK_FILE)
+        {
             return Err(Error::msg(format!(
                 "--out {}: the folder is not empty and holds no batch.json",
                 self.out.display()
             )));
         }
+        write_marker(&self.out, "batch")?;
         let sites_dir = self.out.join("sites");
         fs::create_dir_all(&sites_dir)
             .with_context(|| format!("cannot create {}", sites_dir.display()))?;
@@ -390,9 +473,9 @@ impl BatchPlan {
         write_json(&self.out.join("run.json"), &log)?;
         if !failed.is_empty() {
             return Err(Error::msg(format!(
-                "{} of {} sites failed (finished sites are kept; re-run to resume): {}",
+                "{} of {} failed (finished sites are kept; re-run to resume): {}",
                 failed.len(),
-                sites.len(),
+                plural(sites.len() as u64, "site"),
                 failed.join("; ")
             )));
         }
@@ -400,10 +483,10 @@ impl BatchPlan {
         combine_priors(&self.out, &ids, &identity)?;
         if !self.quiet {
             println!(
-                "isodisc batch: shard {}/{}: {} sites ({ran} run, {skipped} already done) in {:.1} s\nresults: {}",
+                "isodisc batch: shard {}/{}: {} ({ran} run, {skipped} already done) in {:.1} s\nresults: {}",
                 self.shard.0,
                 self.shard.1,
-                sites.len(),
+                plural(sites.len() as u64, "site"),
                 started.elapsed().as_secs_f64(),
                 self.out.display()
             );

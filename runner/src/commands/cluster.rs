@@ -50,6 +50,30 @@ fn valid_mem(m: &str) -> bool {
     !digits.is_empty() && digits.bytes().all(|b| b.is_ascii_digit()) && m.len() - digits.len() <= 1
 }
 
+/// Refuses a value that would reach the shell or an `#SBATCH` line as anything but plain text:
+/// control characters (a newline would start a command), quotes, `$`, backquotes, backslashes and
+/// `!`; with `words_only`, also spaces and `%` (an `#SBATCH` line splits at spaces and expands `%`).
+fn check_shell_safe(flag: &str, value: &str, words_only: bool) -> Result<()> {
+    let bad = value.chars().find(|&c| {
+        c.is_control() || "\"'`$\\!".contains(c) || (words_only && (c.is_whitespace() || c == '%'))
+    });
+    if let Some(c) = bad {
+        return Err(Error::msg(format!(
+            "{flag} {value:?}: the character {c:?} is not allowed here: the value is written into a \
+             shell script run on the cluster{}",
+            if words_only {
+                " (letters, digits and . _ - , / : + = only)"
+            } else {
+                ""
+            }
+        )));
+    }
+    if value.is_empty() {
+        return Err(Error::msg(format!("{flag}: empty")));
+    }
+    Ok(())
+}
+
 impl ClusterScriptPlan {
     /// Checks the arguments; every path in the script is made absolute, since jobs start elsewhere.
     pub fn from_args(a: &ClusterScriptArgs) -> Result<Self> {
@@ -83,6 +107,34 @@ impl ClusterScriptPlan {
                 a.mem
             )));
         }
+        for (flag, v) in [("--partition", &a.partition), ("--account", &a.account)] {
+            if let Some(v) = v {
+                check_shell_safe(flag, v, true)?;
+                if !v
+                    .chars()
+                    .all(|c| c.is_ascii_alphanumeric() || "._-,".contains(c))
+                {
+                    return Err(Error::msg(format!(
+                        "{flag} {v:?}: a Slurm name is letters, digits, '.', '_', '-' (',' between \
+                         several)"
+                    )));
+                }
+            }
+        }
+        if let Some(n) = a.members {
+            super::ensemble::check_members(n as usize)?;
+        }
+        let sites = crate::ensemble::manifest::Manifest::load(&a.manifest)?
+            .sites
+            .len();
+        if a.shards as usize > sites {
+            return Err(Error::msg(format!(
+                "--shards {}: the manifest has {}; use at most {sites} shards (a shard with no \
+                 site would only queue an empty job)",
+                a.shards,
+                crate::output::plural(sites as u64, "site")
+            )));
+        }
         let isodisc = match &a.isodisc {
             Some(p) => absolute(p)?,
             None => std::env::current_exe().context("cannot find the isodisc program's path")?,
@@ -92,9 +144,21 @@ impl ClusterScriptPlan {
             (None, None) => None,
             _ => return Err(Error::msg("--spec and --members go together")),
         };
+        let mut inputs = vec![a.manifest.clone()];
+        inputs.extend(a.spec.clone());
+        crate::output::check_not_input("--out", &a.out, &inputs)?;
+        let manifest = absolute(&a.manifest)?;
+        let results = absolute(&a.results)?;
+        check_shell_safe("manifest", &manifest.display().to_string(), false)?;
+        check_shell_safe("--results", &results.display().to_string(), true)?;
+        check_shell_safe("--isodisc", &isodisc.display().to_string(), false)?;
+        check_shell_safe("--out", &a.out.display().to_string(), false)?;
+        if let Some((spec, _, _)) = &ensemble {
+            check_shell_safe("--spec", &spec.display().to_string(), false)?;
+        }
         Ok(Self {
-            manifest: absolute(&a.manifest)?,
-            results: absolute(&a.results)?,
+            manifest,
+            results,
             isodisc,
             shards: a.shards,
             threads: a.threads,

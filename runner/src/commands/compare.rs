@@ -11,9 +11,9 @@ use std::path::PathBuf;
 use isodisc_model::observations::{LagAnalysis, LagSettings, Scores, lag_analysis, scores};
 use serde_json::json;
 
-use crate::cli::{CompareArgs, Format, MatchArg};
+use crate::cli::{CompareArgs, CompareFormat, MatchArg};
 use crate::error::{Context, Error, Result};
-use crate::output::{AtomicFile, json_num};
+use crate::output::{AtomicFile, json_num, plural};
 pub(crate) use crate::table::CsvTable;
 
 /// A series keyed by day (days since 1970-01-01) or by minute, several values per key averaged.
@@ -34,10 +34,43 @@ pub(crate) fn keyed_mean(keys: &[i64], values: &[f64]) -> Keyed {
         .collect()
 }
 
+/// The numbers of `column` (empty cells are gaps, NaN), refusing values no measurement can have:
+/// a δ13C column (`d13c…`, or `intercept`: the source δ13C of `isodisc keeling`) outside −100‰ to
+/// +50‰, a CO2 column (`co2…`) outside (0, 100 000] µmol mol⁻¹. The error names file, line and
+/// column.
+pub(crate) fn physical_numbers(table: &CsvTable, column: &str) -> Result<Vec<f64>> {
+    use super::keeling::{CO2_MAX_UMOL_MOL, D13C_RANGE_PERMIL};
+    let col = table.column(column)?;
+    let values = table.numbers(col)?;
+    let range = if column.starts_with("d13c") || column == "intercept" {
+        Some((
+            D13C_RANGE_PERMIL.0,
+            D13C_RANGE_PERMIL.1,
+            "the δ13C range [-100, 50] ‰",
+        ))
+    } else if column.starts_with("co2") {
+        Some((
+            f64::MIN_POSITIVE,
+            CO2_MAX_UMOL_MOL,
+            "the CO2 range (0, 100000] µmol mol⁻¹",
+        ))
+    } else {
+        None
+    };
+    if let Some((lo, hi, what)) = range
+        && let Some(i) = values
+            .iter()
+            .position(|v| !v.is_nan() && !(lo..=hi).contains(v))
+    {
+        return Err(table.bad(i, col, &format!("is outside {what}")));
+    }
+    Ok(values)
+}
+
 /// The predicted file's series of `column` keyed by day (from `period`, daily files) or by minute
 /// (from `time`, step files).
 pub(crate) fn predicted_series(table: &CsvTable, column: &str, by: MatchArg) -> Result<Keyed> {
-    let values = table.numbers(table.column(column)?)?;
+    let values = physical_numbers(table, column)?;
     let keys: Vec<i64> = match by {
         MatchArg::Daily => {
             let col = table.column("period").map_err(|e| {
@@ -63,7 +96,7 @@ pub(crate) fn predicted_series(table: &CsvTable, column: &str, by: MatchArg) -> 
 /// The observed file's series of `column`, keyed like [`predicted_series`]; several observations
 /// in one day (or at one time) are averaged.
 pub(crate) fn observed_series(table: &CsvTable, column: &str, by: MatchArg) -> Result<Keyed> {
-    let values = table.numbers(table.column(column)?)?;
+    let values = physical_numbers(table, column)?;
     let times = table.time_column()?;
     let keys: Vec<i64> = times
         .iter()
@@ -85,7 +118,7 @@ pub struct ComparePlan {
     match_by: MatchArg,
     lags: Option<LagSettings>,
     driver: String,
-    format: Format,
+    format: CompareFormat,
     out: Option<PathBuf>,
 }
 
@@ -101,9 +134,6 @@ pub struct Comparison {
 impl ComparePlan {
     /// Validates the arguments: the format, the lag settings and that lags are daily.
     pub fn from_args(args: &CompareArgs) -> Result<Self> {
-        if args.format == Format::Csv {
-            return Err(Error::msg("--format: compare writes `table` or `json`"));
-        }
         let lags = match args.lags {
             Some(k) => {
                 if args.match_by != MatchArg::Daily {
@@ -113,6 +143,13 @@ impl ComparePlan {
             }
             None => None,
         };
+        if let Some(out) = &args.out {
+            crate::output::check_not_input(
+                "--out",
+                out,
+                &[args.predicted.clone(), args.observed.clone()],
+            )?;
+        }
         Ok(Self {
             predicted: args.predicted.clone(),
             observed: args.observed.clone(),
@@ -180,12 +217,12 @@ impl ComparePlan {
 
     fn write(&self, w: &mut dyn Write, c: &Comparison) -> Result<()> {
         match self.format {
-            Format::Json => {
+            CompareFormat::Json => {
                 serde_json::to_writer_pretty(&mut *w, &self.json(c))?;
                 writeln!(w)?;
                 Ok(())
             }
-            _ => self.table(w, c),
+            CompareFormat::Table => self.table(w, c),
         }
     }
 
@@ -246,9 +283,9 @@ impl ComparePlan {
         if let (Some(l), Some(settings)) = (&c.lags, &self.lags) {
             writeln!(
                 w,
-                "\nlag k (days): observed against {} averaged over {} day(s) ending k days earlier",
+                "\nlag k (days): observed against {} averaged over {} ending k days earlier",
                 self.driver,
-                settings.window_days()
+                plural(settings.window_days() as u64, "day")
             )?;
             writeln!(w, "{:>4}  {:>5}  {:>8}  {:>10}", "k", "n", "r", "p")?;
             for x in &l.lags {

@@ -5,7 +5,6 @@
 //! when all are written. Member i depends only on (seed, i), so the files (all but `run.json`)
 //! are byte-identical for any thread count.
 
-use std::fs;
 use std::path::{Path, PathBuf};
 use std::time::Instant;
 
@@ -19,7 +18,7 @@ use crate::ensemble::{Member, MemberStatus, run_members};
 use crate::error::{Context, Error, Result};
 use crate::forcing::{ForcingReader, ForcingReport, ForcingStep};
 
-use crate::output::{check_out_dir, fnv1a64, write_folder, write_json};
+use crate::output::{check_out_dir, fnv1a64, inputs_json, write_folder, write_json};
 use crate::site::Site;
 
 /// Reads a site's weather once into memory, for every member to replay.
@@ -39,11 +38,37 @@ pub(crate) fn read_steps(site: &Site, period: Period) -> Result<(Vec<ForcingStep
     Ok((steps, reader.report()))
 }
 
+/// Most members an ensemble may have: ten million members keep the per-member results (a few
+/// kB each) within the memory of a large node; more is almost certainly a typo.
+pub const MAX_MEMBERS: usize = 10_000_000;
+
+/// Checks `--members`: 1 to [`MAX_MEMBERS`].
+pub(crate) fn check_members(members: usize) -> Result<()> {
+    if members == 0 || members > MAX_MEMBERS {
+        return Err(Error::msg(format!(
+            "--members {members}: use 1 to {MAX_MEMBERS}"
+        )));
+    }
+    Ok(())
+}
+
+/// Most worker threads a command takes: far above any node's cores, low enough that a typo
+/// (100000000) is refused instead of exhausting the system.
+pub const MAX_THREADS: usize = 1024;
+
+/// Checks `--threads`: 1 to [`MAX_THREADS`].
+pub(crate) fn check_threads(threads: Option<usize>) -> Result<()> {
+    match threads {
+        Some(t) if t == 0 || t > MAX_THREADS => {
+            Err(Error::msg(format!("--threads {t}: use 1 to {MAX_THREADS}")))
+        }
+        _ => Ok(()),
+    }
+}
+
 /// A rayon pool of `threads` threads (None: one per core).
 pub(crate) fn thread_pool(threads: Option<usize>) -> Result<rayon::ThreadPool> {
-    if threads == Some(0) {
-        return Err(Error::msg("--threads must be at least 1"));
-    }
+    check_threads(threads)?;
     rayon::ThreadPoolBuilder::new()
         .num_threads(threads.unwrap_or(0))
         .build()
@@ -132,13 +157,11 @@ impl EnsemblePlan {
         let site = Site::load(&args.site)?;
         let spec = EnsembleSpec::load(&args.spec)?;
         check_spec_paths(&spec, &site)?;
-        if args.members == 0 {
-            return Err(Error::msg("--members must be at least 1"));
-        }
-        if args.threads == Some(0) {
-            return Err(Error::msg("--threads must be at least 1"));
-        }
-        check_out_dir(&args.out, args.overwrite)?;
+        check_members(args.members)?;
+        check_threads(args.threads)?;
+        let mut inputs: Vec<PathBuf> = site.input_files().into_iter().map(|f| f.1).collect();
+        inputs.push(spec.path.clone());
+        check_out_dir(&args.out, args.overwrite, &inputs)?;
         Ok(Self {
             site,
             spec,
@@ -156,7 +179,9 @@ impl EnsemblePlan {
     /// Runs the members and writes the results.
     pub fn run(&self) -> Result<()> {
         let started = Instant::now();
-        let summary = write_folder(&self.out, self.overwrite, |tmp| self.run_into(tmp, started))?;
+        let summary = write_folder(&self.out, self.overwrite, "ensemble", |tmp| {
+            self.run_into(tmp, started)
+        })?;
         if !self.quiet {
             print!("{summary}");
         }
@@ -193,13 +218,12 @@ impl EnsemblePlan {
                 first[0]["message"]
             )));
         }
-        let forcing_bytes = fs::read(&report.path)
-            .with_context(|| format!("cannot read {}", report.path.display()))?;
         let log = serde_json::json!({
             "isodisc_version": env!("CARGO_PKG_VERSION"),
             "command": self.command,
+            "inputs": inputs_json(&self.site.input_files())?,
             "site_file": {"path": self.site.path.display().to_string(), "fnv1a64": fnv1a64(self.site.text.as_bytes())},
-            "forcing": {"path": report.path.display().to_string(), "fnv1a64": fnv1a64(&forcing_bytes),
+            "forcing": {"path": report.path.display().to_string(),
                 "steps": report.steps, "first_step": report.first.map(|t| t.to_string()),
                 "last_step": report.last.map(|t| t.to_string())},
             "spec": spec_json(&self.spec),

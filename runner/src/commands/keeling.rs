@@ -43,6 +43,12 @@ pub const OUTPUT_COLUMNS: [&str; 16] = [
     "bootstrap_se",
 ];
 
+/// Largest CO2 mole fraction a sample may have (µmol mol⁻¹): 10 %, far above any canopy air.
+pub const CO2_MAX_UMOL_MOL: f64 = 100_000.0;
+
+/// Range of a sample's δ13C (‰ VPDB): wider than any natural CO2 (about −60‰ to +10‰).
+pub const D13C_RANGE_PERMIL: (f64, f64) = (-100.0, 50.0);
+
 /// Minutes in a day.
 const DAY_MIN: i64 = 1440;
 
@@ -141,10 +147,10 @@ pub fn parse_window_minutes(text: &str) -> Result<i64> {
         _ => return Err(bad()),
     };
     let n: i64 = t[..t.len() - 1].trim().parse().map_err(|_| bad())?;
-    if n <= 0 || n * unit > 366 * DAY_MIN {
-        return Err(bad());
+    match n.checked_mul(unit) {
+        Some(m) if n > 0 && m <= 366 * DAY_MIN => Ok(m),
+        _ => Err(bad()),
     }
-    Ok(n * unit)
 }
 
 impl KeelingPlan {
@@ -186,10 +192,13 @@ impl KeelingPlan {
         };
         let background = match (args.background_co2, args.background_d13c) {
             (Some(c), Some(d)) => {
-                if !(c.is_finite() && c > 0.0 && d.is_finite()) {
+                if !(c > 0.0
+                    && c <= CO2_MAX_UMOL_MOL
+                    && (D13C_RANGE_PERMIL.0..=D13C_RANGE_PERMIL.1).contains(&d))
+                {
                     return Err(Error::msg(format!(
-                        "--background-co2 {c} --background-d13c {d}: CO2 must be > 0 µmol mol⁻¹ \
-                         and δ13C finite"
+                        "--background-co2 {c} --background-d13c {d}: CO2 must be in (0, 100000] µmol mol⁻¹ \
+                         and δ13C in [-100, 50] ‰"
                     )));
                 }
                 Some((c, d))
@@ -202,6 +211,11 @@ impl KeelingPlan {
         if let Some(n) = args.bootstrap {
             settings =
                 settings.with_bootstrap(Bootstrap::new(n, args.seed).context("--bootstrap")?);
+        }
+        if let Some(out) = &args.out {
+            let mut inputs = vec![args.samples.clone()];
+            inputs.extend(args.site.clone());
+            crate::output::check_not_input("--out", out, &inputs)?;
         }
         Ok(Self {
             samples: args.samples.clone(),
@@ -651,8 +665,9 @@ impl SampleReader {
             let cell = |i: usize| rec.get(i).unwrap_or(b"");
             let bad = |i: usize, why: &str| {
                 Error::msg(format!(
-                    "{}: line {line}, column {}: `{}` {why}",
+                    "{}: line {line}, column {} ({}): `{}` {why}",
                     self.path.display(),
+                    i + 1,
                     self.header[i],
                     String::from_utf8_lossy(cell(i))
                 ))
@@ -672,14 +687,32 @@ impl SampleReader {
                     Err(bad(i, "must be > 0"))
                 }
             };
+            // Physical ranges (docs/observations.md): CO2 above 0 and at most 100 000 µmol mol⁻¹
+            // (10 %, far above any canopy air); δ13C from −100‰ to +50‰ (beyond any natural CO2).
+            let co2 = |i: usize| -> Result<f64> {
+                let v = positive(i)?;
+                if v <= CO2_MAX_UMOL_MOL {
+                    Ok(v)
+                } else {
+                    Err(bad(i, "is outside the CO2 range (0, 100000] µmol mol⁻¹"))
+                }
+            };
+            let delta = |i: usize| -> Result<f64> {
+                let v = num(i)?;
+                if (D13C_RANGE_PERMIL.0..=D13C_RANGE_PERMIL.1).contains(&v) {
+                    Ok(v)
+                } else {
+                    Err(bad(i, "is outside the δ13C range [-100, 50] ‰"))
+                }
+            };
             let time = std::str::from_utf8(cell(self.time))
                 .ok()
                 .and_then(|s| LocalTime::parse_iso(s).ok())
                 .ok_or_else(|| bad(self.time, "is not a time YYYY-MM-DDTHH:MM[:SS]"))?;
             let sample = Sample {
                 time,
-                co2: positive(self.co2)?,
-                d13c: num(self.d13c)?,
+                co2: co2(self.co2)?,
+                d13c: delta(self.d13c)?,
                 group: self.group.map_or(&b""[..], cell),
                 sd: self
                     .sd
@@ -687,7 +720,7 @@ impl SampleReader {
                     .transpose()?,
                 bg: self
                     .bg
-                    .map(|(a, b)| Ok::<_, Error>((positive(a)?, num(b)?)))
+                    .map(|(a, b)| Ok::<_, Error>((co2(a)?, delta(b)?)))
                     .transpose()?,
             };
             f(&sample)?;

@@ -61,7 +61,11 @@ impl LeafPlan {
         for s in &args.set {
             let (name, value) = parse_assignment(s)?;
             model.set(&name, value).with_context(|| {
-                format!("--set {name}={value} for the {} leaf", pathway.as_str())
+                format!(
+                    "--set {name}={} for the {} leaf",
+                    isodisc_model::error::show_value(value),
+                    pathway.as_str()
+                )
             })?;
         }
         let base = LeafConditions {
@@ -91,6 +95,9 @@ impl LeafPlan {
         }
         if let Some(d) = args.d13c_substrate {
             check_flag("d13c_substrate", d, -100.0, 50.0, "permil")?;
+        }
+        if let (Some(out), Some(input)) = (&args.output, &args.input) {
+            crate::output::check_not_input("--output", out, std::slice::from_ref(input))?;
         }
         Ok(Self {
             model,
@@ -172,6 +179,13 @@ impl LeafPlan {
             .headers()
             .with_context(|| format!("cannot read the header of {}", path.display()))?
             .clone();
+        if header.is_empty() {
+            return Err(Error::msg(format!(
+                "{}: the file is empty; expected a header row naming the columns (t_leaf, ppfd, \
+                 vpd or rh, ca, ...) and one row per leaf",
+                path.display()
+            )));
+        }
         let columns = map_columns(&header, self.model.pathway(), path)?;
         let has_vpd = columns.iter().any(|c| matches!(c, Column::Condition(2)));
         let has_rh = columns.iter().any(|c| matches!(c, Column::Rh));
@@ -297,8 +311,9 @@ fn check_flag(name: &str, v: f64, min: f64, max: f64, unit: &str) -> Result<()> 
         Ok(())
     } else {
         Err(Error::msg(format!(
-            "--{} = {v}: valid range is {min} to {max} {unit}",
-            name.replace('_', "-")
+            "--{} = {}: valid range is {min} to {max} {unit}",
+            name.replace('_', "-"),
+            isodisc_model::error::show_value(v)
         )))
     }
 }
@@ -464,8 +479,9 @@ impl RowWriter {
         match self.format {
             Format::Csv => writeln!(w, "{}", self.names.join(","))?,
             Format::Table => {
+                // A space before every cell keeps long names and numbers apart.
                 for n in &self.names {
-                    write!(w, "{n:>16}")?;
+                    write!(w, " {n:>15}")?;
                 }
                 writeln!(w)?;
             }
@@ -490,22 +506,23 @@ impl RowWriter {
             Format::Csv | Format::Table => {
                 let table = self.format == Format::Table;
                 for (i, v) in nums.enumerate() {
-                    let start = self.buf.len();
                     if i > 0 && !table {
                         self.buf.push(',');
                     }
+                    let start = self.buf.len();
                     fmt_num(&mut self.buf, v);
                     if table {
                         let width = self.buf.len() - start;
-                        let pad = 16usize.saturating_sub(width.max(1));
                         if width == 0 {
                             self.buf.push('-');
                         }
+                        let pad = 1 + 15usize.saturating_sub(width.max(1));
                         self.buf.insert_str(start, &" ".repeat(pad));
                     }
                 }
                 if table {
-                    self.buf.push_str(&format!("{:>16}", s.limitation.as_str()));
+                    self.buf
+                        .push_str(&format!(" {:>15}", s.limitation.as_str()));
                 } else {
                     self.buf.push(',');
                     self.buf.push_str(s.limitation.as_str());

@@ -6,10 +6,11 @@
 use std::fs;
 use std::path::{Path, PathBuf};
 
-use super::batch::combine_priors;
+use super::batch::{combine_priors, read_done};
 use crate::cli::MergeArgs;
 use crate::error::{Context, Error, Result};
-use crate::output::{check_out_dir, replace_dir, sibling, write_json};
+use crate::output::{check_out_dir, write_folder, write_json};
+use crate::priors::read_priors_csv;
 
 /// A validated `isodisc merge`.
 #[derive(Debug)]
@@ -22,19 +23,40 @@ pub struct MergePlan {
 }
 
 fn read_batch(dir: &Path) -> Result<serde_json::Value> {
+    let not_shard = |why: &str| {
+        Error::msg(format!(
+            "{}: not a batch shard ({why}); give the folders written by `isodisc batch --out`",
+            dir.display()
+        ))
+    };
+    if !dir.is_dir() {
+        return Err(not_shard("no such folder"));
+    }
     let path = dir.join("batch.json");
-    let text = fs::read_to_string(&path)
-        .with_context(|| format!("{}: not a batch folder", dir.display()))?;
+    let text = fs::read_to_string(&path).map_err(|_| not_shard("it holds no batch.json"))?;
     let mut v: serde_json::Value =
         serde_json::from_str(&text).with_context(|| format!("cannot read {}", path.display()))?;
+    if !v["sites"].is_array() || v.get("isodisc_version").is_none() {
+        return Err(not_shard("its batch.json is not one isodisc wrote"));
+    }
     v.as_object_mut().map(|o| o.remove("shard"));
     Ok(v)
+}
+
+/// The months (`YYYY-MM`) of a site folder's `priors.csv`.
+fn months_of(site_dir: &Path) -> Result<Vec<String>> {
+    let mut m: Vec<String> = read_priors_csv(&site_dir.join("priors.csv"))?
+        .into_iter()
+        .map(|r| r.month)
+        .collect();
+    m.dedup();
+    Ok(m)
 }
 
 impl MergePlan {
     /// Checks the flags.
     pub fn from_args(args: &MergeArgs) -> Result<Self> {
-        check_out_dir(&args.out, args.overwrite)?;
+        check_out_dir(&args.out, args.overwrite, &args.shards)?;
         Ok(Self {
             shards: args.shards.clone(),
             out: args.out.clone(),
@@ -85,16 +107,46 @@ impl MergePlan {
         }
         if !gaps.is_empty() {
             return Err(Error::msg(format!(
-                "{} manifest site(s) are finished in none of the shards: {}",
-                gaps.len(),
+                "{} finished in none of the shards: {}",
+                if gaps.len() == 1 {
+                    "1 manifest site is".to_string()
+                } else {
+                    format!("{} manifest sites are", gaps.len())
+                },
                 gaps.join(", ")
             )));
         }
-        let tmp = sibling(&self.out, "tmp");
-        if tmp.exists() {
-            fs::remove_dir_all(&tmp)?;
+        // Every site whole (its files as they were when it finished) and with every month of the
+        // batch (the months of all sites together).
+        let mut site_months: Vec<Vec<String>> = Vec::new();
+        for (id, src) in ids.iter().zip(&sources) {
+            let dir = src.join("sites").join(id);
+            read_done(&dir).with_context(|| format!("site `{id}`"))?;
+            site_months.push(months_of(&dir).with_context(|| format!("site `{id}`"))?);
         }
-        let result = (|| -> Result<()> {
+        let mut all: Vec<String> = site_months.iter().flatten().cloned().collect();
+        all.sort();
+        all.dedup();
+        for ((id, src), months) in ids.iter().zip(&sources).zip(&site_months) {
+            let missing: Vec<&str> = all
+                .iter()
+                .filter(|m| !months.contains(m))
+                .map(String::as_str)
+                .collect();
+            if !missing.is_empty() {
+                return Err(Error::msg(format!(
+                    "site `{id}` ({}) lacks {} of the batch: {}",
+                    src.join("sites").join(id).join("priors.csv").display(),
+                    if missing.len() == 1 {
+                        "1 month".to_string()
+                    } else {
+                        format!("{} months", missing.len())
+                    },
+                    missing.join(", ")
+                )));
+            }
+        }
+        write_folder(&self.out, self.overwrite, "merge", |tmp| {
             for (id, src) in ids.iter().zip(&sources) {
                 let from = src.join("sites").join(id);
                 let to = tmp.join("sites").join(id);
@@ -108,20 +160,15 @@ impl MergePlan {
             let mut batch = identity.clone();
             batch["shard"] = "1/1".into();
             write_json(&tmp.join("batch.json"), &batch)?;
-            combine_priors(&tmp, &ids, &identity)?;
+            combine_priors(tmp, &ids, &identity)?;
             let log = serde_json::json!({
                 "isodisc_version": env!("CARGO_PKG_VERSION"),
                 "command": self.command,
                 "shards": self.shards.iter().map(|d| d.display().to_string()).collect::<Vec<_>>(),
                 "sites": ids.len(),
             });
-            write_json(&tmp.join("run.json"), &log)?;
-            replace_dir(&tmp, &self.out, self.overwrite)
-        })();
-        if result.is_err() {
-            let _ = fs::remove_dir_all(&tmp);
-        }
-        result?;
+            write_json(&tmp.join("run.json"), &log)
+        })?;
         if !self.quiet {
             println!(
                 "isodisc merge: {} sites from {} shards\nresults: {}",

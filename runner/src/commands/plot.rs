@@ -217,6 +217,27 @@ impl PlotPlan {
         })
     }
 
+    /// Every file (or folder) the figures are drawn from: the output must not hold one.
+    fn inputs(&self) -> Vec<PathBuf> {
+        let mut inputs = vec![
+            self.dir.join("daily.csv"),
+            self.dir.join("quantiles_monthly.csv"),
+        ];
+        if let Some((fits, samples, _)) = &self.keeling {
+            inputs.extend([fits.clone(), samples.clone()]);
+        }
+        if let Some((observed, _)) = &self.observed {
+            inputs.push(observed.clone());
+        }
+        inputs
+    }
+
+    /// Draws every figure the inputs allow and returns the files written: all into a temporary
+    /// folder that replaces the figures folder only when every figure is drawn.
+    pub fn draw(&self) -> Result<Vec<PathBuf>> {
+        crate::output::write_figures(&self.out, &self.inputs(), |tmp| self.draw_into(tmp))
+    }
+
     /// Every figure the inputs allow, drawn in memory: (file name, SVG text).
     pub fn figures(&self) -> Result<Vec<(String, String)>> {
         let daily_path = self.dir.join("daily.csv");
@@ -255,17 +276,13 @@ impl PlotPlan {
             .collect()
     }
 
-    /// Draws every figure the inputs allow, writes them into the output folder and returns the
-    /// files written.
-    pub fn draw(&self) -> Result<Vec<PathBuf>> {
-        let figures = self.figures()?;
-        std::fs::create_dir_all(&self.out)
-            .map_err(|e| Error::msg(format!("cannot create {}: {e}", self.out.display())))?;
+    /// Writes every figure into `tmp` (the temporary folder that becomes the figures folder) and
+    /// returns the paths they will have in the figures folder.
+    fn draw_into(&self, tmp: &std::path::Path) -> Result<Vec<PathBuf>> {
         let mut written = Vec::new();
-        for (name, svg) in figures {
-            let path = self.out.join(name);
-            write_atomic(&path, svg.as_bytes())?;
-            written.push(path);
+        for (name, svg) in self.figures()? {
+            write_atomic(&tmp.join(&name), svg.as_bytes())?;
+            written.push(self.out.join(name));
         }
         Ok(written)
     }

@@ -3,7 +3,6 @@
 //! only when everything is written — a failed run leaves DIR as it was.
 
 use std::fmt::Write as _;
-use std::fs;
 use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::time::Instant;
@@ -13,7 +12,7 @@ use crate::commands::parse_period;
 use crate::error::{Context, Error, Result};
 use crate::forcing::{ForcingReader, ForcingReport, LocalDate, LocalTime};
 use crate::output::{
-    AtomicFile, check_out_dir, fmt_num, fnv1a64, json_num, write_folder, write_json,
+    AtomicFile, check_out_dir, fmt_num, inputs_json, json_num, plural, write_folder, write_json,
 };
 use crate::simulate::{
     PERIOD_COLUMNS, PeriodRow, Simulated, StepSink, StepView, period_col, simulate,
@@ -149,7 +148,8 @@ impl RunPlan {
     pub fn from_args(args: &RunArgs) -> Result<Self> {
         let site = Site::load(&args.site)?;
         let (from, to) = parse_period(&args.period)?;
-        check_out_dir(&args.out, args.overwrite)?;
+        let inputs: Vec<PathBuf> = site.input_files().into_iter().map(|f| f.1).collect();
+        check_out_dir(&args.out, args.overwrite, &inputs)?;
         if site.co2.is_none()
             && site.file.forcing.columns.co2.is_none()
             && site.file.forcing.preset.is_none()
@@ -179,7 +179,9 @@ impl RunPlan {
     /// Runs the site and writes the results.
     pub fn run(&self) -> Result<()> {
         let started = Instant::now();
-        let summary = write_folder(&self.out, self.overwrite, |tmp| self.run_into(tmp, started))?;
+        let summary = write_folder(&self.out, self.overwrite, "run", |tmp| {
+            self.run_into(tmp, started)
+        })?;
         if !self.quiet {
             print!("{summary}");
         }
@@ -220,8 +222,6 @@ impl RunPlan {
     ) -> Result<()> {
         let site = &self.site;
         let forcing_path = &report.path;
-        let forcing_bytes = fs::read(forcing_path)
-            .with_context(|| format!("cannot read {}", forcing_path.display()))?;
         let units = |cols: &[(&str, &str, &str)]| -> serde_json::Value {
             cols.iter()
                 .map(|(n, u, d)| {
@@ -320,10 +320,7 @@ impl RunPlan {
                 "from": self.from.map(|t| t.to_string()),
                 "to_exclusive": self.to.map(|t| t.to_string()),
             },
-            "inputs": {
-                "site_file": {"path": site.path.display().to_string(), "fnv1a64": fnv1a64(site.text.as_bytes())},
-                "forcing": {"path": forcing_path.display().to_string(), "fnv1a64": fnv1a64(&forcing_bytes)},
-            },
+            "inputs": inputs_json(&site.input_files())?,
             "gaps": {
                 "rows_read": report.rows_read,
                 "steps": report.steps,
@@ -564,11 +561,12 @@ fn summary(site: &Site, sim: &Simulated, report: &ForcingReport, out: &Path) -> 
         );
     }
     let p = &sim.pools;
-    let age = p
-        .mean_age_respired_days
-        .map_or("-".into(), |d| format!("{d:.0} days"));
+    let age = p.mean_age_respired_days.map_or("-".into(), |d| {
+        let d = format!("{d:.0}");
+        format!("{d} {}", if d == "1" { "day" } else { "days" })
+    });
     let lag = p.effective_lag_days.map_or("-".into(), |k| {
-        format!("{k} days (r = {:.2})", p.effective_lag_r)
+        format!("{} (r = {:.2})", plural(k as u64, "day"), p.effective_lag_r)
     });
     let _ = writeln!(
         s,
@@ -577,12 +575,12 @@ fn summary(site: &Site, sim: &Simulated, report: &ForcingReport, out: &Path) -> 
     let filled: usize = report.filled.values().sum();
     let _ = writeln!(
         s,
-        "forcing: {} steps of {} min; {} values gap-filled, {} steps missing, {} night radiation values set to 0",
-        report.steps,
+        "forcing: {} of {} min; {} gap-filled, {} missing, {} night radiation set to 0",
+        plural(report.steps as u64, "step"),
         report.step_minutes,
-        filled,
-        report.missing_steps,
-        report.night_radiation_zeroed
+        plural(filled as u64, "value"),
+        plural(report.missing_steps as u64, "step"),
+        plural(report.night_radiation_zeroed as u64, "value"),
     );
     let _ = writeln!(s, "results: {}", out.display());
     s

@@ -32,7 +32,9 @@ fn s(p: &Path) -> &str {
     p.to_str().unwrap()
 }
 
-/// Every file under `dir` except `run.json` (the invocation's log), by relative path.
+/// Every file under `dir` except `run.json` (the invocation's log) and isodisc's hidden
+/// bookkeeping (`.isodisc-output`, which says which command wrote the folder, and a batch's
+/// `.isodisc-lock`), by relative path.
 fn files(dir: &Path) -> BTreeMap<PathBuf, Vec<u8>> {
     let mut out = BTreeMap::new();
     let mut stack = vec![dir.to_path_buf()];
@@ -41,7 +43,9 @@ fn files(dir: &Path) -> BTreeMap<PathBuf, Vec<u8>> {
             let p = e.unwrap().path();
             if p.is_dir() {
                 stack.push(p);
-            } else if p.file_name().unwrap() != "run.json" {
+            } else if p.file_name().unwrap() != "run.json"
+                && !p.file_name().unwrap().to_string_lossy().starts_with('.')
+            {
                 out.insert(
                     p.strip_prefix(dir).unwrap().to_path_buf(),
                     fs::read(&p).unwrap(),

@@ -10,6 +10,7 @@ mod observations;
 mod phenology_cold;
 mod plots;
 mod pools;
+mod robustness;
 mod runner_forcing;
 mod runner_leaf;
 mod runner_observations;

@@ -627,12 +627,13 @@ fn plot_writes_svg_figures_with_their_axis_labels() {
     let keeling_a = fs::read_to_string(figs.join("keeling_A.svg")).unwrap();
     // (Samples are grey crosses of two lines each.)
     assert_eq!(keeling_a.matches("stroke=\"#5A5A5A\"").count(), 2 * 7);
-    // No temporary files left behind by the atomic writes.
+    // No temporary files left behind by the atomic writes: the figures and isodisc's marker.
     let names: Vec<PathBuf> = fs::read_dir(&figs)
         .unwrap()
         .map(|e| e.unwrap().path())
         .collect();
-    assert_eq!(names.len(), 5, "{names:?}");
+    assert_eq!(names.len(), 6, "{names:?}");
+    assert!(figs.join(isodisc_runner::output::MARKER).is_file());
 
     // Without δR and an ensemble, those figures are skipped, not failed.
     fs::remove_file(run_dir.join("quantiles_monthly.csv")).unwrap();
@@ -644,6 +645,6 @@ fn plot_writes_svg_figures_with_their_axis_labels() {
     let figs2 = dir.path().join("figs2");
     run(&["plot", p(&run_dir), "--out", p(&figs2)]).unwrap();
     let n = fs::read_dir(&figs2).unwrap().count();
-    assert_eq!(n, 1);
+    assert_eq!(n, 2, "one figure and isodisc's marker");
     assert!(figs2.join("discrimination_daily.svg").is_file());
 }

@@ -262,6 +262,8 @@ fn a_failed_run_leaves_the_folder_as_it_was() {
     let out = dir.path().join("out");
     fs::create_dir(&out).unwrap();
     fs::write(out.join("keep.txt"), "earlier results").unwrap();
+    // Earlier results of isodisc: its marker lets --overwrite replace the folder.
+    fs::write(out.join(isodisc_runner::output::MARKER), "{}").unwrap();
     // Line 4 repeats a timestamp: an error naming line and column.
     let weather = "time,t,vpd,ppfd,p\n2025-03-21T10:00,22,0.6,1800,0\n2025-03-21T11:00,22,0.6,1800,0\n2025-03-21T11:00,22,0.6,1800,0\n";
     let site = write_site(dir.path(), 1.0, 2.0, None, weather);
@@ -278,7 +280,7 @@ fn a_failed_run_leaves_the_folder_as_it_was() {
         fs::read_to_string(out.join("keep.txt")).unwrap(),
         "earlier results"
     );
-    assert_eq!(fs::read_dir(&out).unwrap().count(), 1);
+    assert_eq!(fs::read_dir(&out).unwrap().count(), 2);
     // Without --overwrite a non-empty folder is refused before any work.
     let err = run(&[
         "run",
@@ -456,6 +458,7 @@ fn every_bad_weather_input_names_line_and_column_and_leaves_the_folder_as_it_was
         let out = dir.path().join("out");
         fs::create_dir(&out).unwrap();
         fs::write(out.join("keep.txt"), "earlier results").unwrap();
+        fs::write(out.join(isodisc_runner::output::MARKER), "{}").unwrap();
         let weather = format!("time,t,vpd,ppfd,p\n{good}{bad_row}");
         let site = write_site(dir.path(), 1.0, 2.0, None, &weather);
         let err = run(&[
@@ -472,7 +475,7 @@ fn every_bad_weather_input_names_line_and_column_and_leaves_the_folder_as_it_was
         );
         assert_eq!(
             fs::read_dir(&out).unwrap().count(),
-            1,
+            2,
             "{what}: folder changed"
         );
         assert_eq!(
