@@ -55,6 +55,23 @@ pub enum ForcingError {
         column: String,
         /// The closest header, if one is close.
         closest: Option<String>,
+        /// The line taken as the header (1-based).
+        header_line: u64,
+        /// The header's first fields, for the message.
+        header_start: String,
+        /// A hint when the header looks split wrongly (one field holding tabs or `;`).
+        hint: Option<String>,
+    },
+    /// A column used by the reader appears twice in the header.
+    DuplicateColumn {
+        /// The file.
+        path: PathBuf,
+        /// The line taken as the header (1-based).
+        header_line: u64,
+        /// The repeated name.
+        column: String,
+        /// Its first and second column numbers, 1-based.
+        numbers: (usize, usize),
     },
     /// A bad value in the data.
     Data {
@@ -97,17 +114,39 @@ impl fmt::Display for ForcingError {
                 variable,
                 column,
                 closest,
+                header_line,
+                header_start,
+                hint,
             } => {
                 write!(
                     f,
                     "{}: column `{column}` (mapped to {variable}) is not in the header",
                     path.display()
                 )?;
-                match closest {
-                    Some(c) => write!(f, "; did you mean `{c}`?"),
+                if let Some(c) = closest {
+                    write!(f, "; did you mean `{c}`?")?;
+                }
+                write!(
+                    f,
+                    " (the header was taken from line {header_line}: {header_start}; set                      `header_line` if the header is on another line)"
+                )?;
+                match hint {
+                    Some(h) => write!(f, "; {h}"),
                     None => Ok(()),
                 }
             }
+            ForcingError::DuplicateColumn {
+                path,
+                header_line,
+                column,
+                numbers,
+            } => write!(
+                f,
+                "{}, line {header_line}: the header names `{column}` twice, columns no. {} and no. {};                  rename one so that isodisc knows which to read",
+                path.display(),
+                numbers.0,
+                numbers.1
+            ),
             ForcingError::Data {
                 path,
                 line,
