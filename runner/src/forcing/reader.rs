@@ -111,6 +111,8 @@ pub struct ForcingReport {
     pub precip_totals_spread: usize,
     /// Drivers missing in more than 20 % of the steps.
     pub warnings: Vec<String>,
+    /// The variables read from the file (each with a column in its header).
+    pub read: Vec<Variable>,
 }
 
 impl fmt::Display for ForcingReport {
@@ -557,6 +559,7 @@ impl ForcingReader {
             step_minutes: plan.step_minutes,
             header_line,
             notes,
+            read: columns.iter().map(|c| c.var).collect(),
             ..ForcingReport::default()
         };
         Ok(ForcingReader {
