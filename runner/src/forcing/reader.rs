@@ -11,7 +11,7 @@
 use std::collections::{BTreeMap, VecDeque};
 use std::fmt;
 use std::fs::File;
-use std::io::{BufRead, BufReader};
+use std::io::{BufRead, BufReader, Read};
 use std::path::{Path, PathBuf};
 
 use csv::{ByteRecord, ReaderBuilder, Trim};
@@ -155,6 +155,83 @@ impl fmt::Display for ForcingReport {
     }
 }
 
+/// The file as the CSV parser sees it: comment lines emptied (their newline kept), and every
+/// newline's offset noted, so that a record's byte offset gives its line as an editor counts it
+/// (the parser's own count skips blank and comment lines).
+struct Source {
+    inner: BufReader<File>,
+    comment: Option<u8>,
+    at_line_start: bool,
+    in_comment: bool,
+    /// Offset, in the stream handed on, of the next byte.
+    offset: u64,
+    /// Offsets of newlines not yet passed by a record.
+    newlines: VecDeque<u64>,
+    /// Newlines passed.
+    passed: u64,
+}
+
+impl Source {
+    /// Line (1-based, counted from the first line handed on) of the byte at `offset`; offsets must
+    /// be asked in increasing order.
+    fn line_of(&mut self, offset: u64) -> u64 {
+        while let Some(&nl) = self.newlines.front() {
+            if nl >= offset {
+                break;
+            }
+            self.newlines.pop_front();
+            self.passed += 1;
+        }
+        self.passed + 1
+    }
+}
+
+impl Read for Source {
+    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+        let n = match self.comment {
+            None => self.inner.read(buf)?,
+            Some(c) => loop {
+                let avail = self.inner.fill_buf()?;
+                if avail.is_empty() {
+                    break 0;
+                }
+                let (mut out, mut used) = (0, 0);
+                for &b in avail {
+                    if out == buf.len() {
+                        break;
+                    }
+                    used += 1;
+                    if self.at_line_start && b == c {
+                        self.in_comment = true;
+                    }
+                    if self.in_comment {
+                        if b == b'\n' {
+                            self.in_comment = false;
+                            buf[out] = b'\n';
+                            out += 1;
+                        }
+                        continue;
+                    }
+                    buf[out] = b;
+                    out += 1;
+                    self.at_line_start = b == b'\n';
+                }
+                self.inner.consume(used);
+                if out > 0 || buf.is_empty() {
+                    break out;
+                }
+            },
+        };
+        for (i, b) in buf[..n].iter().enumerate() {
+            if *b == b'\n' {
+                self.newlines.push_back(self.offset + i as u64);
+            }
+        }
+        self.offset += n as u64;
+        Ok(n)
+    }
+}
+
 /// A mapped column of the file.
 struct Column {
     var: Variable,
@@ -244,7 +321,7 @@ const WARN_MISSING_SHARE: f64 = 0.2;
 pub struct ForcingReader {
     plan: Plan,
     path: PathBuf,
-    csv: csv::Reader<BufReader<File>>,
+    csv: csv::Reader<Source>,
     record: ByteRecord,
     /// Lines skipped above the header, added to the CSV reader's line numbers.
     line_offset: u64,
@@ -321,29 +398,49 @@ impl ForcingReader {
             }
         };
         let mut file = BufReader::with_capacity(1 << 16, File::open(&path).map_err(io_err)?);
-        // Metadata lines above the header are skipped as text, never split as CSV.
-        let line_offset = plan.header_line - 1;
+        // Metadata lines above the header are skipped as text, never split as CSV; so are comment
+        // and blank lines before the header.
+        let mut line_offset = 0;
         let mut skipped = Vec::new();
-        for n in 0..line_offset {
+        loop {
+            let above = line_offset + 1 < plan.header_line;
+            let buf = file.fill_buf().map_err(io_err)?;
+            let blank = buf.first().is_some_and(|b| *b == b'\n' || *b == b'\r');
+            let comment = plan.comment.is_some() && buf.first() == plan.comment.as_ref();
+            if !above && !blank && !comment {
+                break;
+            }
             skipped.clear();
             if file.read_until(b'\n', &mut skipped).map_err(io_err)? == 0 {
-                return Err(ForcingError::Config {
-                    message: format!(
-                        "forcing.header_line = {} but {} has only {n} lines",
-                        plan.header_line,
-                        path.display()
-                    ),
-                });
+                if above {
+                    return Err(ForcingError::Config {
+                        message: format!(
+                            "forcing.header_line = {} but {} has only {line_offset} lines",
+                            plan.header_line,
+                            path.display()
+                        ),
+                    });
+                }
+                break;
             }
+            line_offset += 1;
         }
+        let source = Source {
+            inner: file,
+            comment: plan.comment,
+            at_line_start: true,
+            in_comment: false,
+            offset: 0,
+            newlines: VecDeque::new(),
+            passed: 0,
+        };
         let mut csv = ReaderBuilder::new()
             .delimiter(plan.delimiter)
-            .comment(plan.comment)
             .trim(Trim::All)
-            .from_reader(file);
+            .from_reader(source);
         let headers: Vec<String> = csv
             .byte_headers()
-            .map_err(|e| csv_error(&path, e, line_offset))?
+            .map_err(|e| csv_error(&path, e, line_offset + 1))?
             .iter()
             .map(|h| {
                 String::from_utf8_lossy(h)
@@ -352,12 +449,7 @@ impl ForcingReader {
                     .to_string()
             })
             .collect();
-        let header_line = csv.position().line().saturating_sub(1).max(1) + line_offset;
-        let header_line = if headers.is_empty() {
-            plan.header_line
-        } else {
-            header_line
-        };
+        let header_line = line_offset + 1;
         let hint = match headers.as_slice() {
             [one] if one.contains('\t') => {
                 Some("the header is one field holding tabs: set `delimiter = \"\\t\"`".to_string())
@@ -754,6 +846,15 @@ impl ForcingReader {
                 let t = time
                     .parse(text(*time_index)?)
                     .map_err(|why| fail(*time_index, why))?;
+                // A bad time of day is the time column's fault, a bad date the date column's.
+                let of_day = Parts {
+                    year: Some(2001),
+                    month: Some(1),
+                    day: Some(1),
+                    doy: None,
+                    ..t
+                };
+                build_time(of_day).map_err(|why| fail(*time_index, why))?;
                 build_time(t.or(d)).map_err(|why| fail(*date_index, why))
             }
             TimeFields::Fields {
@@ -816,17 +917,27 @@ impl ForcingReader {
         cells.join(&b' ')
     }
 
+    /// The line of the record just read: that of its last byte (the parser's own start position
+    /// lies before any blank lines that preceded the record).
+    fn line_of_record(&mut self) -> u64 {
+        let end = self.csv.position().byte();
+        self.csv.get_mut().line_of(end.saturating_sub(1)) + self.line_offset
+    }
+
     /// Reads, checks and queues one row; false at the end of the file.
     fn read_row(&mut self) -> Result<bool, ForcingError> {
-        let more = self
-            .csv
-            .read_byte_record(&mut self.record)
-            .map_err(|e| csv_error(&self.path, e, self.line_offset))?;
+        let more = match self.csv.read_byte_record(&mut self.record) {
+            Ok(more) => more,
+            Err(e) => {
+                let line = self.line_of_record();
+                return Err(csv_error(&self.path, e, line));
+            }
+        };
         if !more {
             return Ok(false);
         }
         self.report.rows_read += 1;
-        let line = self.record.position().map_or(0, |p| p.line()) + self.line_offset;
+        let line = self.line_of_record();
         let stamp = self.parse_time(line)?;
         let step = i64::from(self.plan.step_minutes);
         let time_index = self.time.first();
@@ -913,13 +1024,19 @@ impl ForcingReader {
         };
         for c in &self.columns {
             let cell = self.record.get(c.index).unwrap_or_default();
-            let (value, zeroed) = self.parse_value(c, cell, line)?;
-            let value = match c.qc {
-                Some(q) if !value.is_nan() && self.flag_refuses(c, q, line)? => {
+            // A value its flag refuses is missing, whatever it holds.
+            let refused = match c.qc {
+                Some(q) => self.flag_refuses(c, q, line)?,
+                None => false,
+            };
+            let (value, zeroed) = if refused {
+                let text = std::str::from_utf8(cell).unwrap_or("");
+                if !c.missing.iter().any(|m| m == text) {
                     *self.report.qc_refused.entry(c.var).or_insert(0) += 1;
-                    f64::NAN
                 }
-                _ => value,
+                (f64::NAN, false)
+            } else {
+                self.parse_value(c, cell, line)?
             };
             row.values[c.var.index()] = value;
             if value.is_nan() {
@@ -1394,15 +1511,13 @@ fn build_time(parts: Parts) -> Result<LocalTime, String> {
 }
 
 /// A CSV-level error (a row with the wrong number of fields, an I/O failure) with its place.
-fn csv_error(path: &Path, e: csv::Error, line_offset: u64) -> ForcingError {
+fn csv_error(path: &Path, e: csv::Error, line: u64) -> ForcingError {
     match e.kind() {
         csv::ErrorKind::UnequalLengths {
-            pos,
-            expected_len,
-            len,
+            expected_len, len, ..
         } => ForcingError::Data {
             path: path.to_path_buf(),
-            line: pos.as_ref().map_or(0, |p| p.line()) + line_offset,
+            line,
             column: String::new(),
             column_number: 0,
             value: String::new(),
