@@ -173,9 +173,7 @@ impl RunPlan {
 
     /// Runs the site and writes the results.
     pub fn run(&self) -> Result<()> {
-        let started = Instant::now();
-        let (summary, warnings) =
-            write_folder(&self.out, self.overwrite, |tmp| self.run_into(tmp, started))?;
+        let (summary, warnings) = self.execute()?;
         if !self.quiet {
             print!("{summary}");
         } else {
@@ -185,6 +183,13 @@ impl RunPlan {
             }
         }
         Ok(())
+    }
+
+    /// Runs the site and writes the results; returns the summary and the weather warnings
+    /// without printing them.
+    pub fn execute(&self) -> Result<(String, Vec<String>)> {
+        let started = Instant::now();
+        write_folder(&self.out, self.overwrite, |tmp| self.run_into(tmp, started))
     }
 
     fn run_into(&self, dir: &Path, started: Instant) -> Result<(String, Vec<String>)> {
@@ -526,7 +531,7 @@ pub fn write_periods(path: &Path, rows: &[PeriodRow]) -> Result<()> {
 }
 
 /// `1 day`, `2 days`: a count with its noun in the right number.
-fn count(n: usize, noun: &str) -> String {
+pub fn count(n: usize, noun: &str) -> String {
     if n == 1 {
         format!("1 {noun}")
     } else if let Some(stem) = noun.strip_suffix('y')

@@ -53,14 +53,9 @@ pub enum ForcingError {
         variable: String,
         /// The column name that was not found.
         column: String,
-        /// The closest header, if one is close.
-        closest: Option<String>,
-        /// The line taken as the header (1-based).
-        header_line: u64,
-        /// The header's first fields, for the message.
-        header_start: String,
-        /// A hint when the header looks split wrongly (one field holding tabs or `;`).
-        hint: Option<String>,
+        /// The closest header if one is close, the line taken as the header and its first fields,
+        /// and a hint when the header looks split wrongly (one field holding tabs or `;`).
+        detail: String,
     },
     /// A column used by the reader appears twice in the header.
     DuplicateColumn {
@@ -113,28 +108,12 @@ impl fmt::Display for ForcingError {
                 path,
                 variable,
                 column,
-                closest,
-                header_line,
-                header_start,
-                hint,
-            } => {
-                write!(
-                    f,
-                    "{}: column `{column}` (mapped to {variable}) is not in the header",
-                    path.display()
-                )?;
-                if let Some(c) = closest {
-                    write!(f, "; did you mean `{c}`?")?;
-                }
-                write!(
-                    f,
-                    " (the header was taken from line {header_line}: {header_start}; set                      `header_line` if the header is on another line)"
-                )?;
-                match hint {
-                    Some(h) => write!(f, "; {h}"),
-                    None => Ok(()),
-                }
-            }
+                detail,
+            } => write!(
+                f,
+                "{}: column `{column}` (mapped to {variable}) is not in the header{detail}",
+                path.display()
+            ),
             ForcingError::DuplicateColumn {
                 path,
                 header_line,

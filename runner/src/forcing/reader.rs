@@ -473,10 +473,16 @@ impl ForcingReader {
                     path: path.clone(),
                     variable: variable.to_string(),
                     column: column.to_string(),
-                    closest: closest_name(column, headers.iter().map(String::as_str)),
-                    header_line,
-                    header_start: header_start(&headers),
-                    hint: hint.clone(),
+                    detail: {
+                        let closest = closest_name(column, headers.iter().map(String::as_str))
+                            .map_or(String::new(), |c| format!("; did you mean `{c}`?"));
+                        let hint = hint.as_ref().map_or(String::new(), |h| format!("; {h}"));
+                        format!(
+                            "{closest} (the header was taken from line {header_line}: {}; set \
+                             `header_line` if the header is on another line){hint}",
+                            header_start(&headers)
+                        )
+                    },
                 }),
             }
         };
@@ -540,8 +546,7 @@ impl ForcingReader {
                         Some(_) => {
                             let flag = format!("{}_QC", m.column);
                             headers
-                                .iter()
-                                .any(|h| *h == flag)
+                                .contains(&flag)
                                 .then(|| find(&format!("{} quality flag", v.name()), &flag))
                                 .transpose()?
                         }

@@ -723,7 +723,7 @@ fn typical_year_runs_as_it_comes_like_its_cleaned_twin() {
     assert_eq!(annual[1][col("complete")], "1");
     let precip: f64 = annual[1][col("precip")].parse().unwrap();
     assert!(
-        precip >= 0.0 && precip < 5000.0,
+        (0.0..5000.0).contains(&precip),
         "no −9900 reached the run: {precip}"
     );
 }
@@ -843,12 +843,9 @@ fn header_on_another_line_names_the_line_taken_and_its_fields() {
     );
     let err = read_all(&basic_config(), dir.path()).err().unwrap();
     let msg = err.to_string();
+    assert!(matches!(err, ForcingError::MissingColumn { .. }), "{msg}");
     assert!(
-        matches!(err, ForcingError::MissingColumn { header_line: 1, .. }),
-        "{msg}"
-    );
-    assert!(
-        msg.contains("line 1") && msg.contains("`Station 12 (invented)`"),
+        msg.contains("taken from line 1") && msg.contains("`Station 12 (invented)`"),
         "{msg}"
     );
     assert!(msg.contains("header_line"), "{msg}");
@@ -1162,4 +1159,139 @@ proptest::proptest! {
             }
         }
     }
+}
+
+/// `isodisc run ARGS…` in-process; the summary it would print, or the error chain.
+fn run_summary(args: &[&str]) -> Result<String, String> {
+    use clap::Parser;
+    let cli = isodisc_runner::cli::Cli::try_parse_from(
+        std::iter::once("isodisc").chain(args.iter().copied()),
+    )
+    .map_err(|e| e.to_string())?;
+    let isodisc_runner::cli::Command::Run(run) = cli.command else {
+        panic!("not a run: {args:?}");
+    };
+    isodisc_runner::commands::run::RunPlan::from_args(&run)
+        .and_then(|p| p.execute())
+        .map(|(summary, _)| summary)
+        .map_err(|e| e.chain())
+}
+
+#[test]
+fn a_period_outside_the_file_states_what_the_file_covers() {
+    // The demo weather covers 2025 (hourly, from the file itself).
+    let site = Path::new(env!("CARGO_MANIFEST_DIR")).join("../forcing-demo/site.toml");
+    let out = tempfile::tempdir().unwrap();
+    let o = out.path().join("r");
+    let err = run_summary(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        o.to_str().unwrap(),
+        "--from",
+        "2027-01-01",
+    ])
+    .unwrap_err();
+    assert!(
+        err.contains("the file covers the steps from 2025-01-01T00:00 to 2025-12-31T23:00"),
+        "{err}"
+    );
+    assert!(!o.exists(), "a failed run writes nothing");
+}
+
+#[test]
+fn a_partial_overlap_runs_the_overlap_and_labels_part_of_a_year() {
+    // Asked: 2025-11-01 to 2026-02-28; the file ends 2025-12-31T23:00. The run covers
+    // November–December 2025 (61 days · 24 steps = 1464 steps, arithmetic), says so, and labels
+    // 2025 as part of a year while every day and both months are complete.
+    let site = Path::new(env!("CARGO_MANIFEST_DIR")).join("../forcing-demo/site.toml");
+    let out = tempfile::tempdir().unwrap();
+    let o = out.path().join("r");
+    let summary = run_summary(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        o.to_str().unwrap(),
+        "--from",
+        "2025-11-01",
+        "--to",
+        "2026-02-28",
+    ])
+    .unwrap();
+    assert!(
+        summary.contains("part of 2025: 1464 steps of the year"),
+        "{summary}"
+    );
+    assert!(
+        summary.contains("after the file's last step 2025-12-31T23:00"),
+        "{summary}"
+    );
+    assert!(
+        summary.contains("written to ") && summary.contains("annual.csv, run.json"),
+        "{summary}"
+    );
+    let table = |f: &str| {
+        let text = std::fs::read_to_string(o.join(f)).unwrap();
+        let rows: Vec<Vec<String>> = text
+            .lines()
+            .map(|l| l.split(',').map(str::to_string).collect())
+            .collect();
+        let c = rows[0].iter().position(|h| h == "complete").unwrap();
+        rows[1..]
+            .iter()
+            .map(|r| (r[0].clone(), r[c].clone()))
+            .collect::<Vec<_>>()
+    };
+    assert_eq!(
+        table("annual.csv"),
+        vec![("2025".to_string(), "0".to_string())]
+    );
+    assert_eq!(
+        table("monthly.csv"),
+        vec![
+            ("2025-11".to_string(), "1".to_string()),
+            ("2025-12".to_string(), "1".to_string())
+        ]
+    );
+    let daily = table("daily.csv");
+    assert_eq!(daily.len(), 61);
+    assert!(daily.iter().all(|(_, c)| c == "1"));
+    let log: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(o.join("run.json")).unwrap()).unwrap();
+    assert_eq!(
+        log["settings"]["forcing"]["period_beyond_file"]
+            .as_array()
+            .map(Vec::len),
+        Some(1)
+    );
+}
+
+#[test]
+fn the_summary_says_what_the_run_assumed_in_the_right_number() {
+    // The demo has RH, shortwave and no pressure column: VPD, PPFD and pressure are derived, and
+    // the summary says so; the respired carbon's lag is 1 day (counted in the singular).
+    let site = Path::new(env!("CARGO_MANIFEST_DIR")).join("../forcing-demo/site.toml");
+    let out = tempfile::tempdir().unwrap();
+    let o = out.path().join("r");
+    let summary =
+        run_summary(&["run", site.to_str().unwrap(), "--out", o.to_str().unwrap()]).unwrap();
+    for expect in [
+        "assumed: VPD from relative humidity",
+        "assumed: PPFD = shortwave",
+        "assumed: no pressure column",
+        "assumed: CO2 constant at 425",
+        &format!("written to {}: steps.csv", o.display()),
+    ] {
+        assert!(summary.contains(expect), "{expect}: {summary}");
+    }
+    assert!(
+        !summary.contains(" 1 days") && !summary.contains(" 1 steps"),
+        "{summary}"
+    );
+    // English grammar: one day, two days, no values.
+    use isodisc_runner::commands::run::count;
+    assert_eq!(count(1, "day"), "1 day");
+    assert_eq!(count(2, "day"), "2 days");
+    assert_eq!(count(0, "value"), "0 values");
+    assert_eq!(count(1, "step"), "1 step");
 }
