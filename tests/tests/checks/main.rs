@@ -9,5 +9,6 @@ mod observations;
 mod pools;
 mod runner_forcing;
 mod runner_leaf;
+mod runner_leaf_input;
 mod runner_observations;
 mod runner_run;
