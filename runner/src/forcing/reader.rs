@@ -155,18 +155,17 @@ impl fmt::Display for ForcingReport {
     }
 }
 
-/// The file as the CSV parser sees it: comment lines emptied (their newline kept), and every
-/// newline's offset noted, so that a record's byte offset gives its line as an editor counts it
-/// (the parser's own count skips blank and comment lines).
+/// The file as the CSV parser sees it: comment lines emptied (their newline kept), and the bytes
+/// handed on kept until a record has passed them, so that a record's end gives its line as an
+/// editor counts it (the parser's own count skips blank and comment lines).
 struct Source {
     inner: BufReader<File>,
     comment: Option<u8>,
     at_line_start: bool,
     in_comment: bool,
-    /// Offset, in the stream handed on, of the next byte.
-    offset: u64,
-    /// Offsets of newlines not yet passed by a record.
-    newlines: VecDeque<u64>,
+    /// Bytes handed on that no record has passed yet, and the offset of the first.
+    pending: VecDeque<u8>,
+    pending_start: u64,
     /// Newlines passed.
     passed: u64,
 }
@@ -175,13 +174,12 @@ impl Source {
     /// Line (1-based, counted from the first line handed on) of the byte at `offset`; offsets must
     /// be asked in increasing order.
     fn line_of(&mut self, offset: u64) -> u64 {
-        while let Some(&nl) = self.newlines.front() {
-            if nl >= offset {
-                break;
-            }
-            self.newlines.pop_front();
-            self.passed += 1;
-        }
+        let k = (offset.saturating_sub(self.pending_start) as usize).min(self.pending.len());
+        let (a, b) = self.pending.as_slices();
+        let count = |s: &[u8]| s.iter().filter(|c| **c == b'\n').count() as u64;
+        self.passed += count(&a[..k.min(a.len())]) + count(&b[..k.saturating_sub(a.len())]);
+        self.pending.drain(..k);
+        self.pending_start += k as u64;
         self.passed + 1
     }
 }
@@ -222,12 +220,7 @@ impl Read for Source {
                 }
             },
         };
-        for (i, b) in buf[..n].iter().enumerate() {
-            if *b == b'\n' {
-                self.newlines.push_back(self.offset + i as u64);
-            }
-        }
-        self.offset += n as u64;
+        self.pending.extend(&buf[..n]);
         Ok(n)
     }
 }
@@ -271,6 +264,32 @@ enum TimeFields {
 }
 
 impl TimeFields {
+    /// Every time column, in the order the layout reads them.
+    fn indices(&self) -> Vec<usize> {
+        match self {
+            TimeFields::Single { index, .. } => vec![*index],
+            TimeFields::DateTime {
+                date_index,
+                time_index,
+                ..
+            } => vec![*date_index, *time_index],
+            TimeFields::Fields {
+                year,
+                month_day,
+                doy,
+                hour,
+                minute,
+            } => {
+                let mut v = vec![*year];
+                if let Some((m, d)) = month_day {
+                    v.extend([*m, *d]);
+                }
+                v.extend(doy.iter().chain(hour).chain(minute));
+                v
+            }
+        }
+    }
+
     /// The first time column, the one messages about the row's time point at.
     fn first(&self) -> usize {
         match self {
@@ -430,8 +449,8 @@ impl ForcingReader {
             comment: plan.comment,
             at_line_start: true,
             in_comment: false,
-            offset: 0,
-            newlines: VecDeque::new(),
+            pending: VecDeque::with_capacity(1 << 16),
+            pending_start: 0,
             passed: 0,
         };
         let mut csv = ReaderBuilder::new()
@@ -893,28 +912,7 @@ impl ForcingReader {
 
     /// The time cells of the current row, joined, for messages.
     fn time_text(&self) -> Vec<u8> {
-        let indices: Vec<usize> = match &self.time {
-            TimeFields::Single { index, .. } => vec![*index],
-            TimeFields::DateTime {
-                date_index,
-                time_index,
-                ..
-            } => vec![*date_index, *time_index],
-            TimeFields::Fields {
-                year,
-                month_day,
-                doy,
-                hour,
-                minute,
-            } => {
-                let mut v = vec![*year];
-                if let Some((m, d)) = month_day {
-                    v.extend([*m, *d]);
-                }
-                v.extend(doy.iter().chain(hour).chain(minute));
-                v
-            }
-        };
+        let indices = self.time.indices();
         let cells: Vec<&[u8]> = indices
             .iter()
             .map(|i| self.record.get(*i).unwrap_or_default())
