@@ -14,7 +14,7 @@ use std::fs::File;
 use std::io::{BufRead, BufReader, Read};
 use std::path::{Path, PathBuf};
 
-use csv::{ByteRecord, ReaderBuilder, Trim};
+use csv::{ByteRecord, ReaderBuilder};
 use isodisc_model::error::{check_range, closest_name};
 use isodisc_model::water::{
     pressure_from_elevation_kpa, saturation_vapour_pressure_kpa, vpd_from_dew_point_kpa,
@@ -163,23 +163,34 @@ struct Source {
     comment: Option<u8>,
     at_line_start: bool,
     in_comment: bool,
-    /// Bytes handed on that no record has passed yet, and the offset of the first.
-    pending: VecDeque<u8>,
+    /// Bytes handed on; those before `pending_at` have been passed by records.
+    pending: Vec<u8>,
+    pending_at: usize,
+    /// Offset in the stream of `pending[0]`.
     pending_start: u64,
     /// Newlines passed.
     passed: u64,
+}
+
+/// Newlines in `s`, counted in blocks the compiler can vectorise.
+fn count_newlines(s: &[u8]) -> u64 {
+    let mut blocks = s.chunks_exact(32);
+    let mut n: u64 = (&mut blocks)
+        .map(|c| u64::from(c.iter().fold(0u8, |a, b| a + u8::from(*b == b'\n'))))
+        .sum();
+    n += blocks.remainder().iter().filter(|b| **b == b'\n').count() as u64;
+    n
 }
 
 impl Source {
     /// Line (1-based, counted from the first line handed on) of the byte at `offset`; offsets must
     /// be asked in increasing order.
     fn line_of(&mut self, offset: u64) -> u64 {
-        let k = (offset.saturating_sub(self.pending_start) as usize).min(self.pending.len());
-        let (a, b) = self.pending.as_slices();
-        let count = |s: &[u8]| s.iter().filter(|c| **c == b'\n').count() as u64;
-        self.passed += count(&a[..k.min(a.len())]) + count(&b[..k.saturating_sub(a.len())]);
-        self.pending.drain(..k);
-        self.pending_start += k as u64;
+        let end = (offset.saturating_sub(self.pending_start) as usize).min(self.pending.len());
+        if end > self.pending_at {
+            self.passed += count_newlines(&self.pending[self.pending_at..end]);
+            self.pending_at = end;
+        }
         self.passed + 1
     }
 }
@@ -220,7 +231,13 @@ impl Read for Source {
                 }
             },
         };
-        self.pending.extend(&buf[..n]);
+        // Drop what records have passed before keeping more.
+        if self.pending_at > 0 {
+            self.pending.drain(..self.pending_at);
+            self.pending_start += self.pending_at as u64;
+            self.pending_at = 0;
+        }
+        self.pending.extend_from_slice(&buf[..n]);
         Ok(n)
     }
 }
@@ -368,6 +385,12 @@ pub struct ForcingReader {
     report: ForcingReport,
 }
 
+/// Field `i` of a record without surrounding spaces (empty when the row is short). Only the cells
+/// the reader uses are trimmed, not every field of every row.
+fn cell_of(record: &ByteRecord, i: usize) -> &[u8] {
+    record.get(i).unwrap_or_default().trim_ascii()
+}
+
 fn bit(v: Variable) -> u16 {
     1 << v.index()
 }
@@ -449,13 +472,13 @@ impl ForcingReader {
             comment: plan.comment,
             at_line_start: true,
             in_comment: false,
-            pending: VecDeque::with_capacity(1 << 16),
+            pending: Vec::with_capacity(1 << 16),
+            pending_at: 0,
             pending_start: 0,
             passed: 0,
         };
         let mut csv = ReaderBuilder::new()
             .delimiter(plan.delimiter)
-            .trim(Trim::All)
             .from_reader(source);
         let headers: Vec<String> = csv
             .byte_headers()
@@ -798,7 +821,7 @@ impl ForcingReader {
 
     /// A time field of separate-field layouts: a whole number.
     fn whole(&self, index: usize, line: u64) -> Result<u32, ForcingError> {
-        let cell = self.record.get(index).unwrap_or_default();
+        let cell = cell_of(&self.record, index);
         std::str::from_utf8(cell)
             .ok()
             .and_then(|s| s.parse::<f64>().ok())
@@ -818,7 +841,7 @@ impl ForcingReader {
     /// The row's time as the file writes it (before `timestamp_marks` and `typical_year`).
     fn parse_time(&self, line: u64) -> Result<LocalTime, ForcingError> {
         let text = |index: usize| -> Result<&str, ForcingError> {
-            let cell = self.record.get(index).unwrap_or_default();
+            let cell = cell_of(&self.record, index);
             std::str::from_utf8(cell).map_err(|_| {
                 self.data_error(
                     line,
@@ -830,7 +853,7 @@ impl ForcingReader {
             })
         };
         let fail = |index: usize, why: String| {
-            let cell = self.record.get(index).unwrap_or_default();
+            let cell = cell_of(&self.record, index);
             self.data_error(
                 line,
                 index,
@@ -913,10 +936,7 @@ impl ForcingReader {
     /// The time cells of the current row, joined, for messages.
     fn time_text(&self) -> Vec<u8> {
         let indices = self.time.indices();
-        let cells: Vec<&[u8]> = indices
-            .iter()
-            .map(|i| self.record.get(*i).unwrap_or_default())
-            .collect();
+        let cells: Vec<&[u8]> = indices.iter().map(|i| cell_of(&self.record, *i)).collect();
         cells.join(&b' ')
     }
 
@@ -1026,7 +1046,7 @@ impl ForcingReader {
             precip_steps: 1,
         };
         for c in &self.columns {
-            let cell = self.record.get(c.index).unwrap_or_default();
+            let cell = cell_of(&self.record, c.index);
             // A value its flag refuses is missing, whatever it holds.
             let refused = match c.qc {
                 Some(q) => self.flag_refuses(c, q, line)?,
@@ -1059,7 +1079,7 @@ impl ForcingReader {
 
     /// Whether the quality flag at field `q` refuses the value of column `c`.
     fn flag_refuses(&self, c: &Column, q: usize, line: u64) -> Result<bool, ForcingError> {
-        let cell = self.record.get(q).unwrap_or_default();
+        let cell = cell_of(&self.record, q);
         let text = std::str::from_utf8(cell).unwrap_or("\u{fffd}");
         if self.plan.missing.iter().any(|m| m.trim() == text) {
             return Ok(false);
@@ -1082,7 +1102,7 @@ impl ForcingReader {
     /// The steps a precipitation value covers, from the period column (hours; empty or a missing
     /// code: one step).
     fn precip_steps(&self, p: usize, line: u64) -> Result<usize, ForcingError> {
-        let cell = self.record.get(p).unwrap_or_default();
+        let cell = cell_of(&self.record, p);
         let text = std::str::from_utf8(cell).unwrap_or("\u{fffd}");
         if self.plan.missing.iter().any(|m| m.trim() == text) {
             return Ok(1);
@@ -1297,7 +1317,7 @@ impl ForcingReader {
                 .find(|c| c.var == Variable::Precip)
                 .expect("precip is mapped");
             let index = c.index;
-            let cell = self.record.get(index).unwrap_or_default().to_vec();
+            let cell = cell_of(&self.record, index).to_vec();
             let why = match (first, self.gaps[v].last) {
                 (None, _) => {
                     format!("a total over {k} steps reaches back before the first row of the file")

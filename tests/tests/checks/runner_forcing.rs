@@ -1295,3 +1295,33 @@ fn the_summary_says_what_the_run_assumed_in_the_right_number() {
     assert_eq!(count(0, "value"), "0 values");
     assert_eq!(count(1, "step"), "1 step");
 }
+
+#[test]
+fn a_model_range_error_names_the_weather_files_line() {
+    // 58 °C at 0 % RH passes the reader's checks but gives a VPD of about 18 kPa (FAO-56), beyond
+    // the leaf model's 0–10 kPa: the model's error must come with the weather file and its line.
+    let dir = tempfile::tempdir().unwrap();
+    let site = std::fs::read_to_string(fixtures().join("typical_clean.toml"))
+        .unwrap()
+        .replace("typical_clean.csv", "hot.csv");
+    std::fs::write(dir.path().join("site.toml"), site).unwrap();
+    let mut csv = String::from("time,t_air_c,rh_percent,sw_w_m2,pressure_kpa,wind_m_s,precip_mm\n");
+    for h in 0..24 {
+        let (t, rh) = if h == 13 { ("58", "0") } else { ("25", "50") };
+        let sw = if (7..18).contains(&h) { "600" } else { "0" };
+        csv.push_str(&format!("2025-01-01T{h:02}:00,{t},{rh},{sw},89,2,0\n"));
+    }
+    std::fs::write(dir.path().join("hot.csv"), csv).unwrap();
+    let site = dir.path().join("site.toml");
+    let out = dir.path().join("out");
+    let err = crate::common::run(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ])
+    .unwrap_err();
+    // Line 15: the header is line 1, 13:00 is the 14th data row.
+    assert!(err.contains("hot.csv, line 15"), "{err}");
+    assert!(err.contains("vpd"), "{err}");
+}
