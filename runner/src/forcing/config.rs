@@ -903,3 +903,31 @@ impl ForcingConfig {
         })
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::ForcingConfig;
+
+    /// Every `[forcing]` example in docs/forcing.md parses and validates (docs match behaviour).
+    #[test]
+    fn every_forcing_example_in_the_docs_is_valid() {
+        #[derive(serde::Deserialize)]
+        struct Site {
+            forcing: ForcingConfig,
+        }
+        let docs = include_str!("../../../docs/forcing.md");
+        let mut checked = 0;
+        for block in docs.split("```toml\n").skip(1) {
+            let text = block.split("```").next().unwrap_or_default();
+            if !text.starts_with("[forcing]") {
+                continue;
+            }
+            let site: Site = toml::from_str(text).unwrap_or_else(|e| panic!("{text}\n{e}"));
+            site.forcing
+                .validate()
+                .unwrap_or_else(|e| panic!("{text}\n{e}"));
+            checked += 1;
+        }
+        assert!(checked >= 4, "only {checked} examples found");
+    }
+}
