@@ -643,8 +643,11 @@ fn summary(
     if !site.lai_from_forcing {
         assumed.push("LAI constant per vegetation (site file)".into());
     }
-    for note in assumed.iter().chain(&report.partial) {
+    for note in &assumed {
         let _ = writeln!(s, "  assumed: {note}");
+    }
+    for p in &report.partial {
+        let _ = writeln!(s, "  period: {p}");
     }
     for w in &report.warnings {
         let _ = writeln!(s, "  warning: {w}");

@@ -1459,7 +1459,7 @@ impl ForcingReader {
             && from < first
         {
             report.partial.push(format!(
-                "the period asked for starts {from}, before the file's first step {first}: the run starts there"
+                "the period asked for starts {from}, before the file's first step {first}: the run starts with that step"
             ));
         }
         if let (Some(to), Some(last)) = (self.to, report.file_last)
@@ -1467,7 +1467,7 @@ impl ForcingReader {
             && to > last.plus_minutes(step)
         {
             report.partial.push(format!(
-                "the period asked for ends {to}, after the file's last step {last}: the run ends there"
+                "the period asked for runs until {to}, beyond the file's last step {last}: the run ends with that step"
             ));
         }
         report.missing_values = Variable::ALL

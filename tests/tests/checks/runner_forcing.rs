@@ -1223,7 +1223,7 @@ fn a_partial_overlap_runs_the_overlap_and_labels_part_of_a_year() {
         "{summary}"
     );
     assert!(
-        summary.contains("after the file's last step 2025-12-31T23:00"),
+        summary.contains("period: the period asked for runs until 2026-03-01T00:00, beyond the file's last step 2025-12-31T23:00"),
         "{summary}"
     );
     assert!(
