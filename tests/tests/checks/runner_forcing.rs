@@ -1325,3 +1325,43 @@ fn a_model_range_error_names_the_weather_files_line() {
     assert!(err.contains("hot.csv, line 15"), "{err}");
     assert!(err.contains("vpd"), "{err}");
 }
+
+#[test]
+fn a_driver_mostly_missing_is_warned_about_in_the_summary_and_run_json() {
+    // Wind missing in 12 of 48 steps (25 % > 20 %): the run's summary and run.json say so.
+    let dir = tempfile::tempdir().unwrap();
+    let site = std::fs::read_to_string(fixtures().join("typical_clean.toml"))
+        .unwrap()
+        .replace("typical_clean.csv", "windy.csv");
+    std::fs::write(dir.path().join("site.toml"), site).unwrap();
+    let mut csv = String::from("time,t_air_c,rh_percent,sw_w_m2,pressure_kpa,wind_m_s,precip_mm\n");
+    for i in 0..48 {
+        let h = i % 24;
+        let sw = if (7..18).contains(&h) { "600" } else { "0" };
+        let wind = if (10..22).contains(&i) { "" } else { "2" };
+        csv.push_str(&format!(
+            "2025-01-{:02}T{h:02}:00,25,50,{sw},89,{wind},0\n",
+            1 + i / 24
+        ));
+    }
+    std::fs::write(dir.path().join("windy.csv"), csv).unwrap();
+    let site = dir.path().join("site.toml");
+    let out = dir.path().join("out");
+    let summary = run_summary(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ])
+    .unwrap();
+    assert!(
+        summary.contains("warning: wind is missing in 25.0 % of the steps"),
+        "{summary}"
+    );
+    let log: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("run.json")).unwrap()).unwrap();
+    let warnings = log["warnings"].as_array().unwrap();
+    assert_eq!(warnings.len(), 1, "{log}");
+    assert!(warnings[0].as_str().unwrap().contains("`wind_m_s`"));
+    assert_eq!(log["gaps"]["missing_values"]["wind"], 12);
+}
