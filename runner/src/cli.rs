@@ -195,9 +195,14 @@ pub struct LeafArgs {
     #[arg(long, value_enum, default_value = "table")]
     pub format: Format,
     /// Many conditions from a CSV file, one per row; columns named like the flags without dashes
-    /// (t_leaf, ppfd, vpd or rh, ca, pressure, o2, d13c_air, soil_beta) or like parameters.
+    /// (t_leaf, ppfd, vpd or rh, ca, pressure, o2, d13c_air, soil_beta) or like parameters; other
+    /// columns (sample IDs, treatments) are copied to the output unchanged, first.
     #[arg(long, value_name = "FILE.csv")]
     pub input: Option<PathBuf>,
+    /// With --input: the file's column COLUMN gives the condition NAME (t_leaf, ppfd, vpd, rh, ca,
+    /// pressure, o2, d13c_air, soil_beta); repeatable.
+    #[arg(long = "map", value_name = "NAME=COLUMN", requires = "input")]
+    pub map: Vec<String>,
     /// Write to this file (atomically) instead of standard output.
     #[arg(long, value_name = "FILE")]
     pub output: Option<PathBuf>,

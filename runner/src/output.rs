@@ -124,11 +124,15 @@ pub fn write_json(path: &Path, value: &serde_json::Value) -> Result<()> {
     f.commit()
 }
 
-/// `1 day`, `2 days`: a count with its noun in the right number (nouns with a plain `s` plural).
+/// `1 day`, `2 days`, `3 entries`: a count with its noun in the right number.
 pub fn plural(n: impl Into<u128>, noun: &str) -> String {
     let n = n.into();
     if n == 1 {
         format!("1 {noun}")
+    } else if let Some(stem) = noun.strip_suffix('y')
+        && !noun.ends_with("ay")
+    {
+        format!("{n} {stem}ies")
     } else {
         format!("{n} {noun}s")
     }

@@ -167,6 +167,11 @@ pub const PERIOD_COLUMNS: &[(&str, &str, &str)] = &[
     ("transpiration", "mm", "transpiration summed"),
     ("soil_evaporation", "mm", "soil evaporation summed"),
     ("beta", "-", "mean soil-water factor"),
+    (
+        "complete",
+        "0/1",
+        "1 when the run has every step of the period, 0 for part of it",
+    ),
 ];
 
 /// Index of a period column among the values of a [`PeriodRow`] (which omit `period`).
@@ -268,9 +273,9 @@ pub fn simulate(
     }
 
     let mut aggs = [
-        Aggregator::new(PeriodKind::Daily),
-        Aggregator::new(PeriodKind::Monthly),
-        Aggregator::new(PeriodKind::Annual),
+        Aggregator::new(PeriodKind::Daily, step_minutes),
+        Aggregator::new(PeriodKind::Monthly, step_minutes),
+        Aggregator::new(PeriodKind::Annual, step_minutes),
     ];
     let mut process = |f: &ForcingStep,
                        d: Option<SiteDrivers>,
@@ -346,9 +351,16 @@ fn site_step(
     };
     d.t_growth_c = growth.push((d.year, d.day_of_year), d.t_air_c);
     d.d13c_leaf_substrate_permil = substrate;
-    let s = model
-        .step(&d)
-        .with_context(|| format!("{}: step {}", site.path.display(), f.time))?;
+    // A range error from inside the model points at the weather file's line it came from.
+    let s = model.step(&d).with_context(|| {
+        format!(
+            "{}: step {} (weather file {}, line {})",
+            site.path.display(),
+            f.time,
+            site.dir().join(&site.file.forcing.path).display(),
+            f.line
+        )
+    })?;
     Ok((Some(d), Some(s)))
 }
 
@@ -758,15 +770,17 @@ impl Sums {
 
 struct Aggregator {
     kind: PeriodKind,
+    step_minutes: u32,
     current: Option<(PeriodKey, Sums)>,
     current_date: Option<LocalDate>,
     rows: Vec<PeriodRow>,
 }
 
 impl Aggregator {
-    fn new(kind: PeriodKind) -> Self {
+    fn new(kind: PeriodKind, step_minutes: u32) -> Self {
         Self {
             kind,
+            step_minutes,
             current: None,
             current_date: None,
             rows: Vec::new(),
@@ -858,9 +872,24 @@ impl Aggregator {
 
     fn flush(&mut self) {
         if let Some((key, sums)) = self.current.take() {
+            let (y, m, d) = key;
+            let start = |y, m| LocalTime::from_ymdhm(y, m, d.max(1), 0, 0);
+            let end = match self.kind {
+                PeriodKind::Daily => start(y, m).map(|t| t.plus_minutes(1440)),
+                PeriodKind::Monthly if m == 12 => start(y + 1, 1),
+                PeriodKind::Monthly => start(y, m + 1),
+                PeriodKind::Annual => start(y + 1, 1),
+            };
+            // Steps in the whole period (−1 past year 9999, where no period is complete).
+            let expected = match (start(y, m.max(1)), end) {
+                (Ok(a), Ok(b)) => (b.minutes() - a.minutes()) / i64::from(self.step_minutes),
+                _ => -1,
+            };
+            let mut values = sums.row();
+            values.push(f64::from(u8::from(sums.steps as i64 == expected)));
             self.rows.push(PeriodRow {
                 key: self.kind.label(key),
-                values: sums.row(),
+                values,
             });
         }
     }

@@ -6,7 +6,6 @@ use std::io::{self, BufReader, BufWriter, Write};
 use std::path::{Path, PathBuf};
 
 use isodisc_model::ModelError;
-use isodisc_model::error::closest_name;
 use isodisc_model::leaf::{
     BetaTarget, C3Form, ElectronLimit, LeafConditions, LeafModel, LeafOptions, LeafState, Pathway,
     TemperatureSet,
@@ -16,6 +15,7 @@ use isodisc_model::water::vpd_from_rh_kpa;
 use crate::cli::{
     BetaTargetArg, ElectronArg, FormArg, Format, LeafArgs, PathwayArg, TemperatureSetArg,
 };
+use crate::commands::leaf_input::{self, InputColumn};
 use crate::error::{Context, Error, Result};
 use crate::output::{AtomicFile, fmt_num, json_num};
 
@@ -32,6 +32,8 @@ pub struct LeafPlan {
     base_rh: Option<f64>,
     format: Format,
     input: Option<PathBuf>,
+    /// `--map NAME=COLUMN`: the input's own column names for conditions.
+    maps: Vec<(String, String)>,
     output: Option<PathBuf>,
     list_params: bool,
 }
@@ -124,6 +126,7 @@ impl LeafPlan {
             base_rh: args.rh,
             format: args.format,
             input: args.input.clone(),
+            maps: leaf_input::parse_maps(&args.map)?,
             output: args.output.clone(),
             list_params: args.list_params,
         })
@@ -186,9 +189,9 @@ impl LeafPlan {
                 path.display()
             )));
         }
-        let columns = map_columns(&header, self.model.pathway(), path)?;
-        let has_vpd = columns.iter().any(|c| matches!(c, Column::Condition(2)));
-        let has_rh = columns.iter().any(|c| matches!(c, Column::Rh));
+        let columns = leaf_input::map_columns(&header, self.model.pathway(), path, &self.maps)?;
+        let has_vpd = columns.contains(&InputColumn::Condition(2));
+        let has_rh = columns.contains(&InputColumn::Rh);
         if has_vpd && has_rh {
             return Err(Error::msg(format!(
                 "{}: give either a `vpd` or an `rh` column, not both",
@@ -199,11 +202,17 @@ impl LeafPlan {
             .iter()
             .enumerate()
             .filter_map(|(i, c)| match c {
-                Column::Param(n) => Some((i, *n)),
+                InputColumn::Param(n) => Some((i, *n)),
                 _ => None,
             })
             .collect();
-        let mut out = RowWriter::new(self.format, &param_cols);
+        // Columns that are neither conditions nor parameters go to the output unchanged, first.
+        let pass_cols: Vec<usize> = (0..columns.len())
+            .filter(|i| columns[*i] == InputColumn::Pass)
+            .collect();
+        let pass_names: Vec<&str> = pass_cols.iter().map(|i| &header[*i]).collect();
+        let mut pass: Vec<String> = Vec::with_capacity(pass_cols.len());
+        let mut out = RowWriter::new(self.format, &param_cols, &pass_names);
         out.header(w)?;
         let mut record = csv::StringRecord::new();
         let mut model = self.model.clone();
@@ -216,7 +225,7 @@ impl LeafPlan {
             let mut vals = values(&self.base);
             let mut rh = self.base_rh;
             for (i, (field, col)) in record.iter().zip(&columns).enumerate() {
-                if field.is_empty() {
+                if field.is_empty() || *col == InputColumn::Pass {
                     continue;
                 }
                 let v: f64 = field.parse().map_err(|_| {
@@ -228,23 +237,30 @@ impl LeafPlan {
                     ))
                 })?;
                 match col {
-                    Column::Condition(k) => {
+                    InputColumn::Condition(k) => {
                         vals[*k] = v;
                         if *k == 2 {
                             rh = None;
                         }
                     }
-                    Column::Rh => {
+                    InputColumn::Rh => {
                         check_cell(path, line, i, &header[i], v, RH_RANGE.0, RH_RANGE.1, "%")?;
                         rh = Some(v);
                     }
-                    Column::Param(name) => {
+                    InputColumn::Param(name) => {
                         model
                             .set(name, v)
                             .map_err(|e| cell_error(path, line, i, &header[i], e))?;
                     }
+                    InputColumn::Pass => {}
                 }
             }
+            pass.clear();
+            pass.extend(
+                pass_cols
+                    .iter()
+                    .map(|i| record.get(*i).unwrap_or_default().to_string()),
+            );
             params.clear();
             params.extend(
                 param_cols
@@ -270,7 +286,7 @@ impl LeafPlan {
             if !param_cols.is_empty() {
                 model = self.model.clone();
             }
-            out.row(w, &c, &params, &state)?;
+            out.row(w, &c, &params, &state, &pass)?;
         }
         out.finish(w)
     }
@@ -348,49 +364,6 @@ fn cell_error(path: &Path, line: u64, col: usize, name: &str, e: ModelError) -> 
     ))
 }
 
-/// What an input column sets.
-#[derive(Debug, Clone, Copy)]
-enum Column {
-    /// A condition, by its index in `LeafConditions::RANGES`.
-    Condition(usize),
-    /// Relative humidity (%).
-    Rh,
-    /// A leaf parameter.
-    Param(&'static str),
-}
-
-fn map_columns(header: &csv::StringRecord, pathway: Pathway, path: &Path) -> Result<Vec<Column>> {
-    let specs = pathway.specs();
-    header
-        .iter()
-        .enumerate()
-        .map(|(i, h)| {
-            if let Some(k) = LeafConditions::RANGES.iter().position(|r| r.0 == h) {
-                Ok(Column::Condition(k))
-            } else if h == "rh" {
-                Ok(Column::Rh)
-            } else if let Some(s) = specs.iter().find(|s| s.name == h) {
-                Ok(Column::Param(s.name))
-            } else {
-                let known = LeafConditions::RANGES
-                    .iter()
-                    .map(|r| r.0)
-                    .chain(["rh"])
-                    .chain(specs.iter().map(|s| s.name));
-                let hint = closest_name(h, known)
-                    .map(|k| format!(" (did you mean `{k}`?)"))
-                    .unwrap_or_default();
-                Err(Error::msg(format!(
-                    "{}: line 1, column {} (`{h}`): not a condition or {} parameter{hint}",
-                    path.display(),
-                    i + 1,
-                    pathway.as_str()
-                )))
-            }
-        })
-        .collect()
-}
-
 /// Output columns after the conditions: (name, unit).
 const RESULT_COLUMNS: &[(&str, &str)] = &[
     ("a_net", "umol m-2 s-1"),
@@ -444,9 +417,9 @@ fn write_single(
             writeln!(w, "{:<16} {:>12}", "limitation", s.limitation.as_str())?;
         }
         Format::Csv | Format::Json => {
-            let mut out = RowWriter::new(format, &[]);
+            let mut out = RowWriter::new(format, &[], &[]);
             out.header(w)?;
-            out.row(w, c, &[], s)?;
+            out.row(w, c, &[], s, &[])?;
             out.finish(w)?;
         }
     }
@@ -456,12 +429,14 @@ fn write_single(
 /// Streams output rows in one of the formats.
 struct RowWriter {
     format: Format,
+    /// Pass-through columns, written first.
+    pass_names: Vec<String>,
     names: Vec<String>,
     buf: String,
 }
 
 impl RowWriter {
-    fn new(format: Format, params: &[(usize, &str)]) -> Self {
+    fn new(format: Format, params: &[(usize, &str)], pass: &[&str]) -> Self {
         let names = LeafConditions::RANGES
             .iter()
             .map(|r| r.0.to_string())
@@ -470,6 +445,7 @@ impl RowWriter {
             .collect();
         Self {
             format,
+            pass_names: pass.iter().map(|p| p.to_string()).collect(),
             names,
             buf: String::with_capacity(256),
         }
@@ -477,10 +453,17 @@ impl RowWriter {
 
     fn header(&mut self, w: &mut dyn Write) -> Result<()> {
         match self.format {
-            Format::Csv => writeln!(w, "{}", self.names.join(","))?,
+            Format::Csv => {
+                let mut line = String::new();
+                for n in &self.pass_names {
+                    leaf_input::push_csv_cell(&mut line, n);
+                    line.push(',');
+                }
+                writeln!(w, "{line}{}", self.names.join(","))?
+            }
             Format::Table => {
                 // A space before every cell keeps long names and numbers apart.
-                for n in &self.names {
+                for n in self.pass_names.iter().chain(&self.names) {
                     write!(w, " {n:>15}")?;
                 }
                 writeln!(w)?;
@@ -496,6 +479,7 @@ impl RowWriter {
         c: &LeafConditions,
         params: &[f64],
         s: &LeafState,
+        pass: &[String],
     ) -> Result<()> {
         let nums = values(c)
             .into_iter()
@@ -505,6 +489,14 @@ impl RowWriter {
         match self.format {
             Format::Csv | Format::Table => {
                 let table = self.format == Format::Table;
+                for cell in pass {
+                    if table {
+                        self.buf.push_str(&format!(" {cell:>15}"));
+                    } else {
+                        leaf_input::push_csv_cell(&mut self.buf, cell);
+                        self.buf.push(',');
+                    }
+                }
                 for (i, v) in nums.enumerate() {
                     if i > 0 && !table {
                         self.buf.push(',');
@@ -531,6 +523,9 @@ impl RowWriter {
             }
             Format::Json => {
                 let mut obj = serde_json::Map::new();
+                for (name, cell) in self.pass_names.iter().zip(pass) {
+                    obj.insert(name.clone(), cell.as_str().into());
+                }
                 for (name, v) in self.names.iter().zip(nums) {
                     obj.insert(name.clone(), json_num(v));
                 }

@@ -6,6 +6,7 @@ pub mod compare;
 pub mod ensemble;
 pub mod keeling;
 pub mod leaf;
+pub mod leaf_input;
 pub mod merge;
 pub mod plot;
 pub mod presets;

@@ -10,7 +10,7 @@ use std::time::Instant;
 use crate::cli::RunArgs;
 use crate::commands::parse_period;
 use crate::error::{Context, Error, Result};
-use crate::forcing::{ForcingReader, ForcingReport, LocalDate, LocalTime};
+use crate::forcing::{ForcingReader, ForcingReport, LocalDate, LocalTime, Variable};
 use crate::output::{
     AtomicFile, check_out_dir, fmt_num, inputs_json, json_num, plural, write_folder, write_json,
 };
@@ -178,17 +178,28 @@ impl RunPlan {
 
     /// Runs the site and writes the results.
     pub fn run(&self) -> Result<()> {
-        let started = Instant::now();
-        let summary = write_folder(&self.out, self.overwrite, "run", |tmp| {
-            self.run_into(tmp, started)
-        })?;
+        let (summary, warnings) = self.execute()?;
         if !self.quiet {
             print!("{summary}");
+        } else {
+            // Warnings reach the terminal even without the summary.
+            for w in warnings {
+                eprintln!("isodisc run: warning: {w}");
+            }
         }
         Ok(())
     }
 
-    fn run_into(&self, dir: &Path, started: Instant) -> Result<String> {
+    /// Runs the site and writes the results; returns the summary and the weather warnings
+    /// without printing them.
+    pub fn execute(&self) -> Result<(String, Vec<String>)> {
+        let started = Instant::now();
+        write_folder(&self.out, self.overwrite, "run", |tmp| {
+            self.run_into(tmp, started)
+        })
+    }
+
+    fn run_into(&self, dir: &Path, started: Instant) -> Result<(String, Vec<String>)> {
         let site = &self.site;
         let mut reader = ForcingReader::open(
             &site.file.forcing,
@@ -202,15 +213,21 @@ impl RunPlan {
         let mut sink = FileSink::create(dir, step_minutes, site)?;
         let sim = simulate(site, &mut reader, step_minutes, &mut sink)?;
         sink.commit()?;
+        let mut written = vec!["steps.csv", "pools_daily.csv"];
         let files = ["daily.csv", "monthly.csv", "annual.csv"];
         for ((rows, file), on) in sim.periods.iter().zip(files).zip(site.aggregates) {
             if on {
                 write_periods(&dir.join(file), rows)?;
+                written.push(file);
             }
         }
         let report = reader.report();
         self.write_log(dir, &report, &sim, started)?;
-        Ok(summary(site, &sim, &report, &self.out))
+        written.push("run.json");
+        Ok((
+            summary(site, &sim, &report, &self.out, &written),
+            report.warnings.clone(),
+        ))
     }
 
     fn write_log(
@@ -314,7 +331,11 @@ impl RunPlan {
                     "step_minutes": report.step_minutes,
                     "first_step": report.first.map(|t| t.to_string()),
                     "last_step": report.last.map(|t| t.to_string()),
+                    "header_line": report.header_line,
+                    "file_first_step": report.file_first.map(|t| t.to_string()),
+                    "file_last_step": report.file_last.map(|t| t.to_string()),
                     "notes": report.notes,
+                    "period_beyond_file": report.partial,
                 },
                 "output": {"daily": site.aggregates[0], "monthly": site.aggregates[1], "annual": site.aggregates[2]},
                 "from": self.from.map(|t| t.to_string()),
@@ -327,7 +348,19 @@ impl RunPlan {
                 "filled_values": gaps,
                 "missing_steps": report.missing_steps,
                 "night_radiation_zeroed": report.night_radiation_zeroed,
+                "missing_values": report
+                    .missing_values
+                    .iter()
+                    .map(|(k, v)| (k.name().to_string(), serde_json::Value::from(*v)))
+                    .collect::<serde_json::Map<_, _>>(),
+                "refused_by_quality_flag": report
+                    .qc_refused
+                    .iter()
+                    .map(|(k, v)| (k.name().to_string(), serde_json::Value::from(*v)))
+                    .collect::<serde_json::Map<_, _>>(),
+                "precipitation_totals_spread": report.precip_totals_spread,
             },
+            "warnings": report.warnings,
             "units": {
                 "steps.csv": units(STEP_COLUMNS),
                 "periods": units(PERIOD_COLUMNS),
@@ -517,7 +550,13 @@ pub fn write_periods(path: &Path, rows: &[PeriodRow]) -> Result<()> {
     f.commit()
 }
 
-fn summary(site: &Site, sim: &Simulated, report: &ForcingReport, out: &Path) -> String {
+fn summary(
+    site: &Site,
+    sim: &Simulated,
+    report: &ForcingReport,
+    out: &Path,
+    written: &[&str],
+) -> String {
     let show = |v: f64, digits: usize| {
         if v.is_finite() {
             format!("{v:.digits$}")
@@ -542,6 +581,7 @@ fn summary(site: &Site, sim: &Simulated, report: &ForcingReport, out: &Path) -> 
         "{:<6} {:>9} {:>8} {:>8} {:>8} {:>8} {:>9} {:>9} {:>8} {:>7} {:>7}",
         "", "gC m-2", "‰", "‰", "‰", "-", "gC m-2", "‰ VPDB", "‰", "steps", "steps"
     );
+    let mut partial_years = Vec::new();
     for r in &sim.periods[2] {
         let v = |name: &str| r.values[period_col(name)];
         let _ = writeln!(
@@ -559,12 +599,21 @@ fn summary(site: &Site, sim: &Simulated, report: &ForcingReport, out: &Path) -> 
             v("filled_steps"),
             v("missing_steps"),
         );
+        if v("complete") == 0.0 {
+            partial_years.push(format!(
+                "part of {}: {} of the year",
+                r.key,
+                plural(v("steps") as u64, "step")
+            ));
+        }
+    }
+    for p in partial_years {
+        let _ = writeln!(s, "{p} (sums cover only those steps)");
     }
     let p = &sim.pools;
-    let age = p.mean_age_respired_days.map_or("-".into(), |d| {
-        let d = format!("{d:.0}");
-        format!("{d} {}", if d == "1" { "day" } else { "days" })
-    });
+    let age = p
+        .mean_age_respired_days
+        .map_or("-".into(), |d| plural(d.round() as u64, "day"));
     let lag = p.effective_lag_days.map_or("-".into(), |k| {
         format!("{} (r = {:.2})", plural(k as u64, "day"), p.effective_lag_r)
     });
@@ -573,16 +622,47 @@ fn summary(site: &Site, sim: &Simulated, report: &ForcingReport, out: &Path) -> 
         "respired carbon: mean age {age}; effective lag of δR behind the assimilate {lag}"
     );
     let filled: usize = report.filled.values().sum();
+    let span = match (report.first, report.last) {
+        (Some(a), Some(b)) => format!(" ({a} to {b})"),
+        _ => String::new(),
+    };
     let _ = writeln!(
         s,
-        "forcing: {} of {} min; {} gap-filled, {} missing, {} night radiation set to 0",
+        "weather: {}, {} of {} min{span}; {} gap-filled, {} missing, {} set to 0",
+        report.path.display(),
         plural(report.steps as u64, "step"),
         report.step_minutes,
         plural(filled as u64, "value"),
         plural(report.missing_steps as u64, "step"),
-        plural(report.night_radiation_zeroed as u64, "value"),
+        plural(
+            report.night_radiation_zeroed as u64,
+            "night radiation value"
+        ),
     );
-    let _ = writeln!(s, "results: {}", out.display());
+    let read = |v: Variable| report.read.contains(&v);
+    let mut assumed = report.notes.clone();
+    if let Some(c) = site.co2 {
+        assumed.push(format!("CO2 constant at {c} µmol mol⁻¹ (site file)"));
+    }
+    if let Some(d) = site.d13c_co2 {
+        assumed.push(format!("δ13C of CO2 constant at {d} ‰ (site file)"));
+    }
+    if !read(Variable::Wind) {
+        assumed.push("no wind column: the leaf boundary-layer conductance is the parameter gb (infinite unless set)".into());
+    }
+    if !site.lai_from_forcing {
+        assumed.push("LAI constant per vegetation (site file)".into());
+    }
+    for note in &assumed {
+        let _ = writeln!(s, "  assumed: {note}");
+    }
+    for p in &report.partial {
+        let _ = writeln!(s, "  period: {p}");
+    }
+    for w in &report.warnings {
+        let _ = writeln!(s, "  warning: {w}");
+    }
+    let _ = writeln!(s, "written to {}: {}", out.display(), written.join(", "));
     s
 }
 

@@ -53,8 +53,20 @@ pub enum ForcingError {
         variable: String,
         /// The column name that was not found.
         column: String,
-        /// The closest header, if one is close.
-        closest: Option<String>,
+        /// The closest header if one is close, the line taken as the header and its first fields,
+        /// and a hint when the header looks split wrongly (one field holding tabs or `;`).
+        detail: String,
+    },
+    /// A column used by the reader appears twice in the header.
+    DuplicateColumn {
+        /// The file.
+        path: PathBuf,
+        /// The line taken as the header (1-based).
+        header_line: u64,
+        /// The repeated name.
+        column: String,
+        /// Its first and second column numbers, 1-based.
+        numbers: (usize, usize),
     },
     /// A bad value in the data.
     Data {
@@ -96,18 +108,24 @@ impl fmt::Display for ForcingError {
                 path,
                 variable,
                 column,
-                closest,
-            } => {
-                write!(
-                    f,
-                    "{}: column `{column}` (mapped to {variable}) is not in the header",
-                    path.display()
-                )?;
-                match closest {
-                    Some(c) => write!(f, "; did you mean `{c}`?"),
-                    None => Ok(()),
-                }
-            }
+                detail,
+            } => write!(
+                f,
+                "{}: column `{column}` (mapped to {variable}) is not in the header{detail}",
+                path.display()
+            ),
+            ForcingError::DuplicateColumn {
+                path,
+                header_line,
+                column,
+                numbers,
+            } => write!(
+                f,
+                "{}, line {header_line}: the header names `{column}` twice, columns no. {} and no. {};                  rename one so that isodisc knows which to read",
+                path.display(),
+                numbers.0,
+                numbers.1
+            ),
             ForcingError::Data {
                 path,
                 line,

@@ -5,11 +5,12 @@
 
 pub mod config;
 pub mod error;
+pub mod pattern;
 pub mod preset;
 pub mod reader;
 pub mod time;
 
-pub use config::{ForcingConfig, PerVariable, TimeFormat, TimestampMarks, Variable};
+pub use config::{ForcingConfig, MissingSpec, PerVariable, TimeFormat, TimestampMarks, Variable};
 pub use error::{DataErrorKind, ForcingError};
 pub use preset::Preset;
 pub use reader::{ForcingReader, ForcingReport, ForcingStep};

@@ -138,9 +138,63 @@ impl LocalTime {
         })
     }
 
+    /// Like [`LocalTime::from_ymdhm`], but also accepts hour 24 with minute 0, the end of the day's
+    /// last hour (as hour-ending files write it): that is 00:00 of the next day.
+    pub fn from_ymdhm_24(
+        year: i32,
+        month: u32,
+        day: u32,
+        hour: u32,
+        minute: u32,
+    ) -> Result<Self, TimeError> {
+        if hour == 24 && minute == 0 {
+            return Ok(Self::from_ymdhm(year, month, day, 0, 0)?.plus_minutes(MINUTES_PER_DAY));
+        }
+        Self::from_ymdhm(year, month, day, hour, minute)
+    }
+
+    /// A time from a year, a day of the year (1 on 1 January) and a time of day (hour 0–24, where
+    /// 24 needs minute 0 and means the end of the day).
+    pub fn from_year_doy(year: i32, doy: u32, hour: u32, minute: u32) -> Result<Self, TimeError> {
+        if !(1..=9999).contains(&year) {
+            return Err(TimeError(format!("year {year} is outside 1–9999")));
+        }
+        let last = if is_leap_year(i64::from(year)) {
+            366
+        } else {
+            365
+        };
+        if doy < 1 || doy > last {
+            return Err(TimeError(format!(
+                "day of year {doy} does not exist in {year:04} (it has {last} days)"
+            )));
+        }
+        let jan1 = Self::from_ymdhm_24(year, 1, 1, hour, minute)?;
+        Ok(jan1.plus_minutes(i64::from(doy - 1) * MINUTES_PER_DAY))
+    }
+
+    /// The same day of the year's calendar date and time of day in another `year` (a typical
+    /// year's relabelling); 29 February cannot move to a year without one.
+    pub fn with_year(self, year: i32) -> Result<Self, TimeError> {
+        let of_day = self.minutes.rem_euclid(MINUTES_PER_DAY);
+        let d = self.date();
+        Self::from_ymdhm(
+            year,
+            d.month(),
+            d.day(),
+            (of_day / 60) as u32,
+            (of_day % 60) as u32,
+        )
+    }
+
     /// Parses ISO 8601 `YYYY-MM-DDTHH:MM`, optionally with `:SS` (which must be `00`: isodisc works
     /// in whole minutes) and with a space instead of the `T`.
     pub fn parse_iso(s: &str) -> Result<Self, TimeError> {
+        Self::parse_iso_with(s, false)
+    }
+
+    /// [`LocalTime::parse_iso`], with `allow_24`: `T24:00` is accepted as the end of the day.
+    pub fn parse_iso_with(s: &str, allow_24: bool) -> Result<Self, TimeError> {
         let expected = "expected YYYY-MM-DDTHH:MM[:SS] (a space may replace the T)";
         let b = s.as_bytes();
         let shape_ok = (b.len() == 16 || b.len() == 19)
@@ -173,17 +227,31 @@ impl LocalTime {
                 None => return Err(TimeError(expected.to_string())),
             }
         }
-        Self::from_ymdhm(y as i32, mo, d, h, mi)
+        if allow_24 {
+            Self::from_ymdhm_24(y as i32, mo, d, h, mi)
+        } else {
+            Self::from_ymdhm(y as i32, mo, d, h, mi)
+        }
     }
 
     /// Parses the compact `YYYYMMDDHHMM` form used by flux-tower files (e.g. `202506011330`).
     pub fn parse_yyyymmddhhmm(s: &str) -> Result<Self, TimeError> {
+        Self::parse_yyyymmddhhmm_with(s, false)
+    }
+
+    /// [`LocalTime::parse_yyyymmddhhmm`], with `allow_24`: hour `2400` is the end of the day.
+    pub fn parse_yyyymmddhhmm_with(s: &str, allow_24: bool) -> Result<Self, TimeError> {
         let expected = || TimeError("expected 12 digits YYYYMMDDHHMM".to_string());
         if s.len() != 12 || !s.bytes().all(|b| b.is_ascii_digit()) {
             return Err(expected());
         }
         let field = |r: std::ops::Range<usize>| digits(&s[r]).ok_or_else(expected);
-        Self::from_ymdhm(
+        let build = if allow_24 {
+            Self::from_ymdhm_24
+        } else {
+            Self::from_ymdhm
+        };
+        build(
             field(0..4)? as i32,
             field(4..6)?,
             field(6..8)?,

@@ -13,6 +13,7 @@ mod pools;
 mod robustness;
 mod runner_forcing;
 mod runner_leaf;
+mod runner_leaf_input;
 mod runner_observations;
 mod runner_run;
 mod validation;

@@ -562,3 +562,807 @@ fn settings_errors_name_the_setting() {
     let msg = bad_gap.validate().unwrap_err().to_string();
     assert!(msg.contains("max_gap_hours"), "{msg}");
 }
+
+// ---- Weather files as they come: layouts, units, typical years, checks by the reader. ----
+
+/// The committed fixtures of these checks (written by `make_forcing_fixtures.py` beside them).
+fn fixtures() -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("fixtures/forcing")
+}
+
+/// A `[forcing]` block given as JSON (the site file's TOML goes through the same serde).
+fn config(json: &str) -> ForcingConfig {
+    serde_json::from_str(json).unwrap_or_else(|e| panic!("{json}: {e}"))
+}
+
+/// Two steps agree: same time and flags, every value within `tol` (NaN equals NaN).
+fn assert_same_steps(a: &[ForcingStep], b: &[ForcingStep], tol: f64, what: &str) {
+    assert_eq!(a.len(), b.len(), "{what}: step count");
+    let same = |x: f64, y: f64| (x.is_nan() && y.is_nan()) || (x - y).abs() <= tol;
+    for (x, y) in a.iter().zip(b) {
+        let at = format!("{what} at {}", x.time);
+        assert_eq!(x.time, y.time, "{at}");
+        assert_eq!((x.filled, x.missing), (y.filled, y.missing), "{at}");
+        for (name, u, v) in [
+            ("t_air", x.t_air_c, y.t_air_c),
+            ("vpd", x.vpd_kpa, y.vpd_kpa),
+            ("sw", x.sw_w_m2, y.sw_w_m2),
+            ("ppfd", x.ppfd_umol_m2_s, y.ppfd_umol_m2_s),
+            ("pressure", x.pressure_kpa, y.pressure_kpa),
+            ("precip", x.precip_mm, y.precip_mm),
+            (
+                "wind",
+                x.wind_m_s.unwrap_or(-1.0),
+                y.wind_m_s.unwrap_or(-1.0),
+            ),
+        ] {
+            assert!(same(u, v), "{at}: {name} {u} vs {v}");
+        }
+    }
+}
+
+const PLAIN: &str = r#"{"path": "plain.csv",
+    "columns": {"t_air": "t_air", "rh": "rh", "sw": "sw", "precip": "precip",
+                "pressure": "pressure", "wind": "wind"}}"#;
+
+#[test]
+fn every_layout_reads_to_the_same_steps_as_the_plain_file() {
+    // Each fixture holds the numbers of plain.csv in another layout or unit (written so by the
+    // generator); unit factors are definitions: °F = °C·9/5 + 32, 1 inch = 25.4 mm, 1 km h⁻¹ =
+    // 1/3.6 m s⁻¹, 1 mbar = 1 hPa = 0.1 kPa, J m⁻² over an hour ÷ 3600 s = W m⁻².
+    let dir = fixtures();
+    let (plain, _) = read_all(&config(PLAIN), &dir).unwrap();
+    assert_eq!(plain.len(), 48);
+    assert!(plain.iter().any(|s| s.filled), "the fixture has gaps");
+    let layouts = [
+        (
+            "pattern_semicolon",
+            r##"{"path": "pattern_semicolon.csv", "delimiter": ";", "comment": "#",
+                "time_column": "stamp", "time_format": "%d.%m.%Y %H:%M",
+                "missing": ["-999"],
+                "columns": {"t_air": "ta", "rh": "rh", "sw": "sw", "precip": "rain",
+                            "pressure": "pa", "wind": "ws"}}"##,
+        ),
+        (
+            "date_time_hour_ending",
+            r#"{"path": "date_time_hour_ending.csv", "header_line": 2,
+                "date_column": "date", "date_format": "%m/%d/%Y",
+                "time_column": "hour", "time_format": "%H:%M", "timestamp_marks": "end",
+                "columns": {"t_air": "temp_f", "rh": "rh", "sw": "sw_j_m2", "precip": "rain_in",
+                            "pressure": "pres_mbar", "wind": "wind_kmh"},
+                "units": {"t_air": "degF", "sw": "J m-2", "precip": "inch",
+                          "pressure": "mbar", "wind": "km h-1"}}"#,
+        ),
+        (
+            "fields_doy",
+            r#"{"path": "fields_doy.csv", "year_column": "yr", "doy_column": "doy",
+                "hour_column": "hr", "timestamp_marks": "end",
+                "missing": {"all": ["-9999", ""], "t_air": [-9900], "precip": ["-9900"],
+                            "wind": ["-8888"]},
+                "columns": {"t_air": "ta_tenths", "rh": "rh", "sw": "sw", "precip": "rain_tenths",
+                            "pressure": "pa_hpa", "wind": "ws"},
+                "units": {"pressure": "hPa"},
+                "scale": {"t_air": 0.1, "precip": 0.1}}"#,
+        ),
+        (
+            "precip_totals",
+            r#"{"path": "precip_totals.csv", "time_column": "TS", "time_format": "yyyymmddhhmm",
+                "precip_period_column": "rain_hours",
+                "columns": {"t_air": "ta", "rh": "rh", "sw": "sw", "precip": "rain",
+                            "pressure": "pa", "wind": "ws"}}"#,
+        ),
+        (
+            "sensors",
+            r#"{"path": "sensors.csv", "preset": "flux-tower-sensors", "step_minutes": 60}"#,
+        ),
+    ];
+    for (name, json) in layouts {
+        let (steps, reader) =
+            read_all(&config(json), &dir).unwrap_or_else(|e| panic!("{name}: {e}"));
+        assert_same_steps(&plain, &steps, 1e-9, name);
+        let report = reader.report();
+        if name == "sensors" {
+            // Two wind and one temperature value carry flag 3 > qc_max 1: refused, then filled.
+            assert_eq!(report.qc_refused.get(&Variable::TAir), Some(&1), "{report}");
+            assert_eq!(report.qc_refused.get(&Variable::Wind), Some(&2), "{report}");
+        }
+        if name == "precip_totals" {
+            // 0.9 mm over 3 h is 0.3 mm in each hour (arithmetic); plain.csv has 0.3 there.
+            assert_eq!(report.precip_totals_spread, 1);
+            assert!((steps[10].precip_mm - 0.3).abs() < EXACT);
+        }
+    }
+}
+
+#[test]
+fn typical_year_runs_as_it_comes_like_its_cleaned_twin() {
+    // 8,760 hours with a metadata line, split date and time, hour-ending 01:00–24:00, months from
+    // different years, −9900 codes and tenths, against the same numbers cleaned by hand (written
+    // together by the generator): `isodisc run` must give the same annual and monthly results.
+    let dir = fixtures();
+    let out = tempfile::tempdir().unwrap();
+    let mut tables = Vec::new();
+    for site in ["typical_raw.toml", "typical_clean.toml"] {
+        let o = out.path().join(site);
+        let site = dir.join(site);
+        crate::common::run(&[
+            "run",
+            site.to_str().unwrap(),
+            "--out",
+            o.to_str().unwrap(),
+            "--quiet",
+        ])
+        .unwrap();
+        let read = |f: &str| std::fs::read_to_string(o.join(f)).unwrap();
+        tables.push((read("annual.csv"), read("monthly.csv")));
+    }
+    let rows = |text: &str| -> Vec<Vec<String>> {
+        text.lines()
+            .map(|l| l.split(',').map(str::to_string).collect())
+            .collect()
+    };
+    for (raw, clean) in [(&tables[0].0, &tables[1].0), (&tables[0].1, &tables[1].1)] {
+        let (a, b) = (rows(raw), rows(clean));
+        assert_eq!(a.len(), b.len());
+        for (ra, rb) in a.iter().zip(&b) {
+            for (x, y) in ra.iter().zip(rb) {
+                match (x.parse::<f64>(), y.parse::<f64>()) {
+                    // Tenths times 0.1 differ from the decimal in the last bits only.
+                    (Ok(u), Ok(v)) => {
+                        assert!((u - v).abs() <= 1e-9 * v.abs().max(1.0), "{x} vs {y}")
+                    }
+                    _ => assert_eq!(x, y),
+                }
+            }
+        }
+    }
+    let annual = rows(&tables[0].0);
+    let col = |name: &str| annual[0].iter().position(|h| h == name).unwrap();
+    assert_eq!(annual[1][0], "2001");
+    assert_eq!(annual[1][col("steps")], "8760");
+    assert_eq!(annual[1][col("complete")], "1");
+    let precip: f64 = annual[1][col("precip")].parse().unwrap();
+    assert!(
+        (0.0..5000.0).contains(&precip),
+        "no −9900 reached the run: {precip}"
+    );
+}
+
+#[test]
+fn more_units_convert_by_their_definitions() {
+    // Definitions: 1 Pa = 1e-3 kPa; J m⁻² over a 30-min step ÷ 1800 s = W m⁻²; 1 MJ = 1e6 J;
+    // kg m⁻² s⁻¹ × 1800 s = mm per step; 2 mm h⁻¹ for half an hour = 1 mm.
+    let dir = site_with("time,ta,rh,sw,p,pa\n2025-06-01T12:00,25,50,900000,0.0005,101300\n");
+    let mut c = config(
+        r#"{"path": "weather.csv", "step_minutes": 30,
+            "columns": {"t_air": "ta", "rh": "rh", "sw": "sw", "precip": "p", "pressure": "pa"},
+            "units": {"sw": "J m-2", "precip": "kg m-2 s-1", "pressure": "Pa"}}"#,
+    );
+    let (steps, _) = read_all(&c, dir.path()).unwrap();
+    assert!((steps[0].sw_w_m2 - 500.0).abs() < EXACT);
+    assert!((steps[0].precip_mm - 0.9).abs() < EXACT);
+    assert!((steps[0].pressure_kpa - 101.3).abs() < EXACT);
+    let dir = site_with("time,ta,rh,sw,p,pa\n2025-06-01T12:00,25,50,0.9,2,1013\n");
+    c.units = PerVariable {
+        sw: Some("MJ m-2".into()),
+        precip: Some("mm h-1".into()),
+        pressure: Some("hPa".into()),
+        ..PerVariable::default()
+    };
+    let (steps, _) = read_all(&c, dir.path()).unwrap();
+    assert!((steps[0].sw_w_m2 - 500.0).abs() < EXACT);
+    assert!((steps[0].precip_mm - 1.0).abs() < EXACT);
+    assert!((steps[0].pressure_kpa - 101.3).abs() < EXACT);
+}
+
+#[test]
+fn vapour_pressure_and_specific_humidity_give_the_fao56_vpd() {
+    // FAO-56 (Allen et al. 1998): es(25 °C) = 3.168 kPa, so a vapour pressure of 1.584 kPa leaves
+    // VPD = 1.584 kPa. Specific humidity q = 0.622·e/(p − 0.378·e) (definition) for e = 1.584 kPa
+    // at p = 100 kPa gives the same VPD.
+    let e = 1.584_f64;
+    let q = 0.622 * e / (100.0 - 0.378 * e);
+    let dir = site_with(&format!(
+        "time,ta,ea,q,sw,pa\n2025-06-01T12:00,25,15.84,{q},500,100\n"
+    ));
+    let ea = config(
+        r#"{"path": "weather.csv", "columns": {"t_air": "ta", "vapour_pressure": "ea", "sw": "sw"},
+            "units": {"vapour_pressure": "hPa"}}"#,
+    );
+    let (steps, reader) = read_all(&ea, dir.path()).unwrap();
+    assert!((steps[0].vpd_kpa - 1.584).abs() < FAO_TOL);
+    assert!(
+        reader
+            .report()
+            .notes
+            .iter()
+            .any(|n| n.contains("vapour pressure"))
+    );
+    let sh = config(
+        r#"{"path": "weather.csv",
+            "columns": {"t_air": "ta", "specific_humidity": "q", "sw": "sw", "pressure": "pa"}}"#,
+    );
+    let (steps, _) = read_all(&sh, dir.path()).unwrap();
+    assert!(
+        (steps[0].vpd_kpa - 1.584).abs() < FAO_TOL,
+        "{}",
+        steps[0].vpd_kpa
+    );
+}
+
+#[test]
+fn hour_24_ends_the_day_and_iso_accepts_it_in_files() {
+    // 24:00 on 1 June is 00:00 on 2 June (the end of the day's last hour; common practice).
+    let dir = site_with(
+        "time,ta,rh,sw\n2025-06-01T23:00,10,50,0\n2025-06-01T24:00,11,50,0\n2025-06-02T01:00,12,50,0\n",
+    );
+    let c =
+        config(r#"{"path": "weather.csv", "columns": {"t_air": "ta", "rh": "rh", "sw": "sw"}}"#);
+    let (steps, _) = read_all(&c, dir.path()).unwrap();
+    assert_eq!(steps[1].time.to_string(), "2025-06-02T00:00");
+    assert_eq!(steps[1].line, 3);
+}
+
+#[test]
+fn a_driver_missing_in_more_than_a_fifth_of_the_steps_is_warned_about() {
+    // 3 of 10 wind values missing (30 % > 20 %): a warning naming the variable and the column.
+    let mut csv = String::from("time,ta,rh,sw,ws\n");
+    for h in 0..10 {
+        let ws = if (3..6).contains(&h) { "" } else { "2" };
+        csv.push_str(&format!("2025-06-01T{h:02}:00,10,50,0,{ws}\n"));
+    }
+    let dir = site_with(&csv);
+    let c = config(
+        r#"{"path": "weather.csv", "columns": {"t_air": "ta", "rh": "rh", "sw": "sw", "wind": "ws"}}"#,
+    );
+    let (_, reader) = read_all(&c, dir.path()).unwrap();
+    let report = reader.report();
+    assert_eq!(report.missing_values.get(&Variable::Wind), Some(&3));
+    assert_eq!(report.warnings.len(), 1, "{report}");
+    assert!(report.warnings[0].contains("wind") && report.warnings[0].contains("`ws`"));
+    assert!(
+        report.warnings[0].contains("30.0 %"),
+        "{}",
+        report.warnings[0]
+    );
+}
+
+// ---- One test per new error: file, line, column and value. ----
+
+fn basic_json(extra: &str) -> ForcingConfig {
+    config(&format!(
+        r#"{{"path": "weather.csv", {extra}
+            "columns": {{"t_air": "ta", "rh": "rh", "sw": "sw", "precip": "rain"}}}}"#
+    ))
+}
+
+#[test]
+fn header_on_another_line_names_the_line_taken_and_its_fields() {
+    let dir = site_with(
+        "Station 12 (invented),-15.4,28.3\ntime,ta,rh,sw,rain\n2025-06-01T00:00,10,60,0,0\n",
+    );
+    let err = read_all(&basic_config(), dir.path()).err().unwrap();
+    let msg = err.to_string();
+    assert!(matches!(err, ForcingError::MissingColumn { .. }), "{msg}");
+    assert!(
+        msg.contains("taken from line 1") && msg.contains("`Station 12 (invented)`"),
+        "{msg}"
+    );
+    assert!(msg.contains("header_line"), "{msg}");
+    // With header_line = 2 the same file reads.
+    let (steps, _) = read_all(&basic_json(r#""header_line": 2,"#), dir.path()).unwrap();
+    assert_eq!(steps.len(), 1);
+}
+
+#[test]
+fn a_header_split_wrongly_suggests_the_delimiter() {
+    let dir = site_with("time\tta\trh\tsw\train\n2025-06-01T00:00\t10\t60\t0\t0\n");
+    let msg = read_all(&basic_config(), dir.path())
+        .err()
+        .unwrap()
+        .to_string();
+    assert!(msg.contains("delimiter = \"\\t\""), "{msg}");
+    let dir = site_with("time;ta;rh;sw;rain\n2025-06-01T00:00;10;60;0;0\n");
+    let msg = read_all(&basic_config(), dir.path())
+        .err()
+        .unwrap()
+        .to_string();
+    assert!(msg.contains("delimiter = \";\""), "{msg}");
+}
+
+#[test]
+fn a_duplicated_column_names_both() {
+    let dir = site_with("time,ta,rh,ta,sw,rain\n2025-06-01T00:00,10,60,11,0,0\n");
+    let err = read_all(&basic_config(), dir.path()).err().unwrap();
+    let msg = err.to_string();
+    assert!(
+        matches!(
+            err,
+            ForcingError::DuplicateColumn {
+                numbers: (2, 4),
+                ..
+            }
+        ),
+        "{msg}"
+    );
+    assert!(
+        msg.contains("line 1")
+            && msg.contains("`ta`")
+            && msg.contains("no. 2")
+            && msg.contains("no. 4"),
+        "{msg}"
+    );
+}
+
+#[test]
+fn comment_lines_keep_the_line_numbers_of_the_file() {
+    // Line 4 (after a comment line) holds the bad value.
+    let (err, msg) = data_error(
+        &basic_json(r##""comment": "#","##),
+        "time,ta,rh,sw,rain\n2025-06-01T00:00,10,60,0,0\n# a note\n2025-06-01T01:00,x,60,0,0\n",
+    );
+    assert_data_error(&err, &msg, 4, "ta", 2, "x", DataErrorKind::Number);
+}
+
+#[test]
+fn a_time_not_matching_its_pattern_is_located() {
+    let c = basic_json(r#""time_format": "%d.%m.%Y %H:%M","#);
+    let (err, msg) = data_error(
+        &c,
+        "time,ta,rh,sw,rain\n01.06.2025 00:00,10,60,0,0\n2025-06-01 01:00,10,60,0,0\n",
+    );
+    assert_data_error(
+        &err,
+        &msg,
+        3,
+        "time",
+        1,
+        "2025-06-01 01:00",
+        DataErrorKind::Time,
+    );
+    assert!(msg.contains("%d.%m.%Y %H:%M"), "{msg}");
+}
+
+#[test]
+fn hour_24_with_minutes_is_located() {
+    let c = basic_json(r#""date_column": "d", "date_format": "%m/%d/%Y","#);
+    let (err, msg) = data_error(&c, "d,time,ta,rh,sw,rain\n06/01/2025,24:30,10,60,0,0\n");
+    assert_data_error(&err, &msg, 2, "time", 2, "24:30", DataErrorKind::Time);
+    assert!(msg.contains("minute 0"), "{msg}");
+}
+
+#[test]
+fn a_separate_time_field_that_is_not_whole_is_located() {
+    let c = basic_json(r#""year_column": "y", "doy_column": "j", "hour_column": "h","#);
+    let (err, msg) = data_error(
+        &c,
+        "y,j,h,ta,rh,sw,rain\n2025,152,1,10,60,0,0\n2025,152,2.5,10,60,0,0\n",
+    );
+    assert_data_error(&err, &msg, 3, "h", 3, "2.5", DataErrorKind::Time);
+}
+
+#[test]
+fn a_typical_year_with_a_month_out_of_order_is_located() {
+    // Daily steps: January 1–31, then March 1 (February left out).
+    let mut csv = String::from("time,ta,rh,sw,rain\n");
+    for d in 1..=31 {
+        csv.push_str(&format!("1990-01-{d:02}T00:00,10,60,0,0\n"));
+    }
+    csv.push_str("1996-03-01T00:00,10,60,0,0\n");
+    let c = basic_json(r#""typical_year": 2001, "step_minutes": 1440,"#);
+    let (err, msg) = data_error(&c, &csv);
+    assert_data_error(
+        &err,
+        &msg,
+        33,
+        "time",
+        1,
+        "1996-03-01T00:00",
+        DataErrorKind::IrregularStep,
+    );
+    assert!(msg.contains("January to December"), "{msg}");
+}
+
+#[test]
+fn a_typical_year_not_starting_on_1_january_is_located() {
+    let c = basic_json(r#""typical_year": 2001,"#);
+    let (err, msg) = data_error(&c, "time,ta,rh,sw,rain\n1990-01-02T00:00,10,60,0,0\n");
+    assert_data_error(
+        &err,
+        &msg,
+        2,
+        "time",
+        1,
+        "1990-01-02T00:00",
+        DataErrorKind::TimeOrder,
+    );
+    assert!(msg.contains("1 January"), "{msg}");
+}
+
+#[test]
+fn a_typical_year_ending_early_is_located() {
+    let c = basic_json(r#""typical_year": 2001, "step_minutes": 1440,"#);
+    let (err, msg) = data_error(
+        &c,
+        "time,ta,rh,sw,rain\n1990-01-01T00:00,10,60,0,0\n1990-01-02T00:00,10,60,0,0\n",
+    );
+    match &err {
+        ForcingError::Data { line, column, .. } => {
+            assert_eq!((*line, column.as_str()), (3, "time"), "{msg}");
+        }
+        other => panic!("{other}"),
+    }
+    assert!(msg.contains("31 December"), "{msg}");
+}
+
+#[test]
+fn february_29_in_a_common_typical_year_is_located() {
+    let mut csv = String::from("time,ta,rh,sw,rain\n");
+    for d in 1..=31 {
+        csv.push_str(&format!("1990-01-{d:02}T00:00,10,60,0,0\n"));
+    }
+    for d in 1..=29 {
+        csv.push_str(&format!("1996-02-{d:02}T00:00,10,60,0,0\n"));
+    }
+    let c = basic_json(r#""typical_year": 2001, "step_minutes": 1440,"#);
+    let (err, msg) = data_error(&c, &csv);
+    assert_data_error(
+        &err,
+        &msg,
+        61,
+        "time",
+        1,
+        "1996-02-29T00:00",
+        DataErrorKind::Time,
+    );
+    assert!(msg.contains("2001"), "{msg}");
+}
+
+#[test]
+fn values_out_of_range_are_located_with_the_valid_range() {
+    // Each row: the cell that must be refused and the range the message states (docs/forcing.md).
+    let cases = [
+        ("rain", "-0.5", "0…2000 mm"),
+        ("rain", "-9900", "missing.precip"),
+        ("ta", "-80", "-70…60 °C"),
+        ("ws", "-1", "0…100 m s⁻¹"),
+        ("pa", "1013", "30…110 kPa"),
+        ("lai", "-0.1", "0…20 m² m⁻²"),
+        ("swc", "35", "0…1 m³ m⁻³"),
+        ("co2", "42", "100…5000 µmol mol⁻¹"),
+        ("d13c", "8.5", "-30…0 ‰"),
+        ("sw", "2500", "0…2000 W m⁻²"),
+    ];
+    let header = "time,ta,rh,sw,rain,ws,pa,lai,swc,co2,d13c";
+    let good = ["10", "60", "0", "0", "2", "100", "2", "0.3", "420", "-8.5"];
+    let c = config(
+        r#"{"path": "weather.csv",
+            "columns": {"t_air": "ta", "rh": "rh", "sw": "sw", "precip": "rain", "wind": "ws",
+                        "pressure": "pa", "lai": "lai", "swc": "swc", "co2": "co2",
+                        "d13c_co2": "d13c"}}"#,
+    );
+    let names: Vec<&str> = header.split(',').collect();
+    for (column, value, expect) in cases {
+        let number = names.iter().position(|n| *n == column).unwrap();
+        let mut bad = good.to_vec();
+        bad[number - 1] = value;
+        let csv = format!(
+            "{header}\n2025-06-01T00:00,{}\n2025-06-01T01:00,{}\n",
+            good.join(","),
+            bad.join(",")
+        );
+        let (err, msg) = data_error(&c, &csv);
+        assert_data_error(
+            &err,
+            &msg,
+            3,
+            column,
+            number + 1,
+            value,
+            DataErrorKind::Range,
+        );
+        assert!(msg.contains(expect), "{column}: {msg}");
+    }
+}
+
+#[test]
+fn a_quality_flag_that_is_not_a_number_is_located() {
+    let c = basic_json(r#""qc_max": 1,"#);
+    let (err, msg) = data_error(
+        &c,
+        "time,ta,ta_QC,rh,sw,rain\n2025-06-01T00:00,10,A,60,0,0\n",
+    );
+    assert_data_error(&err, &msg, 2, "ta_QC", 3, "A", DataErrorKind::Number);
+}
+
+#[test]
+fn a_precipitation_total_over_rows_with_their_own_value_is_located() {
+    let c = basic_json(r#""precip_period_column": "hrs","#);
+    let (err, msg) = data_error(
+        &c,
+        "time,ta,rh,sw,rain,hrs\n2025-06-01T00:00,10,60,0,0,\n2025-06-01T01:00,10,60,0,,\n\
+         2025-06-01T02:00,10,60,0,3,3\n",
+    );
+    assert_data_error(&err, &msg, 4, "rain", 5, "3", DataErrorKind::Range);
+    assert!(
+        msg.contains("line 2"),
+        "names the row with its own value: {msg}"
+    );
+    let (err, msg) = data_error(
+        &c,
+        "time,ta,rh,sw,rain,hrs\n2025-06-01T00:00,10,60,0,1,1.5\n",
+    );
+    assert_data_error(&err, &msg, 2, "hrs", 6, "1.5", DataErrorKind::Range);
+}
+
+#[test]
+fn new_settings_errors_name_the_setting() {
+    for (json, expect) in [
+        (r#""time_format": "%d.%q.%Y","#, "%q"),
+        (r#""date_format": "%m/%d/%Y","#, "date_column"),
+        (r#""doy_column": "j","#, "year_column"),
+        (r#""header_line": 0,"#, "header_line"),
+        (r###""comment": "##","###, "comment"),
+        (r#""precip_period_column": "h","#, "precip"),
+    ] {
+        let text = format!(
+            r#"{{"path": "weather.csv", {json} "columns": {{"t_air": "ta", "rh": "rh", "sw": "sw"}}}}"#
+        );
+        let msg = match serde_json::from_str::<ForcingConfig>(&text) {
+            Ok(c) => c.validate().unwrap_err().to_string(),
+            Err(e) => e.to_string(),
+        };
+        assert!(msg.contains(expect), "{json}: {msg}");
+    }
+    let c = config(
+        r#"{"path": "w.csv", "scale": {"t_air": 0}, "columns": {"t_air": "ta", "rh": "rh", "sw": "sw"}}"#,
+    );
+    assert!(
+        c.validate()
+            .unwrap_err()
+            .to_string()
+            .contains("scale.t_air")
+    );
+    let bad: Result<ForcingConfig, _> =
+        serde_json::from_str(r#"{"path": "w.csv", "missing": {"rain": ["-9900"]}}"#);
+    assert!(bad.unwrap_err().to_string().contains("missing.rain"));
+    let dir = site_with("only one line\n");
+    let err = read_all(&basic_json(r#""header_line": 5,"#), dir.path())
+        .err()
+        .unwrap();
+    assert!(err.to_string().contains("header_line = 5"), "{err}");
+}
+
+proptest::proptest! {
+    #![proptest_config(proptest::prelude::ProptestConfig::with_cases(64))]
+    #[test]
+    fn the_reader_never_panics_on_arbitrary_bytes(
+        bytes in proptest::collection::vec(proptest::prelude::any::<u8>(), 0..600),
+        layout in 0usize..4,
+    ) {
+        // Any file, in any layout: an error or steps, never a panic.
+        let dir = tempfile::tempdir().unwrap();
+        let mut text = b"time,ta,rh,sw,rain,y,j,h\n".to_vec();
+        text.extend_from_slice(&bytes);
+        std::fs::write(dir.path().join("weather.csv"), &text).unwrap();
+        let c = match layout {
+            0 => basic_config(),
+            1 => basic_json(r##""comment": "#", "header_line": 1, "time_format": "%d.%m.%Y %H:%M", "precip_period_column": "h","##),
+            2 => basic_json(r#""year_column": "y", "doy_column": "j", "hour_column": "h", "typical_year": 2001, "qc_max": 0,"#),
+            _ => basic_json(r#""header_line": 2, "timestamp_marks": "end", "scale": {"t_air": 0.1},"#),
+        };
+        if let Ok(reader) = ForcingReader::open(&c, dir.path(), 100.0, None, None) {
+            for item in reader {
+                if item.is_err() {
+                    break;
+                }
+            }
+        }
+    }
+}
+
+/// `isodisc run ARGS…` in-process; the summary it would print, or the error chain.
+fn run_summary(args: &[&str]) -> Result<String, String> {
+    use clap::Parser;
+    let cli = isodisc_runner::cli::Cli::try_parse_from(
+        std::iter::once("isodisc").chain(args.iter().copied()),
+    )
+    .map_err(|e| e.to_string())?;
+    let isodisc_runner::cli::Command::Run(run) = cli.command else {
+        panic!("not a run: {args:?}");
+    };
+    isodisc_runner::commands::run::RunPlan::from_args(&run)
+        .and_then(|p| p.execute())
+        .map(|(summary, _)| summary)
+        .map_err(|e| e.chain())
+}
+
+#[test]
+fn a_period_outside_the_file_states_what_the_file_covers() {
+    // The demo weather covers 2025 (hourly, from the file itself).
+    let site = Path::new(env!("CARGO_MANIFEST_DIR")).join("../forcing-demo/site.toml");
+    let out = tempfile::tempdir().unwrap();
+    let o = out.path().join("r");
+    let err = run_summary(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        o.to_str().unwrap(),
+        "--from",
+        "2027-01-01",
+    ])
+    .unwrap_err();
+    assert!(
+        err.contains("the file covers the steps from 2025-01-01T00:00 to 2025-12-31T23:00"),
+        "{err}"
+    );
+    assert!(!o.exists(), "a failed run writes nothing");
+}
+
+#[test]
+fn a_partial_overlap_runs_the_overlap_and_labels_part_of_a_year() {
+    // Asked: 2025-11-01 to 2026-02-28; the file ends 2025-12-31T23:00. The run covers
+    // November–December 2025 (61 days · 24 steps = 1464 steps, arithmetic), says so, and labels
+    // 2025 as part of a year while every day and both months are complete.
+    let site = Path::new(env!("CARGO_MANIFEST_DIR")).join("../forcing-demo/site.toml");
+    let out = tempfile::tempdir().unwrap();
+    let o = out.path().join("r");
+    let summary = run_summary(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        o.to_str().unwrap(),
+        "--from",
+        "2025-11-01",
+        "--to",
+        "2026-02-28",
+    ])
+    .unwrap();
+    assert!(
+        summary.contains("part of 2025: 1464 steps of the year"),
+        "{summary}"
+    );
+    assert!(
+        summary.contains("period: the period asked for runs until 2026-03-01T00:00, beyond the file's last step 2025-12-31T23:00"),
+        "{summary}"
+    );
+    assert!(
+        summary.contains("written to ") && summary.contains("annual.csv, run.json"),
+        "{summary}"
+    );
+    let table = |f: &str| {
+        let text = std::fs::read_to_string(o.join(f)).unwrap();
+        let rows: Vec<Vec<String>> = text
+            .lines()
+            .map(|l| l.split(',').map(str::to_string).collect())
+            .collect();
+        let c = rows[0].iter().position(|h| h == "complete").unwrap();
+        rows[1..]
+            .iter()
+            .map(|r| (r[0].clone(), r[c].clone()))
+            .collect::<Vec<_>>()
+    };
+    assert_eq!(
+        table("annual.csv"),
+        vec![("2025".to_string(), "0".to_string())]
+    );
+    assert_eq!(
+        table("monthly.csv"),
+        vec![
+            ("2025-11".to_string(), "1".to_string()),
+            ("2025-12".to_string(), "1".to_string())
+        ]
+    );
+    let daily = table("daily.csv");
+    assert_eq!(daily.len(), 61);
+    assert!(daily.iter().all(|(_, c)| c == "1"));
+    let log: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(o.join("run.json")).unwrap()).unwrap();
+    assert_eq!(
+        log["settings"]["forcing"]["period_beyond_file"]
+            .as_array()
+            .map(Vec::len),
+        Some(1)
+    );
+}
+
+#[test]
+fn the_summary_says_what_the_run_assumed_in_the_right_number() {
+    // The demo has RH, shortwave and no pressure column: VPD, PPFD and pressure are derived, and
+    // the summary says so; the respired carbon's lag is 1 day (counted in the singular).
+    let site = Path::new(env!("CARGO_MANIFEST_DIR")).join("../forcing-demo/site.toml");
+    let out = tempfile::tempdir().unwrap();
+    let o = out.path().join("r");
+    let summary =
+        run_summary(&["run", site.to_str().unwrap(), "--out", o.to_str().unwrap()]).unwrap();
+    for expect in [
+        "assumed: VPD from relative humidity",
+        "assumed: PPFD = shortwave",
+        "assumed: no pressure column",
+        "assumed: CO2 constant at 425",
+        &format!("written to {}: steps.csv", o.display()),
+    ] {
+        assert!(summary.contains(expect), "{expect}: {summary}");
+    }
+    assert!(
+        !summary.contains(" 1 days") && !summary.contains(" 1 steps"),
+        "{summary}"
+    );
+    // English grammar: one day, two days, no values.
+    use isodisc_runner::output::plural;
+    assert_eq!(plural(1u64, "day"), "1 day");
+    assert_eq!(plural(2u64, "day"), "2 days");
+    assert_eq!(plural(0u64, "value"), "0 values");
+    assert_eq!(plural(1u64, "step"), "1 step");
+    assert_eq!(plural(3u64, "entry"), "3 entries");
+}
+
+#[test]
+fn a_model_range_error_names_the_weather_files_line() {
+    // 58 °C at 0 % RH passes the reader's checks but gives a VPD of about 18 kPa (FAO-56), beyond
+    // the leaf model's 0–10 kPa: the model's error must come with the weather file and its line.
+    let dir = tempfile::tempdir().unwrap();
+    let site = std::fs::read_to_string(fixtures().join("typical_clean.toml"))
+        .unwrap()
+        .replace("typical_clean.csv", "hot.csv");
+    std::fs::write(dir.path().join("site.toml"), site).unwrap();
+    let mut csv = String::from("time,t_air_c,rh_percent,sw_w_m2,pressure_kpa,wind_m_s,precip_mm\n");
+    for h in 0..24 {
+        let (t, rh) = if h == 13 { ("58", "0") } else { ("25", "50") };
+        let sw = if (7..18).contains(&h) { "600" } else { "0" };
+        csv.push_str(&format!("2025-01-01T{h:02}:00,{t},{rh},{sw},89,2,0\n"));
+    }
+    std::fs::write(dir.path().join("hot.csv"), csv).unwrap();
+    let site = dir.path().join("site.toml");
+    let out = dir.path().join("out");
+    let err = crate::common::run(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ])
+    .unwrap_err();
+    // Line 15: the header is line 1, 13:00 is the 14th data row.
+    assert!(err.contains("hot.csv, line 15"), "{err}");
+    assert!(err.contains("vpd"), "{err}");
+}
+
+#[test]
+fn a_driver_mostly_missing_is_warned_about_in_the_summary_and_run_json() {
+    // Wind missing in 12 of 48 steps (25 % > 20 %): the run's summary and run.json say so.
+    let dir = tempfile::tempdir().unwrap();
+    let site = std::fs::read_to_string(fixtures().join("typical_clean.toml"))
+        .unwrap()
+        .replace("typical_clean.csv", "windy.csv");
+    std::fs::write(dir.path().join("site.toml"), site).unwrap();
+    let mut csv = String::from("time,t_air_c,rh_percent,sw_w_m2,pressure_kpa,wind_m_s,precip_mm\n");
+    for i in 0..48 {
+        let h = i % 24;
+        let sw = if (7..18).contains(&h) { "600" } else { "0" };
+        let wind = if (10..22).contains(&i) { "" } else { "2" };
+        csv.push_str(&format!(
+            "2025-01-{:02}T{h:02}:00,25,50,{sw},89,{wind},0\n",
+            1 + i / 24
+        ));
+    }
+    std::fs::write(dir.path().join("windy.csv"), csv).unwrap();
+    let site = dir.path().join("site.toml");
+    let out = dir.path().join("out");
+    let summary = run_summary(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ])
+    .unwrap();
+    assert!(
+        summary.contains("warning: wind is missing in 25.0 % of the steps"),
+        "{summary}"
+    );
+    let log: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("run.json")).unwrap()).unwrap();
+    let warnings = log["warnings"].as_array().unwrap();
+    assert_eq!(warnings.len(), 1, "{log}");
+    assert!(warnings[0].as_str().unwrap().contains("`wind_m_s`"));
+    assert_eq!(log["gaps"]["missing_values"]["wind"], 12);
+}

@@ -1,0 +1,118 @@
+//! `isodisc leaf --input` with a measurement file as it comes: columns that are not conditions or
+//! parameters (sample IDs, treatments) pass through unchanged, and `--map NAME=COLUMN` reads the
+//! file's own column names as conditions. Expected values are the same leaves given by flags.
+
+use std::fs;
+
+use crate::common::run;
+
+fn rows(path: &std::path::Path) -> (csv::StringRecord, Vec<csv::StringRecord>) {
+    let mut r = csv::Reader::from_path(path).unwrap();
+    let h = r.headers().unwrap().clone();
+    (h, r.records().map(|x| x.unwrap()).collect())
+}
+
+#[test]
+fn pass_through_columns_and_mapped_names_give_the_same_leaves_as_flags() {
+    let dir = tempfile::tempdir().unwrap();
+    let input = dir.path().join("gasex.csv");
+    // Invented gas-exchange log: an ID with a comma (quoted), a treatment, and the instrument's
+    // own names for leaf temperature and PPFD.
+    fs::write(
+        &input,
+        "sample,Tleaf,treat,PARi,ca\n\"A,1\",25,dry,1500,420\nB2,30,wet,800,400\n",
+    )
+    .unwrap();
+    let out = dir.path().join("out.csv");
+    run(&[
+        "leaf",
+        "--input",
+        input.to_str().unwrap(),
+        "--map",
+        "t_leaf=Tleaf",
+        "--map",
+        "ppfd=PARi",
+        "--format",
+        "csv",
+        "--output",
+        out.to_str().unwrap(),
+    ])
+    .unwrap();
+    let (header, got) = rows(&out);
+    assert_eq!(&header[0], "sample");
+    assert_eq!(&header[1], "treat");
+    assert_eq!((&got[0][0], &got[0][1]), ("A,1", "dry"));
+    assert_eq!((&got[1][0], &got[1][1]), ("B2", "wet"));
+    let col = |name: &str| header.iter().position(|h| h == name).unwrap();
+    // The same leaves by flags.
+    for (row, (t, ppfd, ca)) in got
+        .iter()
+        .zip([("25", "1500", "420"), ("30", "800", "400")])
+    {
+        let single = dir.path().join(format!("single_{t}.csv"));
+        run(&[
+            "leaf",
+            "--t-leaf",
+            t,
+            "--ppfd",
+            ppfd,
+            "--ca",
+            ca,
+            "--format",
+            "csv",
+            "--output",
+            single.to_str().unwrap(),
+        ])
+        .unwrap();
+        let (h1, one) = rows(&single);
+        for name in ["t_leaf", "ppfd", "a_net", "discrimination"] {
+            let i = h1.iter().position(|h| h == name).unwrap();
+            assert_eq!(&row[col(name)], &one[0][i], "{name}");
+        }
+    }
+}
+
+#[test]
+fn json_output_keeps_pass_through_cells_as_text() {
+    let dir = tempfile::tempdir().unwrap();
+    let input = dir.path().join("ids.csv");
+    fs::write(&input, "plot,t_leaf\n007,25\n").unwrap();
+    let out = dir.path().join("out.json");
+    run(&[
+        "leaf",
+        "--input",
+        input.to_str().unwrap(),
+        "--format",
+        "json",
+        "--output",
+        out.to_str().unwrap(),
+    ])
+    .unwrap();
+    let v: serde_json::Value =
+        serde_json::from_str(fs::read_to_string(&out).unwrap().lines().next().unwrap()).unwrap();
+    // "007" stays a string: an ID is not a number.
+    assert_eq!(v["plot"], "007");
+    assert_eq!(v["t_leaf"], 25.0);
+}
+
+#[test]
+fn bad_maps_are_named() {
+    let dir = tempfile::tempdir().unwrap();
+    let input = dir.path().join("in.csv");
+    fs::write(&input, "Tleaf,t_lea\n25,1\n").unwrap();
+    let p = input.to_str().unwrap();
+    for (map, expect) in [
+        ("t_leaf", "expected NAME=COLUMN"),
+        ("tleaf=Tleaf", "not a condition"),
+        ("t_leaf=Tlef", "no column `Tlef`"),
+    ] {
+        let err = run(&["leaf", "--input", p, "--map", map]).unwrap_err();
+        assert!(err.contains(expect), "{map}: {err}");
+    }
+    // A column one letter from a condition is a likely typo, not a pass-through column.
+    let err = run(&["leaf", "--input", p, "--map", "t_leaf=Tleaf"]).unwrap_err();
+    assert!(
+        err.contains("`t_lea`") && err.contains("did you mean `t_leaf`"),
+        "{err}"
+    );
+}
