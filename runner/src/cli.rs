@@ -183,7 +183,7 @@ pub struct LeafArgs {
     #[arg(long, value_enum, default_value = "nadph")]
     pub electron_limit: ElectronArg,
     /// What soil-water stress (--soil-beta) scales.
-    #[arg(long, value_enum, default_value = "g1")]
+    #[arg(long, value_enum, default_value = "both")]
     pub beta_target: BetaTargetArg,
     /// Set a leaf parameter, NAME=VALUE (repeatable; see --list-params).
     #[arg(long = "set", value_name = "NAME=VALUE")]

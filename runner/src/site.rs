@@ -530,9 +530,9 @@ impl Site {
                     })?,
             };
             let beta_target = match file.soil.beta_target.as_deref() {
-                None | Some("g1") => BetaTarget::G1,
+                Some("g1") => BetaTarget::G1,
                 Some("capacity") => BetaTarget::Capacity,
-                Some("both") => BetaTarget::Both,
+                None | Some("both") => BetaTarget::Both,
                 Some(o) => {
                     return Err(err(
                         line_of_key(&text, "soil", "beta_target"),

@@ -298,9 +298,9 @@ fn c4_grass_preset_is_dormant_in_the_dry_season() {
     let (time, lai) = column(&out.join("steps.csv"), "lai_c4");
     let at = |stamp: &str| lai[time.iter().position(|t| t.starts_with(stamp)).unwrap()];
     assert!(
-        at("2025-04-15T12") < 0.1,
+        at("2025-05-25T12") < 0.1,
         "dry season LAI {}",
-        at("2025-04-15T12")
+        at("2025-05-25T12")
     );
     assert!(
         at("2025-08-20T12") > 2.0,

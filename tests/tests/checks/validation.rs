@@ -597,7 +597,6 @@ fn c3_discrimination_rises_with_rainfall_and_follows_the_global_regression_where
 }
 
 #[test]
-#[ignore = "with beta_target = g1, C3 Δ is 13.9‰ at 250 mm and 17.0‰ at 500 mm, 2.7‰ and 0.5‰ below Kohn (2010) − 2‰ (passes with beta_target = capacity or both)"]
 fn c3_discrimination_of_dry_sites_follows_the_global_regression() {
     // Kohn 2010 (from memory), at 250 and 500 mm.
     assert_kohn(&gradient_discrimination(), &[250.0, 500.0]);
@@ -627,7 +626,6 @@ fn c4_grass_discrimination_lies_between_3_and_6_permil_in_a_semi_arid_grassland(
 }
 
 #[test]
-#[ignore = "C4 Δ is 2.9‰ (humid savanna) and 2.5‰ (temperate prairie) with leakiness 0.25 (passes with 0.3)"]
 fn c4_grass_discrimination_lies_between_3_and_6_permil_in_humid_and_temperate_climates() {
     // Farquhar 1983; Cerling et al. 1997 (from memory); see assert_c4_discrimination.
     assert_c4_discrimination("humid savanna");
