@@ -487,6 +487,7 @@ fn capacity_fractions_sum_and_limits() {
 }
 
 proptest! {
+    #![proptest_config(crate::common::proptest_config("canopy_water", 256))]
     #[test]
     fn two_leaf_conserves_absorbed_par(
         ib in 0.0..2000.0f64,
@@ -531,6 +532,7 @@ fn bucket_params() -> impl Strategy<Value = BucketParams> {
 }
 
 proptest! {
+    #![proptest_config(crate::common::proptest_config("canopy_water", 256))]
     #[test]
     fn bucket_conserves_water_and_stays_in_bounds(
         params in bucket_params(),

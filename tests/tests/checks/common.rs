@@ -9,3 +9,24 @@ pub fn run(args: &[&str]) -> Result<(), String> {
         .map_err(|e| e.to_string())?;
     isodisc_runner::run(cli).map_err(|e| e.chain())
 }
+
+/// Proptest settings shared by every module: `cases` random cases; failures are persisted in
+/// `tests/proptest-regressions/<module>.txt` (committed with the fix, replayed first on every run)
+/// except in CI (the `CI` variable set), where a failure is reported with its seed in the log and
+/// nothing is written into the checkout. See DEVELOPERS.md.
+pub fn proptest_config(module: &'static str, cases: u32) -> proptest::prelude::ProptestConfig {
+    use proptest::test_runner::FileFailurePersistence;
+    let persistence: Option<Box<dyn proptest::test_runner::FailurePersistence>> =
+        if std::env::var_os("CI").is_some() {
+            None
+        } else {
+            let path: &'static str =
+                Box::leak(format!("proptest-regressions/{module}.txt").into_boxed_str());
+            Some(Box::new(FileFailurePersistence::Direct(path)))
+        };
+    proptest::prelude::ProptestConfig {
+        cases,
+        failure_persistence: persistence,
+        ..proptest::prelude::ProptestConfig::default()
+    }
+}

@@ -20,7 +20,6 @@ use isodisc_model::temperature::{
     peaked_arrhenius_optimum_c,
 };
 use proptest::prelude::*;
-use proptest::test_runner::FileFailurePersistence;
 
 /// Tolerance for values published to two decimals.
 const TOL_2DP: f64 = 0.006;
@@ -732,28 +731,12 @@ fn conditions() -> impl Strategy<Value = LeafConditions> {
         })
 }
 
-/// Proptest settings of this module: failures are persisted under `tests/proptest-regressions/`
-/// (committed, replayed first on every run) except in CI (the `CI` variable set), where a failure
-/// is reported with its seed in the log and nothing is written. See DEVELOPERS.md.
-fn proptest_config() -> ProptestConfig {
-    ProptestConfig {
-        failure_persistence: if std::env::var_os("CI").is_some() {
-            None
-        } else {
-            Some(Box::new(FileFailurePersistence::Direct(
-                "proptest-regressions/isotopes_leaf.txt",
-            )))
-        },
-        ..ProptestConfig::default()
-    }
-}
-
 fn mesophyll() -> impl Strategy<Value = f64> {
     prop_oneof![Just(f64::INFINITY), 0.05..1.0f64]
 }
 
 proptest! {
-    #![proptest_config(proptest_config())]
+    #![proptest_config(crate::common::proptest_config("isotopes_leaf", 256))]
 
     // CO2 responses never fall (FvCB and Collatz rates increase in ci). Light responses never fall
     // where cc lies above Γ* (A + Rd > 0); below Γ* more light means more photorespiratory release,

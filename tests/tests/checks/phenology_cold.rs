@@ -507,6 +507,7 @@ fn inf_and_the_lloyd_taylor_spelling_are_accepted() {
 }
 
 proptest! {
+    #![proptest_config(crate::common::proptest_config("phenology_cold", 256))]
     /// Bounds that follow from the definitions (no source needed): LAI stays within
     /// [lai_min, lai_max]; the cold factor lies in [0, 1] and is 0 whenever the air is at or below
     /// −2 °C (the bottom of the ramp) or the soil's running mean is at or below 0 °C.

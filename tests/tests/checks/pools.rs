@@ -588,7 +588,7 @@ fn random_network() -> impl Strategy<Value = (Vec<RandomPool>, f64)> {
 }
 
 proptest! {
-    #![proptest_config(ProptestConfig::with_cases(64))]
+    #![proptest_config(crate::common::proptest_config("pools", 64))]
     #[test]
     fn random_valid_networks_conserve_mass((pools, kept) in random_network(), step in 0.01f64..400.0) {
         // Analytic fact as in the yearly conservation check, over steps from minutes to a year.

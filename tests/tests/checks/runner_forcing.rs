@@ -1134,7 +1134,7 @@ fn new_settings_errors_name_the_setting() {
 }
 
 proptest::proptest! {
-    #![proptest_config(proptest::prelude::ProptestConfig::with_cases(64))]
+    #![proptest_config(crate::common::proptest_config("runner_forcing", 64))]
     #[test]
     fn the_reader_never_panics_on_arbitrary_bytes(
         bytes in proptest::collection::vec(proptest::prelude::any::<u8>(), 0..600),
