@@ -9,8 +9,9 @@
 //!   (C4 grassland); k25 = 0.018 × Vmax25 and Rd25 = 0.021 × Vmax25 as in Collatz et al. 1992.
 //! - g1: Lin et al. 2015, Nature Climate Change, per plant type.
 //! - Clumping Ω: Chen et al. 2005, Remote Sens. Environ., mean per cover type.
-//! - kn (C3): Lloyd et al. 2010, Biogeosciences, kn = exp(0.00963·Vcmax25 − 2.43); C4 keeps 0.3
-//!   (de Pury & Farquhar 1997), the relation being fitted to C3 trees.
+//! - kn (C3): Lloyd et al. 2010, Biogeosciences, kn = exp(0.00963·Vcmax25 − 2.43); C4 keeps 0.3,
+//!   the common two-leaf default (from memory), the relation being fitted to C3 trees; de Pury &
+//!   Farquhar 1997 used a steeper 0.713 for wheat (from memory, not re-read).
 //! - LAI range: lai_max from Asner, Scurlock & Hicke 2003, Global Ecol. Biogeogr. (mean LAI per
 //!   biome); lai_min 0 for deciduous and herbaceous types, about 3/4 (needleleaf) or 4/5 (tropical
 //!   broadleaf) of lai_max for evergreens (common practice).
@@ -74,7 +75,7 @@ const DEC_MIN: &str = "leafless in the dormant season";
 const WIDTH: &str = "typical leaf size (common practice)";
 const COLLATZ_K: &str = "0.018 x vmax25 (Collatz et al. 1992, from memory)";
 const COLLATZ_RD: &str = "0.021 x vmax25 (Collatz et al. 1992, from memory)";
-const DPF_KN: &str = "de Pury & Farquhar 1997 (from memory); the kn relation is fitted to C3 trees";
+const C4_KN: &str = "common two-leaf default (from memory; de Pury & Farquhar 1997 used 0.713 for wheat); the kn relation is fitted to C3 trees";
 
 const fn v(key: &'static str, value: f64, unit: &'static str, source: &'static str) -> PresetValue {
     PresetValue {
@@ -196,7 +197,7 @@ pub const PRESETS: &[VegetationPreset] = &[
             v("g1", 1.62, G1U, LIN),
             v("leaf_width_m", 0.005, "m", WIDTH),
             v("clumping", 0.75, "-", CHEN),
-            v("kn", 0.3, "-", DPF_KN),
+            v("kn", 0.3, "-", C4_KN),
             v("lai_min", 0.0, LAIU, DEC_MIN),
             v("lai_max", 2.5, LAIU, ASNER),
         ],
@@ -262,7 +263,7 @@ pub const PRESETS: &[VegetationPreset] = &[
             v("g1", 1.79, G1U, LIN),
             v("leaf_width_m", 0.08, "m", WIDTH),
             v("clumping", 0.8, "-", CHEN),
-            v("kn", 0.3, "-", DPF_KN),
+            v("kn", 0.3, "-", C4_KN),
             v("lai_min", 0.0, LAIU, DEC_MIN),
             v("lai_max", 3.6, LAIU, ASNER),
         ],

@@ -650,6 +650,15 @@ fn temperate_forest_respiration_lies_in_the_published_keeling_range() {
     );
 }
 
+/// Annual GPP (gC m⁻² yr⁻¹) of `preset` in `climate`, from the second of two repeated years: the
+/// first year settles the soil water, which starts at field capacity on 1 January — the middle of
+/// the dry season at the humid savanna site, where a full 1.5 m root zone carried the grass through
+/// its first dry season (3584 gC m⁻² yr⁻¹ in year one, 3011 in year two). Common practice for
+/// site runs: spin the state up before comparing.
+fn settled_annual_gpp(climate: &Climate, preset: &str) -> Result<f64, String> {
+    try_run_site(climate, &vegetation(preset), "", 2).map(|o| o.annual[1]["gpp"])
+}
+
 /// Asserts that the annual GPP of `preset` in the climate whose name starts with `climate_name`
 /// lies in its biome range (gpp_cases: Luyssaert et al. 2007; Gilmanov et al. 2010; arctic
 /// towers; all from memory).
@@ -658,8 +667,7 @@ fn assert_gpp(preset: &str, climate_name: &str) {
         .into_iter()
         .find(|(p, c, _, _)| *p == preset && c.starts_with(climate_name))
         .expect("a GPP case of that preset and climate");
-    let out = run_site(&climate, &vegetation(preset), "", 1);
-    let got = annual(&out, "gpp");
+    let got = settled_annual_gpp(&climate, preset).unwrap_or_else(|e| panic!("{e}"));
     assert!(
         (lo..=hi).contains(&got),
         "{preset} ({name}): GPP {got:.0} gC m-2 yr-1, range {lo}–{hi}"
@@ -683,14 +691,14 @@ fn annual_gpp_of_c3_grass_and_tundra_lies_in_their_biome_ranges() {
 }
 
 #[test]
-#[ignore = "GPP of deciduous-broadleaf is 2039 gC m-2 yr-1 in a temperate humid climate (range 900–1900)"]
+#[ignore = "GPP of deciduous-broadleaf is 2040 gC m-2 yr-1 in a temperate humid climate (range 900–1900): the GSI greens the canopy from March (LAI 2.3 of 5.1 in March, 3.5 in April, 4.6 in October; 400 gC in March–April and October–November); summer peaks (35 umol m-2 s-1) are typical"]
 fn annual_gpp_of_a_temperate_deciduous_forest_lies_in_its_biome_range() {
     // Luyssaert et al. 2007 (from memory): temperate humid deciduous forests.
     assert_gpp("deciduous-broadleaf", "temperate humid");
 }
 
 #[test]
-#[ignore = "GPP of c4-grass is 3665 gC m-2 yr-1 in a humid savanna climate (range 800–2500)"]
+#[ignore = "GPP of c4-grass is 3011 gC m-2 yr-1 in a humid savanna climate (range 800–2500, towers of tree-grass savanna): a pure C4 grass at LAI 2.5 green eight months a year on a 1.5 m root zone (lai_max 1.5: 2187)"]
 fn annual_gpp_of_a_c4_grassland_lies_in_its_biome_range() {
     // Savanna and C4 grassland towers (from memory; gpp_cases).
     assert_gpp("c4-grass", "humid savanna");
@@ -774,7 +782,7 @@ fn validation_rows() -> Vec<TableRow> {
         1,
     );
     for (preset, climate_name, climate, (lo, hi)) in gpp_cases() {
-        let got = try_run_site(&climate, &vegetation(preset), "", 1).map(|o| annual(&o, "gpp"));
+        let got = settled_annual_gpp(&climate, preset);
         push(
             format!("GPP `{preset}`, gC m⁻² yr⁻¹"),
             climate_name.into(),
