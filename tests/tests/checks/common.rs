@@ -10,6 +10,17 @@ pub fn run(args: &[&str]) -> Result<(), String> {
     isodisc_runner::run(cli).map_err(|e| e.chain())
 }
 
+/// Runs `isodisc run SITE --out OUT --quiet` in-process.
+pub fn run_quiet(site: &std::path::Path, out: &std::path::Path) -> Result<(), String> {
+    run(&[
+        "run",
+        site.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+    ])
+}
+
 /// Proptest settings shared by every module: `cases` random cases; failures are persisted in
 /// `tests/proptest-regressions/<module>.txt` (committed with the fix, replayed first on every run)
 /// except in CI (the `CI` variable set), where a failure is reported with its seed in the log and

@@ -16,7 +16,7 @@ use isodisc_model::presets::PRESETS;
 use isodisc_runner::site::Site;
 use proptest::prelude::*;
 
-use crate::common::run;
+use crate::common::{run, run_quiet};
 
 /// Tolerance of the hand values (exact ramps: round-off only).
 const TOL: f64 = 1e-12;
@@ -150,14 +150,7 @@ fn run_site(site: &str, weather: &str) -> (tempfile::TempDir, PathBuf) {
     fs::write(dir.path().join("site.toml"), site).unwrap();
     fs::write(dir.path().join("weather.csv"), weather).unwrap();
     let out = dir.path().join("out");
-    run(&[
-        "run",
-        dir.path().join("site.toml").to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-    ])
-    .unwrap();
+    run_quiet(&dir.path().join("site.toml"), &out).unwrap();
     (dir, out)
 }
 

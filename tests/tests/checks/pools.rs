@@ -13,7 +13,7 @@ use proptest::prelude::*;
 
 use std::fs;
 
-use crate::common::run;
+use crate::common::run_quiet;
 use crate::validation::{Climate, read_periods, run_site};
 
 /// Relative tolerance of mass conservation (round-off only).
@@ -701,14 +701,7 @@ fn pools_daily_holds_the_pools_at_the_end_of_the_dated_day() {
                 kind = \"heterotrophic\"\n";
     fs::write(dir.path().join("site.toml"), site).unwrap();
     let out = dir.path().join("out");
-    run(&[
-        "run",
-        dir.path().join("site.toml").to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-    ])
-    .unwrap();
+    run_quiet(&dir.path().join("site.toml"), &out).unwrap();
     let pools = read_periods(&out.join("pools_daily.csv"));
     let daily = read_periods(&out.join("daily.csv"));
     assert_eq!(pools.len(), 3);

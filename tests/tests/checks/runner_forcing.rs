@@ -685,14 +685,7 @@ fn typical_year_runs_as_it_comes_like_its_cleaned_twin() {
     for site in ["typical_raw.toml", "typical_clean.toml"] {
         let o = out.path().join(site);
         let site = dir.join(site);
-        crate::common::run(&[
-            "run",
-            site.to_str().unwrap(),
-            "--out",
-            o.to_str().unwrap(),
-            "--quiet",
-        ])
-        .unwrap();
+        crate::common::run_quiet(&site, &o).unwrap();
         let read = |f: &str| std::fs::read_to_string(o.join(f)).unwrap();
         tables.push((read("annual.csv"), read("monthly.csv")));
     }

@@ -6,7 +6,7 @@ use std::path::{Path, PathBuf};
 
 use isodisc_model::leaf::{C3Params, LeafConditions, LeafOptions, solve_c3};
 
-use crate::common::run;
+use crate::common::{run, run_quiet};
 
 /// A table read back: header and rows of numbers (NaN for empty cells), keyed by column name.
 struct Table {
@@ -103,14 +103,7 @@ fn canopy_discrimination_equals_the_leaf_at_the_same_conditions() {
     let text = fs::read_to_string(&site).unwrap();
     fs::write(&site, text.replace("g1 = 4.0 }", "g1 = 4.0, gm = inf }")).unwrap();
     let out = dir.path().join("out");
-    run(&[
-        "run",
-        site.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-    ])
-    .unwrap();
+    run_quiet(&site, &out).unwrap();
     let steps = Table::read(&out.join("steps.csv"));
     let leaf = solve_c3(
         &C3Params::with_overrides([("g0", 0.0), ("g1", 4.0), ("gm", f64::INFINITY)]).unwrap(),
@@ -156,14 +149,7 @@ fn aggregates_are_gpp_weighted_not_unweighted_or_cover_weighted() {
         "time,t,vpd,ppfd,p\n2025-03-21T10:00,22,0.6,1800,0\n2025-03-21T11:00,32,4.5,150,0\n";
     let site = write_site(dir.path(), 0.3, 2.0, Some((0.6, 2.0)), weather);
     let out = dir.path().join("out");
-    run(&[
-        "run",
-        site.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-    ])
-    .unwrap();
+    run_quiet(&site, &out).unwrap();
     let steps = Table::read(&out.join("steps.csv"));
     let daily = Table::read(&out.join("daily.csv"));
     let (mut w, mut wd, mut sum_d) = (0.0, 0.0, 0.0);
@@ -214,14 +200,7 @@ fn demo_site_lies_in_the_published_ranges() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("demo");
     let site = Path::new(env!("CARGO_MANIFEST_DIR")).join("../forcing-demo/site.toml");
-    run(&[
-        "run",
-        site.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-    ])
-    .unwrap();
+    run_quiet(&site, &out).unwrap();
     let annual = Table::read(&out.join("annual.csv"));
     let (d3, d4, d) = (
         annual.num(0, "discrimination_c3"),
@@ -357,14 +336,7 @@ fn run_demo(edit: impl Fn(String) -> String) -> (tempfile::TempDir, PathBuf) {
     let site = dir.path().join("site.toml");
     fs::write(&site, text).unwrap();
     let out = dir.path().join("out");
-    run(&[
-        "run",
-        site.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-    ])
-    .unwrap();
+    run_quiet(&site, &out).unwrap();
     (dir, out)
 }
 
@@ -566,14 +538,7 @@ fn site_runs_acclimate_to_the_preceding_30_days() {
         }
         let site = write_site(dir.path(), 1.0, 2.0, None, &weather);
         let out = dir.path().join("out");
-        run(&[
-            "run",
-            site.to_str().unwrap(),
-            "--out",
-            out.to_str().unwrap(),
-            "--quiet",
-        ])
-        .unwrap();
+        run_quiet(&site, &out).unwrap();
         let steps = Table::read(&out.join("steps.csv"));
         steps.num(30 * 24 + 12, "gpp_c3")
     };
@@ -620,14 +585,7 @@ fn after_spin_up_day_respiration_uses_the_leaf_labile_pool_as_substrate() {
         )
         .unwrap();
         let out = dir.path().join("out");
-        run(&[
-            "run",
-            site.to_str().unwrap(),
-            "--out",
-            out.to_str().unwrap(),
-            "--quiet",
-        ])
-        .unwrap();
+        run_quiet(&site, &out).unwrap();
         let steps = Table::read(&out.join("steps.csv"));
         let row = 100 * 24 + 12;
         (
@@ -676,13 +634,7 @@ fn temperature_set_is_chosen_by_name_in_the_site_file() {
         );
         fs::write(&site, text).unwrap();
         let out = dir.path().join("out");
-        run(&[
-            "run",
-            site.to_str().unwrap(),
-            "--out",
-            out.to_str().unwrap(),
-            "--quiet",
-        ])?;
+        run_quiet(&site, &out)?;
         Ok(Table::read(&out.join("steps.csv")).num(12, "gpp_c3"))
     };
     let (acclimated, fixed) = (gpp("acclimated").unwrap(), gpp("fixed").unwrap());

@@ -18,7 +18,7 @@ use std::fmt::Write as _;
 use std::fs;
 use std::path::Path;
 
-use crate::common::run;
+use crate::common::run_quiet;
 
 /// Solar constant, W m⁻² (Kopp & Lean 2011).
 const SOLAR_CONSTANT_W_M2: f64 = 1361.0;
@@ -259,13 +259,7 @@ pub(crate) fn try_run_site(
     )
     .unwrap();
     let out = dir.path().join("out");
-    run(&[
-        "run",
-        site.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-    ])?;
+    run_quiet(&site, &out)?;
     Ok(RunOutput {
         annual: read_periods(&out.join("annual.csv")),
         monthly: read_periods(&out.join("monthly.csv")),
