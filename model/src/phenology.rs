@@ -12,6 +12,17 @@
 //!   β (0–1), so grasses and crops lose their leaves in dry seasons as well as cold ones. Adding a
 //!   water term to the GSI is common practice for water-limited vegetation (e.g. Forkel et al.
 //!   2014, Biogeosciences, from memory); the form used here (a plain product with β) is ours.
+//! - Kind `gsi-budburst` (deciduous trees): the `gsi` index, but LAI stays at lai_min each year
+//!   until budburst. Budburst is a thermal-time (spring-warming) model: forcing F = Σ max(T̄ − 5 °C, 0)
+//!   over the completed days since 1 January (1 July in the southern hemisphere, latitude < 0), with
+//!   T̄ the day's mean air temperature; budburst is the first day with F ≥ F* = 200 °C·d. Thermal
+//!   time above 5 °C is the forcing of Cannell & Smith (1983, J. Appl. Ecol.) and Murray, Cannell &
+//!   Smith (1989, J. Appl. Ecol.); F* = 200 °C·d is a mid value of their thermal times to budburst
+//!   of well-chilled temperate broadleaf trees (from memory; they count from 1 February, and at
+//!   temperate sites January adds few degree-days). Chilling is not modelled. The sum and the
+//!   budburst are cleared at each 1 January (1 July in the south), so leaves that fell in autumn
+//!   stay off through mild winter spells. At the start of a run the days since that date are counted
+//!   as if all had the first step's temperature, so a run that starts in summer starts in leaf.
 //! - The window holds completed days: the LAI of a day is set by the 21 days before it. At the
 //!   start of a run the window is filled with the index of the first step (its temperature standing
 //!   for the day's minimum, its VPD for the day's mean), so a run that starts in winter starts
@@ -46,6 +57,13 @@ pub const GSI_WINDOW_DAYS: usize = 21;
 /// Time constant of the running mean of air temperature that stands for soil temperature, days
 /// (common practice, from memory: the soil lags and damps the air).
 pub const SOIL_TEMPERATURE_LAG_DAYS: f64 = 7.0;
+/// Base temperature of the budburst forcing, °C: day-degrees above 5 °C (Cannell & Smith 1983;
+/// Murray, Cannell & Smith 1989).
+pub const BUDBURST_BASE_C: f64 = 5.0;
+/// Forcing to budburst F*, °C·d above [`BUDBURST_BASE_C`]: a mid value of the thermal times of
+/// well-chilled temperate broadleaf trees in Murray, Cannell & Smith (1989, J. Appl. Ecol.; from
+/// memory).
+pub const BUDBURST_FORCING_DEGREE_DAYS: f64 = 200.0;
 /// Soil temperature at or below which the soil is frozen and photosynthesis stops, °C.
 pub const FROZEN_SOIL_C: f64 = 0.0;
 
@@ -87,17 +105,25 @@ pub enum PhenologyKind {
     Gsi,
     /// The index times the day's mean soil-water factor β (grasses, crops).
     GsiSoilWater,
+    /// The published index, with LAI held at lai_min until a thermal-time budburst (deciduous
+    /// trees).
+    GsiBudburst,
 }
 
 impl PhenologyKind {
     /// Every kind, in the order of [`PhenologyKind::as_str`]'s names.
-    pub const ALL: [PhenologyKind; 2] = [PhenologyKind::Gsi, PhenologyKind::GsiSoilWater];
+    pub const ALL: [PhenologyKind; 3] = [
+        PhenologyKind::Gsi,
+        PhenologyKind::GsiSoilWater,
+        PhenologyKind::GsiBudburst,
+    ];
 
-    /// `gsi` or `gsi-soil-water`.
+    /// `gsi`, `gsi-soil-water` or `gsi-budburst`.
     pub fn as_str(self) -> &'static str {
         match self {
             PhenologyKind::Gsi => "gsi",
             PhenologyKind::GsiSoilWater => "gsi-soil-water",
+            PhenologyKind::GsiBudburst => "gsi-budburst",
         }
     }
 
@@ -109,7 +135,8 @@ impl PhenologyKind {
             .ok_or_else(|| {
                 ModelError::InvalidConfig(format!(
                     "phenology = \"{name}\": use \"gsi\" (minimum temperature, VPD, photoperiod) or \
-                     \"gsi-soil-water\" (also soil water; grasses and crops)"
+                     \"gsi-soil-water\" (also soil water; grasses and crops) or \"gsi-budburst\" \
+                     (leafless until a thermal-time budburst; deciduous trees)"
                 ))
             })
     }
@@ -162,27 +189,104 @@ impl PhenologySettings {
 struct DaySoFar {
     key: (i32, u32),
     tmin_c: f64,
+    t_sum: f64,
     vpd_sum: f64,
     beta_sum: f64,
     n: usize,
     photoperiod_h: f64,
 }
 
-/// The state of a GSI phenology: the 21-day window of daily indices and the day in progress.
+/// Whether `year` has 366 days (Gregorian).
+fn is_leap(year: i32) -> bool {
+    (year % 4 == 0 && year % 100 != 0) || year % 400 == 0
+}
+
+/// Day of year of 1 July in `year`.
+fn first_of_july(year: i32) -> u32 {
+    if is_leap(year) { 183 } else { 182 }
+}
+
+/// The forcing season of day `key` = (year, day of year): the year in which it began (1 January in
+/// the north, 1 July in the south) and the number of days from its start to the day (0 on the
+/// first day).
+pub fn forcing_season(key: (i32, u32), southern: bool) -> (i32, u32) {
+    let (year, doy) = key;
+    if !southern {
+        return (year, doy.saturating_sub(1));
+    }
+    let july = first_of_july(year);
+    if doy >= july {
+        (year, doy - july)
+    } else {
+        let prev = year - 1;
+        let days_prev = if is_leap(prev) { 366 } else { 365 };
+        (prev, doy + days_prev - first_of_july(prev))
+    }
+}
+
+/// The budburst state: the forcing season, the forcing summed so far (°C·d) and whether budburst
+/// has happened in it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct Budburst {
+    season: i32,
+    forcing_degree_days: f64,
+    burst: bool,
+}
+
+/// The state of a GSI phenology: the 21-day window of daily indices, the day in progress and the
+/// budburst state (kind `gsi-budburst`).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Phenology {
     settings: PhenologySettings,
     window: VecDeque<f64>,
     day: Option<DaySoFar>,
+    southern: bool,
+    budburst: Option<Budburst>,
 }
 
 impl Phenology {
-    /// A phenology with an empty window (filled at the first step).
+    /// A phenology with an empty window (filled at the first step), in the northern hemisphere.
     pub fn new(settings: PhenologySettings) -> Self {
         Self {
             settings,
             window: VecDeque::with_capacity(GSI_WINDOW_DAYS + 1),
             day: None,
+            southern: false,
+            budburst: None,
+        }
+    }
+
+    /// The same phenology at a site at `latitude_deg` (°, north positive): south of the equator
+    /// the budburst forcing counts from 1 July instead of 1 January.
+    pub fn at_latitude(mut self, latitude_deg: f64) -> Self {
+        self.southern = latitude_deg < 0.0;
+        self
+    }
+
+    /// The budburst forcing summed over the completed days of the current season (°C·d above
+    /// [`BUDBURST_BASE_C`]); NaN before the first step or for kinds without budburst.
+    pub fn forcing_degree_days(&self) -> f64 {
+        self.budburst.map_or(f64::NAN, |b| b.forcing_degree_days)
+    }
+
+    /// Whether budburst has happened in the current season (always true for kinds without one).
+    pub fn budburst(&self) -> bool {
+        self.budburst.is_none_or(|b| b.burst)
+    }
+
+    /// Adds one completed day of mean air temperature `t_mean_c` (°C) to the budburst forcing.
+    fn add_forcing_day(&mut self, key: (i32, u32), t_mean_c: f64) {
+        let (season, _) = forcing_season(key, self.southern);
+        if let Some(b) = &mut self.budburst {
+            if b.season != season {
+                *b = Budburst {
+                    season,
+                    forcing_degree_days: 0.0,
+                    burst: false,
+                };
+            }
+            b.forcing_degree_days += (t_mean_c - BUDBURST_BASE_C).max(0.0);
+            b.burst |= b.forcing_degree_days >= BUDBURST_FORCING_DEGREE_DAYS;
         }
     }
 
@@ -203,7 +307,7 @@ impl Phenology {
     fn index(&self, tmin_c: f64, vpd_kpa: f64, beta: f64, photoperiod_h: f64) -> f64 {
         let i = daily_gsi(tmin_c, vpd_kpa, photoperiod_h);
         match self.settings.kind {
-            PhenologyKind::Gsi => i,
+            PhenologyKind::Gsi | PhenologyKind::GsiBudburst => i,
             PhenologyKind::GsiSoilWater => i * beta.clamp(0.0, 1.0),
         }
     }
@@ -223,10 +327,20 @@ impl Phenology {
             let first = self.index(t_air_c, vpd_kpa, beta, photoperiod_h);
             self.window
                 .extend(std::iter::repeat_n(first, GSI_WINDOW_DAYS));
+            if self.settings.kind == PhenologyKind::GsiBudburst {
+                let (season, days_before) = forcing_season(key, self.southern);
+                let forcing = f64::from(days_before) * (t_air_c - BUDBURST_BASE_C).max(0.0);
+                self.budburst = Some(Budburst {
+                    season,
+                    forcing_degree_days: forcing,
+                    burst: forcing >= BUDBURST_FORCING_DEGREE_DAYS,
+                });
+            }
         }
         match &mut self.day {
             Some(d) if d.key == key => {
                 d.tmin_c = d.tmin_c.min(t_air_c);
+                d.t_sum += t_air_c;
                 d.vpd_sum += vpd_kpa;
                 d.beta_sum += beta;
                 d.n += 1;
@@ -239,10 +353,12 @@ impl Phenology {
                     while self.window.len() > GSI_WINDOW_DAYS {
                         self.window.pop_front();
                     }
+                    self.add_forcing_day(d.key, d.t_sum / n);
                 }
                 self.day = Some(DaySoFar {
                     key,
                     tmin_c: t_air_c,
+                    t_sum: t_air_c,
                     vpd_sum: vpd_kpa,
                     beta_sum: beta,
                     n: 1,
@@ -250,7 +366,11 @@ impl Phenology {
                 });
             }
         }
-        self.settings.lai_for(self.gsi())
+        if self.budburst() {
+            self.settings.lai_for(self.gsi())
+        } else {
+            self.settings.lai_min_m2_m2
+        }
     }
 }
 

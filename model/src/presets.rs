@@ -96,7 +96,7 @@ pub const PRESETS: &[VegetationPreset] = &[
         name: "deciduous-broadleaf",
         pathway: Pathway::C3,
         description: "temperate deciduous broadleaf forest",
-        phenology: PhenologyKind::Gsi,
+        phenology: PhenologyKind::GsiBudburst,
         values: &[
             v("vcmax25", 57.7, UMOL, KATTGE),
             v("jmax25", 96.4, UMOL, JMAX),

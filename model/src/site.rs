@@ -217,7 +217,10 @@ impl SiteModel {
         let phenology = settings
             .vegetation
             .iter()
-            .map(|v| v.phenology.map(Phenology::new))
+            .map(|v| {
+                v.phenology
+                    .map(|p| Phenology::new(p).at_latitude(settings.location.latitude_deg()))
+            })
             .collect();
         Ok(Self {
             settings,

@@ -183,7 +183,7 @@ pub struct VegetationBlock {
     /// preset; "phenology" with one.
     #[serde(default)]
     pub lai: Option<LaiSetting>,
-    /// Phenology with `lai = "phenology"`: "gsi" or "gsi-soil-water".
+    /// Phenology with `lai = "phenology"`: "gsi", "gsi-soil-water" or "gsi-budburst".
     #[serde(default)]
     pub phenology: Option<String>,
     /// LAI at a Growing Season Index of 0 (m² m⁻²). Default 0.
@@ -606,8 +606,9 @@ impl Site {
                             return Err(err(
                                 line_of_key(&text, &section, "lai"),
                                 format!(
-                                    "[{section}] lai = \"phenology\" needs phenology = \"gsi\" \
-                                     or \"gsi-soil-water\" and lai_max (m2 m-2), or a preset"
+                                    "[{section}] lai = \"phenology\" needs phenology = \"gsi\", \
+                                     \"gsi-soil-water\" or \"gsi-budburst\" and lai_max \
+                                     (m2 m-2), or a preset"
                                 ),
                             ));
                         }

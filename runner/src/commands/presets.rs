@@ -56,8 +56,14 @@ fn rows(p: &VegetationPreset) -> Vec<[String; 5]> {
             "phenology".into(),
             p.phenology.as_str().into(),
             "-".into(),
-            "with lai = \"phenology\" (the default with a preset); Jolly, Nemani & Running 2005"
-                .into(),
+            if p.phenology == isodisc_model::phenology::PhenologyKind::GsiBudburst {
+                "with lai = \"phenology\" (the default with a preset); Jolly, Nemani & Running \
+                 2005; budburst at 200 degree-days above 5 C, Murray, Cannell & Smith 1989 (from \
+                 memory)"
+            } else {
+                "with lai = \"phenology\" (the default with a preset); Jolly, Nemani & Running 2005"
+            }
+            .into(),
         ],
     ];
     rows.extend(p.values.iter().map(|v| {

@@ -9,8 +9,8 @@ use std::fs;
 use std::path::{Path, PathBuf};
 
 use isodisc_model::phenology::{
-    ColdState, Phenology, PhenologyKind, PhenologySettings, daily_gsi, index_photoperiod,
-    index_tmin, index_vpd,
+    BUDBURST_FORCING_DEGREE_DAYS, ColdState, Phenology, PhenologyKind, PhenologySettings,
+    daily_gsi, forcing_season, index_photoperiod, index_tmin, index_vpd,
 };
 use isodisc_model::presets::PRESETS;
 use isodisc_runner::site::Site;
@@ -499,6 +499,128 @@ fn inf_and_the_lloyd_taylor_spelling_are_accepted() {
     }
 }
 
+/// A `gsi-budburst` phenology (lai_min 0, lai_max 4 m2 m-2) at `latitude_deg`.
+fn budburst_phenology(latitude_deg: f64) -> Phenology {
+    let s = PhenologySettings::new(PhenologyKind::GsiBudburst, 0.0, 4.0).unwrap();
+    Phenology::new(s).at_latitude(latitude_deg)
+}
+
+#[test]
+fn budburst_forcing_sums_daily_means_above_5_c_like_a_hand_calculation() {
+    // Thermal time to budburst: day-degrees above 5 °C of the daily mean air temperature
+    // (Cannell & Smith 1983; Murray, Cannell & Smith 1989). Hand calculation, two steps a day:
+    // day 1 (0, 2 °C): mean 1 → 0; day 2 (4, 10 °C): mean 7 → 2; day 3 (−3, 13 °C): mean 5 → 0;
+    // day 4 (12, 19 °C): mean 15.5 → 10.5; day 5 (20, 24.5 °C): mean 22.25 → 17.25. Total 29.75
+    // °C·d. A day counts once it is complete (at the first step of the next day).
+    let mut p = budburst_phenology(48.0);
+    let days: [(f64, f64); 5] = [
+        (0.0, 2.0),
+        (4.0, 10.0),
+        (-3.0, 13.0),
+        (12.0, 19.0),
+        (20.0, 24.5),
+    ];
+    let after_day = [0.0, 2.0, 2.0, 12.5, 29.75];
+    for (i, &(a, b)) in days.iter().enumerate() {
+        let day = i as u32 + 1;
+        p.step((2025, day), a, 0.5, 1.0, 14.0);
+        p.step((2025, day), b, 0.5, 1.0, 14.0);
+        if i > 0 {
+            // Days 1..=i are complete.
+            let f = p.forcing_degree_days();
+            assert!((f - after_day[i - 1]).abs() < TOL, "day {day}: {f}");
+        }
+    }
+    p.step((2025, 6), 0.0, 0.5, 1.0, 14.0);
+    assert!((p.forcing_degree_days() - 29.75).abs() < TOL);
+    // Far below F* = 200 °C·d: still leafless, although the last days were warm, long and humid
+    // (the plain GSI would be in leaf).
+    assert!(!p.budburst());
+    assert_eq!(p.step((2025, 6), 20.0, 0.5, 1.0, 14.0), 0.0);
+}
+
+/// A synthetic warming spring: a constant day temperature of 0.25·(day of season) − 5 °C.
+fn spring_temperature(day_of_season: u32) -> f64 {
+    0.25 * f64::from(day_of_season) - 5.0
+}
+
+#[test]
+fn leaf_out_on_a_synthetic_warming_spring_falls_on_the_hand_calculated_day() {
+    // Daily mean T(d) = 0.25·d − 5 °C from 1 January; forcing above 5 °C starts on day 41
+    // (0.25 °C·d), and Σ_{d=41..D} (0.25·d − 10) = (D − 40)(D − 39)/8: 195 °C·d at D = 79 and
+    // 205 °C·d at D = 80 (hand calculation), so F* = 200 °C·d (Murray, Cannell & Smith 1989, from
+    // memory) is reached on day 80 and the leaves are out from day 81 (set by completed days).
+    // The GSI's window (days 60–80: minima ≥ 10 °C, 14 h days, humid air) is then 1 (Jolly et al.
+    // 2005), so LAI jumps from lai_min = 0 to lai_max = 4.
+    assert_eq!(BUDBURST_FORCING_DEGREE_DAYS, 200.0);
+    let mut bud = budburst_phenology(48.0);
+    let mut gsi = Phenology::new(PhenologySettings::new(PhenologyKind::Gsi, 0.0, 4.0).unwrap());
+    let mut gsi_leaf_out = None;
+    for day in 1..=81u32 {
+        let t = spring_temperature(day);
+        let lai = bud.step((2025, day), t, 0.5, 1.0, 14.0);
+        if gsi.step((2025, day), t, 0.5, 1.0, 14.0) > 0.0 && gsi_leaf_out.is_none() {
+            gsi_leaf_out = Some(day);
+        }
+        match day {
+            80 => {
+                assert_eq!(lai, 0.0, "day 80");
+                assert!((bud.forcing_degree_days() - 195.0).abs() < TOL);
+            }
+            81 => {
+                assert!((lai - 4.0).abs() < TOL, "day 81: {lai}");
+                assert!((bud.forcing_degree_days() - 205.0).abs() < TOL);
+            }
+            _ if day < 80 => assert_eq!(lai, 0.0, "day {day}"),
+            _ => {}
+        }
+    }
+    // The plain GSI greens as soon as minima pass −2 °C (day 13: T = −1.75 °C on day 13, counted
+    // from day 14), two months earlier: the gap the budburst closes.
+    assert_eq!(gsi_leaf_out, Some(14));
+}
+
+#[test]
+fn southern_hemisphere_forcing_counts_from_1_july() {
+    // South of the equator the season of the budburst forcing starts on 1 July, half a year after
+    // the northern 1 January (our convention, see docs/science.md). Hand values: 1 July 2025 is day
+    // 182 (2025 is not a leap year), 1 July 2024 day 183 (leap year), so 30 June 2025 is
+    // 366 − 183 + 181 = 364 days after 1 July 2024.
+    assert_eq!(forcing_season((2025, 182), true), (2025, 0));
+    assert_eq!(forcing_season((2025, 181), true), (2024, 364));
+    assert_eq!(forcing_season((2025, 1), true), (2024, 184));
+    assert_eq!(forcing_season((2025, 1), false), (2025, 0));
+    assert_eq!(forcing_season((2024, 366), false), (2024, 365));
+
+    // The synthetic warming spring of the northern check, shifted to start on 1 July 2025 at a
+    // site at 35° S: leaf-out on day 81 of the season, i.e. day 181 + 81 = 262 of the year.
+    let mut south = budburst_phenology(-35.0);
+    // Start the run in the austral winter, a day before the season begins (cold: no forcing).
+    south.step((2025, 181), -5.0, 0.5, 1.0, 9.0);
+    for d in 1..=81u32 {
+        let lai = south.step((2025, 181 + d), spring_temperature(d), 0.5, 1.0, 14.0);
+        assert_eq!(lai > 0.0, d == 81, "season day {d}: {lai}");
+    }
+    assert!((south.forcing_degree_days() - 205.0).abs() < TOL);
+    // A warm 1 January start differs by hemisphere: leafless in the north (nothing summed yet) and
+    // in leaf in the south (the 184 days since 1 July 2024 counted at the first step's 20 °C,
+    // 15 °C·d each).
+    let mut north = budburst_phenology(35.0);
+    assert_eq!(north.step((2025, 1), 20.0, 0.5, 1.0, 14.0), 0.0);
+    assert!(!north.budburst());
+    let mut south = budburst_phenology(-35.0);
+    assert!((south.step((2025, 1), 20.0, 0.5, 1.0, 14.0) - 4.0).abs() < TOL);
+    assert!((south.forcing_degree_days() - 184.0 * 15.0).abs() < TOL);
+    // And the southern season is cleared on 1 July (day 182): once that day is complete (at the
+    // step of day 183) the sum holds only its 15 °C·d and the leaves are off until F* is reached.
+    for d in 2..=183u32 {
+        south.step((2025, d), 20.0, 0.5, 1.0, 14.0);
+    }
+    assert!((south.forcing_degree_days() - 15.0).abs() < TOL);
+    assert!(!south.budburst());
+    assert_eq!(south.step((2025, 183), 20.0, 0.5, 1.0, 14.0), 0.0);
+}
+
 proptest! {
     #![proptest_config(crate::common::proptest_config("phenology_cold", 256))]
     /// Bounds that follow from the definitions (no source needed): LAI stays within
@@ -508,12 +630,12 @@ proptest! {
     fn lai_and_cold_factor_stay_in_their_bounds(
         lai_min in 0.0..3.0f64,
         extra in 0.0..5.0f64,
-        water in proptest::bool::ANY,
+        which in 0..3usize,
         hours in proptest::collection::vec(
             (-70.0..45.0f64, 0.0..6.0f64, 0.0..1.0f64), 1..400,
         ),
     ) {
-        let kind = if water { PhenologyKind::GsiSoilWater } else { PhenologyKind::Gsi };
+        let kind = PhenologyKind::ALL[which];
         let settings = PhenologySettings::new(kind, lai_min, lai_min + extra).unwrap();
         let mut phenology = Phenology::new(settings);
         let mut cold = ColdState::default();
