@@ -10,6 +10,13 @@ pub fn run(args: &[&str]) -> Result<(), String> {
     isodisc_runner::run(cli).map_err(|e| e.chain())
 }
 
+/// A file of the invented demo site, `forcing-demo/REL`.
+pub fn demo_path(rel: &str) -> std::path::PathBuf {
+    std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("../forcing-demo")
+        .join(rel)
+}
+
 /// Runs `isodisc run SITE --out OUT --quiet` in-process.
 pub fn run_quiet(site: &std::path::Path, out: &std::path::Path) -> Result<(), String> {
     run(&[

@@ -21,11 +21,7 @@ const TO: &str = "2025-02-28";
 use crate::common::run;
 
 fn demo(rel: &str) -> String {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("../forcing-demo")
-        .join(rel)
-        .display()
-        .to_string()
+    crate::common::demo_path(rel).display().to_string()
 }
 
 fn s(p: &Path) -> &str {

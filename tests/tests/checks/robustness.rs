@@ -18,11 +18,7 @@ use crate::common::run;
 const FROM: &str = "2025-01-01";
 const TO: &str = "2025-01-31";
 
-fn demo(rel: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("../forcing-demo")
-        .join(rel)
-}
+use crate::common::demo_path as demo;
 
 fn s(p: &Path) -> &str {
     p.to_str().unwrap()
