@@ -5,6 +5,7 @@ mod canopy_water;
 mod common;
 mod docs;
 mod ensemble;
+mod golden;
 mod isotopes_leaf;
 mod observations;
 mod phenology_cold;
