@@ -13,7 +13,8 @@
 //!   the common two-leaf default (from memory), the relation being fitted to C3 trees; de Pury &
 //!   Farquhar 1997 used a steeper 0.713 for wheat (from memory, not re-read).
 //! - LAI range: lai_max from Asner, Scurlock & Hicke 2003, Global Ecol. Biogeogr. (mean LAI per
-//!   biome); lai_min 0 for deciduous and herbaceous types, about 3/4 (needleleaf) or 4/5 (tropical
+//!   biome; grasslands 1.7 from memory, which their abstract ranks below tundra and above deserts);
+//!   lai_min 0 for deciduous and herbaceous types, about 3/4 (needleleaf) or 4/5 (tropical
 //!   broadleaf) of lai_max for evergreens (common practice).
 //! - Leaf width: typical leaf sizes of each type (common practice).
 
@@ -71,6 +72,7 @@ const LIN: &str = "Lin et al. 2015, Nature Clim. Change (from memory)";
 const CHEN: &str = "Chen et al. 2005, Remote Sens. Environ. (from memory)";
 const LLOYD: &str = "exp(0.00963 vcmax25 - 2.43), Lloyd et al. 2010, Biogeosciences (from memory)";
 const ASNER: &str = "Asner, Scurlock & Hicke 2003, Global Ecol. Biogeogr. (from memory)";
+const GRASS_LAI: &str = "grassland mean, Asner, Scurlock & Hicke 2003, Global Ecol. Biogeogr. (value from memory; their abstract ranks the lowest biome means deserts (1.3) < grasslands < tundra)";
 const DEC_MIN: &str = "leafless in the dormant season";
 const WIDTH: &str = "typical leaf size (common practice)";
 const COLLATZ_K: &str = "0.018 x vmax25 (Collatz et al. 1992, from memory)";
@@ -177,7 +179,7 @@ pub const PRESETS: &[VegetationPreset] = &[
             v("clumping", 0.75, "-", CHEN),
             v("kn", 0.19, "-", LLOYD),
             v("lai_min", 0.0, LAIU, DEC_MIN),
-            v("lai_max", 2.5, LAIU, ASNER),
+            v("lai_max", 1.7, LAIU, GRASS_LAI),
         ],
     },
     VegetationPreset {
@@ -199,7 +201,7 @@ pub const PRESETS: &[VegetationPreset] = &[
             v("clumping", 0.75, "-", CHEN),
             v("kn", 0.3, "-", C4_KN),
             v("lai_min", 0.0, LAIU, DEC_MIN),
-            v("lai_max", 2.5, LAIU, ASNER),
+            v("lai_max", 1.7, LAIU, GRASS_LAI),
         ],
     },
     VegetationPreset {
