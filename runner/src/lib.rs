@@ -6,6 +6,7 @@
 pub mod cli;
 pub mod commands;
 pub mod ensemble;
+pub mod fit;
 pub mod error;
 pub mod forcing;
 pub mod output;
@@ -50,5 +51,6 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::ClusterScript(args) => {
             commands::cluster::ClusterScriptPlan::from_args(&args)?.run()
         }
+        Command::Fit(args) => commands::fit::FitPlan::from_args(&args)?.run(),
     }
 }
