@@ -6,8 +6,8 @@
 pub mod cli;
 pub mod commands;
 pub mod ensemble;
-pub mod fit;
 pub mod error;
+pub mod fit;
 pub mod forcing;
 pub mod output;
 pub mod priors;

@@ -26,7 +26,9 @@ use crate::fit::diagnostics::{RHAT_WARN, ess_bulk, split_rhat};
 use crate::fit::sampler::{Chain, Eval, SamplerSettings, Stop, sample};
 use crate::fit::streams::Stream;
 use crate::fit::{Likelihood, ln_prior};
-use crate::output::{AtomicFile, check_out_dir, fmt_num, fnv1a64, inputs_json, write_folder, write_json};
+use crate::output::{
+    AtomicFile, check_out_dir, fmt_num, fnv1a64, inputs_json, write_folder, write_json,
+};
 use crate::simulate::{NoSink, simulate};
 use crate::site::Site;
 
@@ -121,8 +123,13 @@ impl FitPlan {
                 _ => None,
             })
             .collect();
-        site.set_params(&fixed)
-            .map_err(|e| Error::msg(format!("{}: a fixed value: {}", spec.path.display(), e.chain())))?;
+        site.set_params(&fixed).map_err(|e| {
+            Error::msg(format!(
+                "{}: a fixed value: {}",
+                spec.path.display(),
+                e.chain()
+            ))
+        })?;
         let mut fixed_errors = Vec::new();
         for p in &errors {
             if let Dist::Fixed { value } = p.dist
@@ -158,14 +165,18 @@ impl FitPlan {
                 Likelihood::StudentT { dof }
             }
             (LikelihoodArg::StudentT, Some(dof)) => {
-                return Err(Error::msg(format!("--dof {dof}: must be a finite number > 0")));
+                return Err(Error::msg(format!(
+                    "--dof {dof}: must be a finite number > 0"
+                )));
             }
             (LikelihoodArg::StudentT, None) => {
                 return Err(Error::msg("--likelihood student-t needs --dof N"));
             }
         };
         let dim = sampled.len();
-        let walkers = args.walkers.unwrap_or((2 * dim + 2).max(8).next_multiple_of(2));
+        let walkers = args
+            .walkers
+            .unwrap_or((2 * dim + 2).max(8).next_multiple_of(2));
         if args.max_evaluations > MAX_EVALUATIONS {
             return Err(Error::msg(format!(
                 "--max-evaluations {}: use at most {MAX_EVALUATIONS}",
@@ -276,8 +287,12 @@ impl FitPlan {
         if site.set_params(&point.site).is_err() {
             return refused(log_prior);
         }
-        let Ok(sim) = simulate(&site, steps.iter().cloned().map(Ok), step_minutes, &mut NoSink)
-        else {
+        let Ok(sim) = simulate(
+            &site,
+            steps.iter().cloned().map(Ok),
+            step_minutes,
+            &mut NoSink,
+        ) else {
             return refused(log_prior);
         };
         let mut payload = Vec::new();
@@ -298,7 +313,12 @@ impl FitPlan {
         let (steps, report) = read_steps(&self.site, self.period)?;
         let step_minutes = report.step_minutes;
         // A reference run of the site as given pairs the observations with the model's periods.
-        let reference = simulate(&self.site, steps.iter().cloned().map(Ok), step_minutes, &mut NoSink)?;
+        let reference = simulate(
+            &self.site,
+            steps.iter().cloned().map(Ok),
+            step_minutes,
+            &mut NoSink,
+        )?;
         let mut streams = self.streams.clone();
         for s in &mut streams {
             s.pair(&reference.periods[0], &reference.periods[1])?;
@@ -433,7 +453,10 @@ impl FitPlan {
         let mut names = Vec::new();
         let mut offset = 0;
         for (k, s) in self.streams.iter().enumerate() {
-            let n_same = self.streams[..k].iter().filter(|o| o.variable == s.variable).count();
+            let n_same = self.streams[..k]
+                .iter()
+                .filter(|o| o.variable == s.variable)
+                .count();
             let name = if n_same == 0 {
                 format!("predictive_{}.csv", s.variable)
             } else {
@@ -441,14 +464,23 @@ impl FitPlan {
             };
             let mut f = AtomicFile::create(&dir.join(&name))?;
             let w = f.writer();
-            writeln!(w, "{},observed,sd,model_p05,model_p50,model_p95,draws",
-                if s.monthly { "month" } else { "date" })?;
+            writeln!(
+                w,
+                "{},observed,sd,model_p05,model_p50,model_p95,draws",
+                if s.monthly { "month" } else { "date" }
+            )?;
             let mut line = String::new();
             for (i, o) in s.obs.iter().enumerate() {
                 let st = stats(draws.iter().map(|d| d[offset + i]));
                 line.clear();
                 line.push_str(&o.key);
-                for v in [o.value, o.sd, st.quantiles[0], st.quantiles[2], st.quantiles[4]] {
+                for v in [
+                    o.value,
+                    o.sd,
+                    st.quantiles[0],
+                    st.quantiles[2],
+                    st.quantiles[4],
+                ] {
                     line.push(',');
                     fmt_num(&mut line, v);
                 }
@@ -468,7 +500,11 @@ impl FitPlan {
 fn write_posterior<T>(path: &Path, names: &[&str], chain: &Chain<T>) -> Result<()> {
     let mut f = AtomicFile::create(path)?;
     let w = f.writer();
-    writeln!(w, "walker,step,{},log_likelihood,log_prior", names.join(","))?;
+    writeln!(
+        w,
+        "walker,step,{},log_likelihood,log_prior",
+        names.join(",")
+    )?;
     let mut line = String::new();
     for s in 0..chain.kept_steps() {
         for k in 0..chain.walkers {
@@ -503,7 +539,15 @@ fn write_summary<T>(path: &Path, names: &[&str], chain: &Chain<T>) -> Result<Vec
         let (rhat, ess) = (split_rhat(&per_walker), ess_bulk(&per_walker));
         line.clear();
         line.push_str(name);
-        for v in [st.mean, st.sd, st.quantiles[0], st.quantiles[2], st.quantiles[4], rhat, ess] {
+        for v in [
+            st.mean,
+            st.sd,
+            st.quantiles[0],
+            st.quantiles[2],
+            st.quantiles[4],
+            rhat,
+            ess,
+        ] {
             line.push(',');
             fmt_num(&mut line, v);
         }

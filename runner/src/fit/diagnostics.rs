@@ -32,7 +32,9 @@ pub fn rank_normalise(chains: &[Vec<f64>]) -> Vec<Vec<f64>> {
         .iter()
         .map(|c| {
             c.iter()
-                .map(|_| std.inverse_cdf((it.next().expect("one rank per draw") - 0.375) / (s + 0.25)))
+                .map(|_| {
+                    std.inverse_cdf((it.next().expect("one rank per draw") - 0.375) / (s + 0.25))
+                })
                 .collect()
         })
         .collect()
@@ -86,7 +88,10 @@ pub fn split_rhat(chains: &[Vec<f64>]) -> f64 {
 fn autocov(x: &[f64], lag: usize) -> f64 {
     let m = mean(x);
     let n = x.len();
-    (0..n - lag).map(|i| (x[i] - m) * (x[i + lag] - m)).sum::<f64>() / n as f64
+    (0..n - lag)
+        .map(|i| (x[i] - m) * (x[i + lag] - m))
+        .sum::<f64>()
+        / n as f64
 }
 
 /// Effective sample size of equal-length chains (Vehtari et al. 2021, eq. 10; the algorithm of
@@ -95,7 +100,8 @@ fn autocov(x: &[f64], lag: usize) -> f64 {
 pub fn ess_of(chains: &[Vec<f64>]) -> f64 {
     let m = chains.len();
     let n = chains.first().map_or(0, Vec::len);
-    if m == 0 || n < 4 {
+    // Six draws per chain let the truncation below look at one pair of lags at least.
+    if m == 0 || n < 6 {
         return f64::NAN;
     }
     let acov_mean = |lag: usize| mean(&chains.iter().map(|c| autocov(c, lag)).collect::<Vec<_>>());

@@ -17,9 +17,7 @@ pub fn ln_prior(dist: &Dist, x: f64) -> f64 {
     // The spec parser validated every field, so the constructors cannot fail.
     match *dist {
         Dist::Fixed { .. } => f64::NAN,
-        Dist::Uniform { min, max } => Uniform::new(min, max)
-            .expect("validated uniform")
-            .ln_pdf(x),
+        Dist::Uniform { min, max } => Uniform::new(min, max).expect("validated uniform").ln_pdf(x),
         Dist::Normal { mean, sd } => Normal::new(mean, sd).expect("validated normal").ln_pdf(x),
         Dist::LogNormal { meanlog, sdlog } => {
             if x > 0.0 {

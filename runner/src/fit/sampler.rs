@@ -91,8 +91,8 @@ impl SamplerSettings {
     }
 }
 
-/// Fewest kept steps: the ESS needs two halves of four draws per walker.
-pub const MIN_KEPT_STEPS: usize = 8;
+/// Fewest kept steps: the ESS needs two halves of six draws per walker.
+pub const MIN_KEPT_STEPS: usize = 12;
 
 /// The stretch move's scale (Goodman & Weare 2010 use a = 2).
 pub const STRETCH_A: f64 = 2.0;
@@ -268,15 +268,14 @@ where
                 let j = (w.rng.next_u64() % fixed.len() as u64) as usize;
                 let u = open_unit(&mut w.rng);
                 let z = ((STRETCH_A - 1.0) * u + 1.0).powi(2) / STRETCH_A;
-                let y: Vec<f64> = w
-                    .x
-                    .iter()
-                    .zip(&fixed[j].x)
-                    .map(|(xk, xj)| xj + z * (xk - xj))
-                    .collect();
+                let y: Vec<f64> =
+                    w.x.iter()
+                        .zip(&fixed[j].x)
+                        .map(|(xk, xj)| xj + z * (xk - xj))
+                        .collect();
                 let e = eval(&y);
-                let log_ratio = (dim as f64 - 1.0) * z.ln() + e.log_posterior()
-                    - w.eval.log_posterior();
+                let log_ratio =
+                    (dim as f64 - 1.0) * z.ln() + e.log_posterior() - w.eval.log_posterior();
                 let accept = open_unit(&mut w.rng).ln() < log_ratio;
                 w.accepted = accept;
                 if accept {
@@ -298,9 +297,10 @@ where
                 chain.log_prior.push(w.eval.log_prior);
             }
             if kept % stride == 0 {
-                chain
-                    .payloads
-                    .push((kept, walkers.iter().map(|w| w.eval.payload.clone()).collect()));
+                chain.payloads.push((
+                    kept,
+                    walkers.iter().map(|w| w.eval.payload.clone()).collect(),
+                ));
                 if chain.payloads.len() > settings.payload_steps.max(1) {
                     stride *= 2;
                     chain.payloads.retain(|(k, _)| k % stride == 0);

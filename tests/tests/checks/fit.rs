@@ -63,7 +63,10 @@ fn ar1_ess_matches_its_autocorrelation_time() {
         .collect();
     let ess = ess_of(&chains);
     let expected = 20000.0 * (1.0 - phi) / (1.0 + phi);
-    assert!((ess / expected - 1.0).abs() < 0.15, "ESS {ess}, expected {expected}");
+    assert!(
+        (ess / expected - 1.0).abs() < 0.15,
+        "ESS {ess}, expected {expected}"
+    );
 }
 
 #[test]
@@ -155,9 +158,17 @@ fn sampler_recovers_a_linear_gaussian_posterior() {
     assert!((0.2..0.9).contains(&rate), "acceptance {rate}");
     for j in 0..2 {
         let (m, s) = moments(&chain, j);
-        assert!((m - mean[j]).abs() < MC_SE * sd[j] / ess.sqrt(), "mean {j}: {m} vs {}", mean[j]);
+        assert!(
+            (m - mean[j]).abs() < MC_SE * sd[j] / ess.sqrt(),
+            "mean {j}: {m} vs {}",
+            mean[j]
+        );
         // SE of a sample sd ≈ sd/√(2 ESS) (normal theory, from memory).
-        assert!((s - sd[j]).abs() < MC_SE * sd[j] / (2.0 * ess).sqrt(), "sd {j}: {s} vs {}", sd[j]);
+        assert!(
+            (s - sd[j]).abs() < MC_SE * sd[j] / (2.0 * ess).sqrt(),
+            "sd {j}: {s} vs {}",
+            sd[j]
+        );
     }
 }
 
@@ -237,7 +248,11 @@ fn without_data_the_sampler_returns_the_prior() {
         .collect();
     for (j, (m0, s0)) in expected.iter().enumerate() {
         let (m, s) = moments(&chain, j);
-        assert!((m - m0).abs() < MC_SE * s0 / ess.sqrt(), "{}: mean {m} vs {m0}", spec.params[j].path);
+        assert!(
+            (m - m0).abs() < MC_SE * s0 / ess.sqrt(),
+            "{}: mean {m} vs {m0}",
+            spec.params[j].path
+        );
         // The sd's SE for a non-normal shape is larger than σ/√(2n): allow twice that.
         assert!(
             (s - s0).abs() < 2.0 * MC_SE * s0 / (2.0 * ess).sqrt(),
@@ -283,5 +298,284 @@ fn likelihood_of_one_observation_by_hand() {
     let t = Likelihood::StudentT { dof: 1.0 }.ln_density(y, m, s);
     let hand = -(std::f64::consts::PI * s * (1.0 + ((y - m) / s).powi(2))).ln();
     assert!((t - hand).abs() < 1e-12, "{t} vs {hand}");
-    assert_eq!(Likelihood::Gaussian.ln_density(y, f64::NAN, s), f64::NEG_INFINITY);
+    assert_eq!(
+        Likelihood::Gaussian.ln_density(y, f64::NAN, s),
+        f64::NEG_INFINITY
+    );
+}
+
+// ---- `isodisc fit` end to end -------------------------------------------------------------
+
+use std::fs;
+use std::path::Path;
+
+use crate::common::{demo_path, run};
+use isodisc_runner::fit::streams::Stream;
+
+/// One month of hourly steps keeps every model run short.
+const FROM: &str = "2025-01-01";
+const TO: &str = "2025-01-31";
+
+fn p(path: &Path) -> &str {
+    path.to_str().unwrap()
+}
+
+/// The demo site with its weather file addressed from `dir` (a copy of site.toml whose forcing
+/// and history paths point back at the demo folder).
+fn demo_site(dir: &Path) -> std::path::PathBuf {
+    let text = fs::read_to_string(demo_path("site.toml"))
+        .unwrap()
+        .replace(
+            "path = \"weather.csv\"",
+            &format!("path = \"{}\"", demo_path("weather.csv").display()),
+        )
+        .replace(
+            "history = \"atmosphere_history.csv\"",
+            &format!(
+                "history = \"{}\"",
+                demo_path("atmosphere_history.csv").display()
+            ),
+        );
+    let site = dir.join("site.toml");
+    fs::write(&site, text).unwrap();
+    site
+}
+
+fn read_csv(path: &Path) -> (Vec<String>, Vec<Vec<String>>) {
+    let mut r = csv::Reader::from_path(path).unwrap();
+    let h = r.headers().unwrap().iter().map(String::from).collect();
+    let rows = r
+        .records()
+        .map(|x| x.unwrap().iter().map(String::from).collect())
+        .collect();
+    (h, rows)
+}
+
+const LEAKINESS_PRIOR: &str =
+    "[param.\"vegetation.c4.leakiness\"]\ndistribution = \"uniform\"\nmin = 0.15\nmax = 0.45\n";
+
+fn fit_args<'a>(
+    site: &'a str,
+    spec: &'a str,
+    obs: &'a str,
+    out: &'a str,
+    seed: &'a str,
+) -> Vec<&'a str> {
+    vec![
+        "fit",
+        site,
+        "--spec",
+        spec,
+        "--observed",
+        obs,
+        "--variable",
+        "discrimination",
+        "--out",
+        out,
+        "--seed",
+        seed,
+        "--from",
+        FROM,
+        "--to",
+        TO,
+        "--warmup",
+        "15",
+        "--max-evaluations",
+        "400",
+        "--quiet",
+    ]
+}
+
+#[test]
+fn planted_leakiness_is_recovered() {
+    // Planted truth (common practice for samplers): daily Δ simulated with leakiness 0.30, plus
+    // N(0, 0.3‰) noise from three seeds; each fit's 90% interval (p05–p95) should cover 0.30
+    // (nominal coverage 0.9 each: all three or two of three, with probability 0.97), and the
+    // posterior sd is far below the prior's (uniform on [0.15, 0.45]: sd 0.087).
+    let tmp = tempfile::tempdir().unwrap();
+    let site = demo_site(tmp.path());
+    let truth = 0.30;
+    let planted = fs::read_to_string(&site)
+        .unwrap()
+        .replace("leakiness = 0.3 }", &format!("leakiness = {truth} }}"));
+    let planted_site = tmp.path().join("planted.toml");
+    fs::write(&planted_site, planted).unwrap();
+    let run_dir = tmp.path().join("truth");
+    run(&[
+        "run",
+        p(&planted_site),
+        "--out",
+        p(&run_dir),
+        "--from",
+        FROM,
+        "--to",
+        TO,
+        "--quiet",
+    ])
+    .unwrap();
+    let (h, rows) = read_csv(&run_dir.join("daily.csv"));
+    let (c_period, c_d) = (
+        h.iter().position(|x| x == "period").unwrap(),
+        h.iter().position(|x| x == "discrimination").unwrap(),
+    );
+    let spec = tmp.path().join("spec.toml");
+    fs::write(&spec, LEAKINESS_PRIOR).unwrap();
+    let noise = Normal::new(0.0, 0.3).unwrap();
+    let mut covered = 0;
+    for seed in 1..=3u64 {
+        let mut rng = StdRng::seed_from_u64(100 + seed);
+        let mut text = String::from("date,discrimination,sd\n");
+        for r in &rows {
+            let d: f64 = r[c_d].parse().unwrap();
+            text += &format!("{},{:.4},0.3\n", r[c_period], d + noise.sample(&mut rng));
+        }
+        let obs = tmp.path().join(format!("obs{seed}.csv"));
+        fs::write(&obs, text).unwrap();
+        let out = tmp.path().join(format!("fit{seed}"));
+        let seed_s = seed.to_string();
+        run(&fit_args(p(&site), p(&spec), p(&obs), p(&out), &seed_s)).unwrap();
+        let (h, rows) = read_csv(&out.join("summary.csv"));
+        assert_eq!(
+            h,
+            [
+                "parameter",
+                "mean",
+                "sd",
+                "p05",
+                "p50",
+                "p95",
+                "rhat",
+                "ess"
+            ]
+        );
+        let v = |c: usize| rows[0][c].parse::<f64>().unwrap();
+        if (v(3)..=v(5)).contains(&truth) {
+            covered += 1;
+        }
+        assert!(
+            v(2) < 0.25 * 0.087,
+            "posterior sd {} not below a quarter of the prior's",
+            v(2)
+        );
+        assert!(out.join("best/daily.csv").is_file());
+        let (h, pred) = read_csv(&out.join("predictive_discrimination.csv"));
+        assert_eq!(h[..3], ["date", "observed", "sd"]);
+        assert_eq!(pred.len(), 31);
+    }
+    assert!(
+        covered >= 2,
+        "the 90% interval covered the truth in {covered} of 3 fits"
+    );
+}
+
+#[test]
+fn fit_files_do_not_depend_on_the_thread_count() {
+    // Per-walker generators and walker-ordered updates (sampler.rs): byte-identical outputs.
+    let tmp = tempfile::tempdir().unwrap();
+    let site = demo_site(tmp.path());
+    let spec = tmp.path().join("spec.toml");
+    fs::write(&spec, LEAKINESS_PRIOR).unwrap();
+    let obs = tmp.path().join("obs.csv");
+    fs::write(
+        &obs,
+        "date,discrimination\n2025-01-05,9.1\n2025-01-20,8.7\n",
+    )
+    .unwrap();
+    let mut outs = Vec::new();
+    for threads in ["1", "2"] {
+        let out = tmp.path().join(format!("t{threads}"));
+        let mut a = fit_args(p(&site), p(&spec), p(&obs), p(&out), "4");
+        a.extend(["--threads", threads, "--sd", "0.5"]);
+        run(&a).unwrap();
+        outs.push(out);
+    }
+    for f in [
+        "posterior.csv",
+        "summary.csv",
+        "predictive_discrimination.csv",
+        "best/daily.csv",
+    ] {
+        assert_eq!(
+            fs::read(outs[0].join(f)).unwrap(),
+            fs::read(outs[1].join(f)).unwrap(),
+            "{f}"
+        );
+    }
+}
+
+#[test]
+fn stream_log_likelihood_by_hand() {
+    // Two observations with SD 0.2 and 0.4 and a model-error SD of 0.3:
+    // Σ −½ ln(2π s²) − ½ ((y − m)/s)², s² = sd² + σ² (the formula of docs/fit.md).
+    let tmp = tempfile::tempdir().unwrap();
+    let f = tmp.path().join("obs.csv");
+    fs::write(
+        &f,
+        "date,d13c_respiration,sd\n2025-01-01,-18.0,0.2\n2025-01-02,-17.0,0.4\n",
+    )
+    .unwrap();
+    let s = Stream::read(&f, "d13c_respiration", None, 1).unwrap();
+    let m = [-18.5, -17.1];
+    let ll = s.log_likelihood(&m, 0.3, &Likelihood::Gaussian);
+    let term = |y: f64, m: f64, sd: f64| {
+        let s2 = sd * sd + 0.09;
+        -0.5 * (2.0 * std::f64::consts::PI * s2).ln() - 0.5 * (y - m) * (y - m) / s2
+    };
+    let hand = term(-18.0, -18.5, 0.2) + term(-17.0, -17.1, 0.4);
+    assert!((ll - hand).abs() < 1e-12, "{ll} vs {hand}");
+}
+
+#[test]
+fn bad_fit_input_is_located() {
+    // Common practice: errors name the file, line, column or flag and the value.
+    let tmp = tempfile::tempdir().unwrap();
+    let site = demo_site(tmp.path());
+    let spec = tmp.path().join("spec.toml");
+    fs::write(&spec, LEAKINESS_PRIOR).unwrap();
+    let out = tmp.path().join("out");
+    let go = |obs: &Path, spec: &Path| {
+        run(&fit_args(p(&site), p(spec), p(obs), p(&out), "1")).unwrap_err()
+    };
+    // Observations outside the period.
+    let late = tmp.path().join("late.csv");
+    fs::write(&late, "date,discrimination,sd\n2025-06-01,9.0,0.3\n").unwrap();
+    let e = go(&late, &spec);
+    assert!(
+        e.contains("late.csv") && e.contains("falls within the period"),
+        "{e}"
+    );
+    // SD <= 0, with its line and column.
+    let zero = tmp.path().join("zero.csv");
+    fs::write(
+        &zero,
+        "date,discrimination,sd\n2025-01-02,9.0,0.3\n2025-01-03,9.0,0\n",
+    )
+    .unwrap();
+    let e = go(&zero, &spec);
+    assert!(e.contains("zero.csv: line 3, column 3 (sd)"), "{e}");
+    // An unknown parameter path, with the spec's line.
+    let bad_spec = tmp.path().join("bad.toml");
+    fs::write(
+        &bad_spec,
+        "\n[param.\"vegetation.c4.leakyness\"]\ndistribution = \"uniform\"\nmin = 0.1\nmax = 0.4\n",
+    )
+    .unwrap();
+    let obs = tmp.path().join("obs.csv");
+    fs::write(&obs, "date,discrimination,sd\n2025-01-02,9.0,0.3\n").unwrap();
+    let e = go(&obs, &bad_spec);
+    assert!(
+        e.contains("bad.toml: line 2") && e.contains("leakyness"),
+        "{e}"
+    );
+    // A model-error term for a variable no stream has.
+    fs::write(
+        &bad_spec,
+        format!(
+            "{LEAKINESS_PRIOR}[param.\"error.gpp\"]\ndistribution = \"uniform\"\nmin = 0\nmax = 1\n"
+        ),
+    )
+    .unwrap();
+    let e = go(&obs, &bad_spec);
+    assert!(e.contains("error.gpp") && e.contains("no stream"), "{e}");
+    assert!(!out.exists());
 }
