@@ -343,8 +343,16 @@ pub struct EnsembleArgs {
     /// The site file (TOML).
     pub site: PathBuf,
     /// The ensemble spec (TOML; see docs/ensembles.md).
-    #[arg(long)]
-    pub spec: PathBuf,
+    #[arg(
+        long,
+        required_unless_present = "posterior",
+        conflicts_with = "posterior"
+    )]
+    pub spec: Option<PathBuf>,
+    /// Draw the members from the posterior of `isodisc fit --out DIR` (its posterior.csv)
+    /// instead of a spec.
+    #[arg(long, value_name = "DIR")]
+    pub posterior: Option<PathBuf>,
     /// Number of members.
     #[arg(long)]
     pub members: usize,
