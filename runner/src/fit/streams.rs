@@ -1,6 +1,7 @@
 //! Data streams of a fit: one observation file and the model variable it measures. Files are read
 //! as `isodisc compare` reads them (a `time`, `date` or `start` column; `isodisc keeling --out`
-//! output gives its `intercept` and `intercept_se`); a `month` column (YYYY-MM) pairs the
+//! output gives its `intercept` and `intercept_se`, one row per night from its geometric-mean
+//! regression (`method` = gmr; Pataki et al. 2003), rows with a flag left out); a `month` column (YYYY-MM) pairs the
 //! observations with monthly sums or means instead of days. Each row is one datum with its own
 //! standard deviation: a column, or one stated value (`--sd`).
 
@@ -12,6 +13,9 @@ use crate::error::{Error, Result};
 use crate::simulate::{PERIOD_COLUMNS, PeriodRow, period_col};
 
 use super::Likelihood;
+
+/// The Keeling-plot method whose intercepts a stream takes from `isodisc keeling --out`.
+pub const KEELING_METHOD: &str = "gmr";
 
 /// One observation.
 #[derive(Debug, Clone, PartialEq)]
@@ -131,8 +135,17 @@ impl Stream {
                 .map(|t| format!("{:04}-{:02}-{:02}", t.year(), t.month(), t.day()))
                 .collect()
         };
+        // `isodisc keeling --out`: one method's fit per group, and only unflagged fits.
+        let keep_row = |i: usize| -> bool {
+            if column != "intercept" {
+                return true;
+            }
+            let method = table.column("method").map(|c| table.cell(i, c) == KEELING_METHOD);
+            let unflagged = table.column("flags").map(|c| table.cell(i, c).is_empty());
+            method.unwrap_or(true) && unflagged.unwrap_or(true)
+        };
         let obs: Vec<Obs> = (0..values.len())
-            .filter(|&i| !values[i].is_nan())
+            .filter(|&i| !values[i].is_nan() && keep_row(i))
             .map(|i| Obs {
                 key: keys[i].clone(),
                 line: table.line(i),
