@@ -133,7 +133,7 @@ impl FitPlan {
         let mut fixed_errors = Vec::new();
         for p in &errors {
             if let Dist::Fixed { value } = p.dist
-                && !(value >= 0.0)
+                && (value.is_nan() || value < 0.0)
             {
                 return Err(Error::msg(format!(
                     "{}: line {}: [param.\"{}\"] value = {value}: a model-error SD must be >= 0",
@@ -280,7 +280,7 @@ impl FitPlan {
             return refused(f64::NEG_INFINITY);
         }
         let (point, sigmas) = self.split(x);
-        if sigmas.iter().any(|s| !(*s >= 0.0)) {
+        if sigmas.iter().any(|s| s.is_nan() || *s < 0.0) {
             return refused(f64::NEG_INFINITY);
         }
         let mut site = self.site.clone();
@@ -372,12 +372,12 @@ impl FitPlan {
 
         let mut warnings = Vec::new();
         for (name, (rhat, ess)) in names.iter().zip(&diag) {
-            if !(*rhat <= RHAT_WARN) {
+            if rhat.is_nan() || *rhat > RHAT_WARN {
                 warnings.push(format!(
                     "{name}: R-hat {rhat:.3} > {RHAT_WARN}: the walkers have not mixed; run longer"
                 ));
             }
-            if !(*ess >= self.settings.target_ess) {
+            if ess.is_nan() || *ess < self.settings.target_ess {
                 warnings.push(format!(
                     "{name}: bulk ESS {ess:.0} < --ess {}: run longer (--max-evaluations)",
                     self.settings.target_ess

@@ -111,7 +111,7 @@ pub fn ess_of(chains: &[Vec<f64>]) -> f64 {
     if m > 1 {
         var_plus += var(&chains.iter().map(|c| mean(c)).collect::<Vec<_>>());
     }
-    if !(var_plus > 0.0) {
+    if var_plus.is_nan() || var_plus <= 0.0 {
         return f64::NAN;
     }
     let rho_at = |lag: usize| 1.0 - (mean_var - acov_mean(lag)) / var_plus;

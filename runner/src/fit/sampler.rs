@@ -62,7 +62,7 @@ pub struct SamplerSettings {
 impl SamplerSettings {
     /// Checks the settings; `dim` is the number of sampled parameters.
     pub fn check(&self, dim: usize) -> Result<()> {
-        if self.walkers < 4 || self.walkers % 2 != 0 {
+        if self.walkers < 4 || !self.walkers.is_multiple_of(2) {
             return Err(Error::msg(format!(
                 "--walkers {}: use an even number, at least 4",
                 self.walkers
@@ -73,7 +73,7 @@ impl SamplerSettings {
                 "nothing to fit: the spec has no parameter that is not `fixed`",
             ));
         }
-        if !(self.target_ess > 0.0) {
+        if self.target_ess.is_nan() || self.target_ess <= 0.0 {
             return Err(Error::msg(format!(
                 "--ess {}: must be > 0",
                 self.target_ess
@@ -296,7 +296,7 @@ where
                 chain.log_likelihood.push(w.eval.log_likelihood);
                 chain.log_prior.push(w.eval.log_prior);
             }
-            if kept % stride == 0 {
+            if kept.is_multiple_of(stride) {
                 chain.payloads.push((
                     kept,
                     walkers.iter().map(|w| w.eval.payload.clone()).collect(),

@@ -110,7 +110,7 @@ impl Stream {
                 let col = table.column(&name)?;
                 let sds = table.numbers(col)?;
                 for (i, (v, s)) in values.iter().zip(&sds).enumerate() {
-                    if !v.is_nan() && !(*s > 0.0) {
+                    if !v.is_nan() && (s.is_nan() || *s <= 0.0) {
                         return Err(table.bad(i, col, "must be a standard deviation > 0"));
                     }
                 }
@@ -140,7 +140,9 @@ impl Stream {
             if column != "intercept" {
                 return true;
             }
-            let method = table.column("method").map(|c| table.cell(i, c) == KEELING_METHOD);
+            let method = table
+                .column("method")
+                .map(|c| table.cell(i, c) == KEELING_METHOD);
             let unflagged = table.column("flags").map(|c| table.cell(i, c).is_empty());
             method.unwrap_or(true) && unflagged.unwrap_or(true)
         };
