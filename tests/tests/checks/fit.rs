@@ -579,3 +579,70 @@ fn bad_fit_input_is_located() {
     assert!(e.contains("error.gpp") && e.contains("no stream"), "{e}");
     assert!(!out.exists());
 }
+
+#[test]
+fn posterior_ensemble_members_are_posterior_draws() {
+    // `ensemble --posterior` (docs/fit.md): every member's parameters are one row of posterior.csv;
+    // a folder without a posterior is refused with its path (common practice).
+    let tmp = tempfile::tempdir().unwrap();
+    let site = demo_site(tmp.path());
+    let spec = tmp.path().join("spec.toml");
+    fs::write(&spec, LEAKINESS_PRIOR).unwrap();
+    let obs = tmp.path().join("obs.csv");
+    fs::write(&obs, "date,discrimination,sd\n2025-01-05,9.1,0.5\n").unwrap();
+    let fit = tmp.path().join("fit");
+    run(&fit_args(p(&site), p(&spec), p(&obs), p(&fit), "2")).unwrap();
+    let ens = tmp.path().join("ens");
+    run(&[
+        "ensemble",
+        p(&site),
+        "--posterior",
+        p(&fit),
+        "--members",
+        "5",
+        "--seed",
+        "1",
+        "--out",
+        p(&ens),
+        "--from",
+        FROM,
+        "--to",
+        TO,
+        "--quiet",
+    ])
+    .unwrap();
+    let (h, post) = read_csv(&fit.join("posterior.csv"));
+    let c = h
+        .iter()
+        .position(|x| x == "vegetation.c4.leakiness")
+        .unwrap();
+    let draws: Vec<&str> = post.iter().map(|r| r[c].as_str()).collect();
+    let (h, members) = read_csv(&ens.join("members.csv"));
+    let m = h
+        .iter()
+        .position(|x| x == "vegetation.c4.leakiness")
+        .unwrap();
+    assert!(!members.is_empty());
+    for r in &members {
+        assert!(
+            draws.contains(&r[m].as_str()),
+            "{} is not a posterior draw",
+            r[m]
+        );
+    }
+    let e = run(&[
+        "ensemble",
+        p(&site),
+        "--posterior",
+        p(tmp.path()),
+        "--members",
+        "2",
+        "--seed",
+        "1",
+        "--out",
+        p(&tmp.path().join("x")),
+        "--quiet",
+    ])
+    .unwrap_err();
+    assert!(e.contains("posterior.csv"), "{e}");
+}
