@@ -42,6 +42,8 @@ pub enum Command {
     Merge(MergeArgs),
     /// Writes a Slurm submission script: an array job over the shards and a merge job after it.
     ClusterScript(ClusterScriptArgs),
+    /// Calibrates a site's parameters to observations: the posterior by an ensemble sampler.
+    Fit(FitArgs),
 }
 
 /// `isodisc run`.
@@ -341,8 +343,16 @@ pub struct EnsembleArgs {
     /// The site file (TOML).
     pub site: PathBuf,
     /// The ensemble spec (TOML; see docs/ensembles.md).
-    #[arg(long)]
-    pub spec: PathBuf,
+    #[arg(
+        long,
+        required_unless_present = "posterior",
+        conflicts_with = "posterior"
+    )]
+    pub spec: Option<PathBuf>,
+    /// Draw the members from the posterior of `isodisc fit --out DIR` (its posterior.csv)
+    /// instead of a spec.
+    #[arg(long, value_name = "DIR")]
+    pub posterior: Option<PathBuf>,
     /// Number of members.
     #[arg(long)]
     pub members: usize,
@@ -467,4 +477,73 @@ pub struct PeriodArgs {
     /// Last day to run, YYYY-MM-DD, inclusive.
     #[arg(long)]
     pub to: Option<String>,
+}
+
+/// The likelihood of `isodisc fit`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum LikelihoodArg {
+    /// Normal errors.
+    Gaussian,
+    /// Student-t errors with --dof degrees of freedom (heavy tails: outliers weigh less).
+    StudentT,
+}
+
+/// `isodisc fit`.
+#[derive(Debug, clap::Args)]
+pub struct FitArgs {
+    /// The site file (TOML).
+    pub site: PathBuf,
+    /// The priors: an ensemble spec (TOML; see docs/ensembles.md); `error.<variable>` adds a
+    /// model-error SD for that variable's streams (see docs/fit.md).
+    #[arg(long)]
+    pub spec: PathBuf,
+    /// An observation file, one per data stream (repeatable; paired in order with --variable).
+    #[arg(long, value_name = "FILE.csv", required = true)]
+    pub observed: Vec<PathBuf>,
+    /// The daily.csv column each --observed file measures, e.g. d13c_respiration (repeatable).
+    #[arg(long, value_name = "NAME", required = true)]
+    pub variable: Vec<String>,
+    /// The observations' standard deviation, one per stream in order (unit of the variable)
+    /// [default: the file's SD column].
+    #[arg(long, value_name = "SD")]
+    pub sd: Vec<f64>,
+    /// The observations' error distribution.
+    #[arg(long, value_enum, default_value = "gaussian")]
+    pub likelihood: LikelihoodArg,
+    /// Degrees of freedom of --likelihood student-t.
+    #[arg(long, value_name = "N")]
+    pub dof: Option<f64>,
+    /// Seed of the walkers: the same seed gives the same draws on any number of threads.
+    #[arg(long)]
+    pub seed: u64,
+    /// Folder for the results (created; an existing non-empty folder needs --overwrite).
+    #[arg(long)]
+    pub out: PathBuf,
+    /// Walkers of the ensemble sampler, even [default: 2 x parameters + 2, at least 8].
+    #[arg(long)]
+    pub walkers: Option<usize>,
+    /// Steps of every walker discarded before draws are kept.
+    #[arg(long, value_name = "STEPS", default_value_t = 200)]
+    pub warmup: usize,
+    /// Stop when the smallest bulk effective sample size reaches this.
+    #[arg(long, value_name = "N", default_value_t = 400.0)]
+    pub ess: f64,
+    /// Stop before the model runs (evaluations) exceed this, whatever the ESS.
+    #[arg(long, value_name = "N", default_value_t = 20_000)]
+    pub max_evaluations: u64,
+    /// Most posterior draws kept for the predictive quantiles (thinned evenly).
+    #[arg(long, value_name = "N", default_value_t = 400)]
+    pub predictive: usize,
+    /// Worker threads [default: one per core].
+    #[arg(long)]
+    pub threads: Option<usize>,
+    /// The days to run.
+    #[command(flatten)]
+    pub period: PeriodArgs,
+    /// Replace the results folder if it exists.
+    #[arg(long)]
+    pub overwrite: bool,
+    /// No progress bar and no summary.
+    #[arg(long)]
+    pub quiet: bool,
 }

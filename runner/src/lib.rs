@@ -7,6 +7,7 @@ pub mod cli;
 pub mod commands;
 pub mod ensemble;
 pub mod error;
+pub mod fit;
 pub mod forcing;
 pub mod output;
 pub mod priors;
@@ -50,5 +51,6 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::ClusterScript(args) => {
             commands::cluster::ClusterScriptPlan::from_args(&args)?.run()
         }
+        Command::Fit(args) => commands::fit::FitPlan::from_args(&args)?.run(),
     }
 }

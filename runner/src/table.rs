@@ -91,6 +91,11 @@ impl CsvTable {
         ))
     }
 
+    /// The name of column `col`.
+    pub(crate) fn header_name(&self, col: usize) -> &str {
+        &self.header[col]
+    }
+
     /// The text of row `row` (0 = first data row), column `col`.
     pub(crate) fn cell(&self, row: usize, col: usize) -> &str {
         &self.rows[row][col]

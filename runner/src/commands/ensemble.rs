@@ -141,6 +141,8 @@ pub(crate) fn write_ensemble_files(
 pub struct EnsemblePlan {
     site: Site,
     spec: EnsembleSpec,
+    /// With --posterior: the posterior's draws (rows of posterior.csv, spec order).
+    draws: Option<Vec<Vec<f64>>>,
     members: usize,
     seed: u64,
     out: PathBuf,
@@ -155,7 +157,14 @@ impl EnsemblePlan {
     /// Reads and validates the site, the spec and the flags before any work starts.
     pub fn from_args(args: &EnsembleArgs) -> Result<Self> {
         let site = Site::load(&args.site)?;
-        let spec = EnsembleSpec::load(&args.spec)?;
+        let (spec, draws) = match (&args.spec, &args.posterior) {
+            (Some(spec), _) => (EnsembleSpec::load(spec)?, None),
+            (None, Some(dir)) => {
+                let (spec, draws) = read_posterior(dir)?;
+                (spec, Some(draws))
+            }
+            (None, None) => return Err(Error::msg("give --spec or --posterior")),
+        };
         check_spec_paths(&spec, &site)?;
         check_members(args.members)?;
         check_threads(args.threads)?;
@@ -165,6 +174,7 @@ impl EnsemblePlan {
         Ok(Self {
             site,
             spec,
+            draws,
             members: args.members,
             seed: args.seed,
             out: args.out.clone(),
@@ -196,8 +206,8 @@ impl EnsemblePlan {
         } else {
             ProgressBar::new(self.members as u64)
         };
-        let members = pool.install(|| {
-            run_members(
+        let members = pool.install(|| match &self.draws {
+            None => run_members(
                 &self.site,
                 &steps,
                 report.step_minutes,
@@ -205,7 +215,17 @@ impl EnsemblePlan {
                 self.members,
                 self.seed,
                 &progress,
-            )
+            ),
+            Some(draws) => run_posterior_members(
+                &self.site,
+                &steps,
+                report.step_minutes,
+                &self.spec,
+                draws,
+                self.members,
+                self.seed,
+                &progress,
+            ),
         });
         progress.finish_and_clear();
         drop(steps);
@@ -227,6 +247,9 @@ impl EnsemblePlan {
                 "steps": report.steps, "first_step": report.first.map(|t| t.to_string()),
                 "last_step": report.last.map(|t| t.to_string())},
             "spec": spec_json(&self.spec),
+            "posterior": self.draws.as_ref().map(|d| serde_json::json!({
+                "file": self.spec.path.display().to_string(), "draws": d.len(),
+                "members": "member i takes the draw of index u64 % draws, u64 from the stream (seed, i)"})),
             "members": self.members,
             "seed": self.seed,
             "threads": pool.current_num_threads(),
@@ -248,4 +271,119 @@ impl EnsemblePlan {
             self.out.display()
         ))
     }
+}
+
+/// Reads `DIR/posterior.csv` of `isodisc fit`: its site-parameter columns (those between `step`
+/// and `log_likelihood`, model-error SDs `error.*` left out) as a spec whose every parameter is
+/// uniform over the draws' range (only for the members' table and the sensitivities), and the
+/// draws.
+fn read_posterior(dir: &Path) -> Result<(EnsembleSpec, Vec<Vec<f64>>)> {
+    let path = dir.join("posterior.csv");
+    let table = crate::table::CsvTable::read(&path)?;
+    let text = std::fs::read_to_string(&path)?;
+    let header: Vec<String> = text
+        .lines()
+        .next()
+        .unwrap_or_default()
+        .split(',')
+        .map(|h| h.trim().to_string())
+        .collect();
+    if header.get(..2) != Some(&["walker".to_string(), "step".to_string()][..])
+        || !header.iter().any(|h| h == "log_likelihood")
+    {
+        return Err(Error::msg(format!(
+            "{}: not a posterior of `isodisc fit` (header walker,step,...,log_likelihood,log_prior)",
+            path.display()
+        )));
+    }
+    let names: Vec<&String> = header[2..]
+        .iter()
+        .take_while(|h| *h != "log_likelihood")
+        .filter(|h| !h.starts_with(crate::commands::fit::ERROR_PREFIX))
+        .collect();
+    let columns = names
+        .iter()
+        .map(|n| table.numbers(table.column(n)?))
+        .collect::<Result<Vec<_>>>()?;
+    let rows = columns.first().map_or(0, Vec::len);
+    if rows == 0 || names.is_empty() {
+        return Err(Error::msg(format!("{}: no draws", path.display())));
+    }
+    let mut params = Vec::new();
+    for (n, c) in names.iter().zip(&columns) {
+        let (lo, hi) = c
+            .iter()
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| {
+                (a.min(*v), b.max(*v))
+            });
+        if !lo.is_finite() || !hi.is_finite() {
+            return Err(Error::msg(format!(
+                "{}: column {n} has empty cells",
+                path.display()
+            )));
+        }
+        params.push(crate::ensemble::spec::ParamSpec {
+            path: (*n).clone(),
+            dist: if lo < hi {
+                crate::ensemble::spec::Dist::Uniform { min: lo, max: hi }
+            } else {
+                crate::ensemble::spec::Dist::Fixed { value: lo }
+            },
+            line: 1,
+        });
+    }
+    let draws = (0..rows)
+        .map(|i| columns.iter().map(|c| c[i]).collect())
+        .collect();
+    let spec = EnsembleSpec {
+        path,
+        text,
+        sampling: crate::ensemble::spec::Sampling::Random,
+        params,
+    };
+    Ok((spec, draws))
+}
+
+/// Stream tag of the posterior draws' choice.
+const TAG_POSTERIOR: u64 = 0x706f_7374; // "post"
+
+/// Runs `members` members, member i with the posterior draw chosen by the stream (seed, i), in
+/// the current rayon pool; results in member order whatever the thread count.
+#[allow(clippy::too_many_arguments)]
+fn run_posterior_members(
+    site: &Site,
+    steps: &[ForcingStep],
+    step_minutes: u32,
+    spec: &EnsembleSpec,
+    draws: &[Vec<f64>],
+    members: usize,
+    seed: u64,
+    progress: &ProgressBar,
+) -> Vec<Member> {
+    use indicatif::ParallelProgressIterator;
+    use rand::Rng;
+    use rayon::prelude::*;
+    (0..members)
+        .into_par_iter()
+        .progress_with(progress.clone())
+        .map(|i| {
+            let mut rng = crate::ensemble::sample::stream(seed, TAG_POSTERIOR, i as u64);
+            let params = draws[(rng.next_u64() % draws.len() as u64) as usize].clone();
+            let status = match crate::ensemble::member_site(site, spec, &params) {
+                Err(e) => MemberStatus::Invalid(e.chain()),
+                Ok(s) => match crate::simulate::simulate(
+                    &s,
+                    steps.iter().cloned().map(Ok),
+                    step_minutes,
+                    &mut crate::simulate::NoSink,
+                ) {
+                    Ok(sim) => {
+                        MemberStatus::Ok(crate::ensemble::MemberPeriods::from_simulated(&sim))
+                    }
+                    Err(e) => MemberStatus::Failed(e.chain()),
+                },
+            };
+            Member { params, status }
+        })
+        .collect()
 }

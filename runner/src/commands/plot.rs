@@ -188,10 +188,11 @@ impl PlotPlan {
     pub fn from_args(args: &PlotArgs) -> Result<Self> {
         if !args.dir.join("daily.csv").is_file()
             && !args.dir.join("quantiles_monthly.csv").is_file()
+            && !args.dir.join("posterior.csv").is_file()
         {
             return Err(Error::msg(format!(
-                "{}: neither daily.csv nor quantiles_monthly.csv here; give the folder written by \
-                 `isodisc run --out` or `isodisc ensemble --out`",
+                "{}: neither daily.csv, quantiles_monthly.csv nor posterior.csv here; give the \
+                 folder written by `isodisc run --out`, `isodisc ensemble --out` or `isodisc fit --out`",
                 args.dir.display()
             )));
         }
@@ -222,6 +223,7 @@ impl PlotPlan {
         let mut inputs = vec![
             self.dir.join("daily.csv"),
             self.dir.join("quantiles_monthly.csv"),
+            self.dir.join("posterior.csv"),
         ];
         if let Some((fits, samples, _)) = &self.keeling {
             inputs.extend([fits.clone(), samples.clone()]);
@@ -269,6 +271,9 @@ impl PlotPlan {
             for (variable, fig) in ensemble_figures(&CsvTable::read(&quantiles)?)? {
                 pages.push((format!("ensemble_{}.svg", file_stem(&variable)), fig.into()));
             }
+        }
+        if self.dir.join("posterior.csv").is_file() {
+            pages.extend(fit_pages(&self.dir)?);
         }
         pages
             .into_iter()
@@ -1313,4 +1318,172 @@ fn marker<DB: DrawingBackend>(
         )
         .into_dyn(),
     }
+}
+
+/// The figures of a fit folder (`isodisc fit --out`): the walkers' traces and the marginal
+/// densities of every parameter (one page each, a panel per parameter), and each stream's
+/// posterior-predictive band over its observations.
+fn fit_pages(dir: &Path) -> Result<Vec<(String, Page)>> {
+    let post = CsvTable::read(&dir.join("posterior.csv"))?;
+    let walker = post.numbers(post.column("walker")?)?;
+    let step = post.numbers(post.column("step")?)?;
+    let first = post.column("step")? + 1;
+    let last = post.column("log_likelihood")?;
+    let walkers = walker.iter().fold(0.0f64, |a, w| a.max(*w)) as usize + 1;
+    let (s0, s1) = step
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), s| {
+            (a.min(*s), b.max(*s))
+        });
+    let mut traces = Vec::new();
+    let mut marginals = Vec::new();
+    for col in first..last {
+        let name = post.header_name(col).to_string();
+        let v = post.numbers(col)?;
+        let series = (0..walkers)
+            .map(|w| {
+                let pts = (0..v.len())
+                    .filter(|&i| walker[i] as usize == w)
+                    .map(|i| (step[i], v[i]))
+                    .collect();
+                let mut s = Series::new(
+                    format!("walker {w}"),
+                    pts,
+                    COLOURS[w % 5],
+                    Mark::line(w % 4),
+                );
+                s.in_legend = false;
+                s
+            })
+            .collect();
+        traces.push(Figure {
+            title: format!("Trace: {name}"),
+            x_label: "step".to_string(),
+            y_label: name.clone(),
+            x_axis: XAxis::Linear(s0, s1.max(s0 + 1.0)),
+            note: Some(format!("{walkers} walkers, kept steps only")),
+            bands: Vec::new(),
+            series,
+        });
+        // A histogram of 30 bins, as a density (integrates to 1), drawn as a stepped line.
+        let (lo, hi) = v
+            .iter()
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), x| {
+                (a.min(*x), b.max(*x))
+            });
+        let bins = 30usize;
+        let width = ((hi - lo) / bins as f64).max(1e-12);
+        let mut counts = vec![0usize; bins];
+        for x in &v {
+            counts[(((x - lo) / width) as usize).min(bins - 1)] += 1;
+        }
+        let mut pts = Vec::new();
+        for (k, c) in counts.iter().enumerate() {
+            let d = *c as f64 / (v.len() as f64 * width);
+            pts.push((lo + k as f64 * width, d));
+            pts.push((lo + (k + 1) as f64 * width, d));
+        }
+        marginals.push(Figure {
+            title: format!("Posterior: {name}"),
+            x_label: name.clone(),
+            y_label: "density".to_string(),
+            x_axis: XAxis::Linear(lo, hi.max(lo + 1e-9)),
+            note: Some(format!("{} draws, 30 bins", v.len())),
+            bands: Vec::new(),
+            series: vec![Series::new("posterior", pts, COLOURS[1], Mark::line(0))],
+        });
+    }
+    let mut pages = vec![
+        (
+            "fit_traces.svg".to_string(),
+            Page {
+                title: Some("Walker traces".to_string()),
+                panels: traces,
+            },
+        ),
+        (
+            "fit_marginals.svg".to_string(),
+            Page {
+                title: Some("Marginal posterior densities".to_string()),
+                panels: marginals,
+            },
+        ),
+    ];
+    let mut files: Vec<PathBuf> = std::fs::read_dir(dir)?
+        .flatten()
+        .map(|e| e.path())
+        .filter(|p| {
+            p.file_name()
+                .and_then(|n| n.to_str())
+                .is_some_and(|n| n.starts_with("predictive_") && n.ends_with(".csv"))
+        })
+        .collect();
+    files.sort();
+    for f in files {
+        let stem = f
+            .file_stem()
+            .and_then(|s| s.to_str())
+            .unwrap_or("predictive")
+            .to_string();
+        let variable = stem.trim_start_matches("predictive_").to_string();
+        let t = CsvTable::read(&f)?;
+        let (x, x_axis) = if t.has("month") {
+            let col = t.column("month")?;
+            let labels: Vec<String> = (0..t.numbers(t.column("observed")?)?.len())
+                .map(|i| t.cell(i, col).to_string())
+                .collect();
+            (
+                (0..labels.len()).map(|i| i as f64).collect::<Vec<_>>(),
+                XAxis::Categories(labels),
+            )
+        } else {
+            let days: Vec<f64> = t
+                .time_column()?
+                .iter()
+                .map(|d| d.date().days() as f64)
+                .collect();
+            (days, XAxis::Days)
+        };
+        let get = |c: &str| t.column(c).and_then(|i| t.numbers(i));
+        let (obs, p05, p50, p95) = (
+            get("observed")?,
+            get("model_p05")?,
+            get("model_p50")?,
+            get("model_p95")?,
+        );
+        pages.push((
+            format!("fit_{}.svg", file_stem(&stem)),
+            Figure {
+                title: format!("Posterior predictive: {}", axis_title(&variable, "day")),
+                x_label: String::new(),
+                y_label: axis_title(&variable, "day"),
+                x_axis,
+                note: Some("band: 5–95 % of the model over posterior draws".to_string()),
+                bands: vec![Band {
+                    label: "model 5–95 %".to_string(),
+                    x: x.clone(),
+                    low: p05,
+                    high: p95,
+                    colour: COLOURS[1],
+                    opacity: 0.3,
+                }],
+                series: vec![
+                    Series::new(
+                        "model median",
+                        zip_points(&x, &p50),
+                        COLOURS[1],
+                        Mark::line(0),
+                    ),
+                    Series::new(
+                        "observed",
+                        zip_points(&x, &obs),
+                        COLOURS[0],
+                        Mark::points(0),
+                    ),
+                ],
+            }
+            .into(),
+        ));
+    }
+    Ok(pages)
 }

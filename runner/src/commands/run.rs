@@ -199,7 +199,22 @@ impl RunPlan {
         })
     }
 
-    fn run_into(&self, dir: &Path, started: Instant) -> Result<(String, Vec<String>)> {
+    /// A run of an already loaded (and possibly changed) site over `period`, for commands that
+    /// write a run inside their own folder (`isodisc fit`'s `best/`).
+    pub(crate) fn for_site(site: Site, out: PathBuf, period: crate::commands::Period) -> Self {
+        Self {
+            site,
+            out,
+            from: period.0,
+            to: period.1,
+            overwrite: false,
+            quiet: true,
+            command: std::env::args().collect::<Vec<_>>().join(" "),
+        }
+    }
+
+    /// Runs the site and writes the files into `dir` (which exists).
+    pub(crate) fn run_into(&self, dir: &Path, started: Instant) -> Result<(String, Vec<String>)> {
         let site = &self.site;
         let mut reader = ForcingReader::open(
             &site.file.forcing,

@@ -20,12 +20,12 @@ fn mix(mut z: u64) -> u64 {
 }
 
 /// The generator of stream `index` of kind `tag` under `seed`.
-fn stream(seed: u64, tag: u64, index: u64) -> StdRng {
+pub(crate) fn stream(seed: u64, tag: u64, index: u64) -> StdRng {
     StdRng::seed_from_u64(mix(mix(seed ^ tag).wrapping_add(index)))
 }
 
 /// A uniform number strictly inside (0, 1) (53 random bits, centred in their cell).
-fn open_unit(rng: &mut StdRng) -> f64 {
+pub(crate) fn open_unit(rng: &mut StdRng) -> f64 {
     ((rng.next_u64() >> 11) as f64 + 0.5) / (1u64 << 53) as f64
 }
 

@@ -5,6 +5,7 @@ mod canopy_water;
 mod common;
 mod docs;
 mod ensemble;
+mod fit;
 mod golden;
 mod isotopes_leaf;
 mod observations;
