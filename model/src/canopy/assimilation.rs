@@ -12,8 +12,8 @@
 //! compensation point) books neither GPP nor weight for Δ.
 
 use crate::canopy::radiation::{TwoLeafCanopy, TwoLeafLight};
-use crate::error::{Result, check_range};
-use crate::leaf::{LeafConditions, LeafModel, LeafOptions, LeafState};
+use crate::error::{Result, check_input, check_range};
+use crate::leaf::{LeafConditions, LeafModel, LeafOptions, LeafState, LeafTemperature};
 
 /// Settings of the canopy of one pathway.
 #[derive(Debug, Clone, PartialEq)]
@@ -99,6 +99,59 @@ impl CanopyFlux {
     }
 }
 
+/// The light of one canopy over one step: the two-leaf partition and the capacity weights of its
+/// sunlit and shaded leaves, with the inputs they came from. It depends on the canopy's optics,
+/// kn, LAI, the light above the canopy and the Sun's height only, so steps or runs that share
+/// those can share it (see [`canopy_step_lit`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CanopyLight {
+    radiation: TwoLeafCanopy,
+    kn: f64,
+    ppfd_beam_umol_m2_s: f64,
+    ppfd_diffuse_umol_m2_s: f64,
+    cos_zenith: f64,
+    lai_m2_m2: f64,
+    light: TwoLeafLight,
+    capacity: (f64, f64),
+}
+
+impl CanopyLight {
+    /// The light of the canopy `settings` under the drivers `d` (their leaf conditions aside).
+    pub fn new(settings: &CanopySettings, d: &CanopyDrivers) -> Result<Self> {
+        let light = settings.radiation.partition(
+            d.ppfd_beam_umol_m2_s,
+            d.ppfd_diffuse_umol_m2_s,
+            d.cos_zenith,
+            d.lai_m2_m2,
+        )?;
+        let capacity =
+            settings
+                .radiation
+                .capacity_fractions(d.lai_m2_m2, d.cos_zenith, settings.kn)?;
+        Ok(Self {
+            radiation: settings.radiation,
+            kn: settings.kn,
+            ppfd_beam_umol_m2_s: d.ppfd_beam_umol_m2_s,
+            ppfd_diffuse_umol_m2_s: d.ppfd_diffuse_umol_m2_s,
+            cos_zenith: d.cos_zenith,
+            lai_m2_m2: d.lai_m2_m2,
+            light,
+            capacity,
+        })
+    }
+
+    /// Whether this is the light of `settings` under `d` (same inputs, bit for bit).
+    pub fn fits(&self, settings: &CanopySettings, d: &CanopyDrivers) -> bool {
+        let same = |a: f64, b: f64| a.to_bits() == b.to_bits();
+        self.radiation == settings.radiation
+            && same(self.kn, settings.kn)
+            && same(self.ppfd_beam_umol_m2_s, d.ppfd_beam_umol_m2_s)
+            && same(self.ppfd_diffuse_umol_m2_s, d.ppfd_diffuse_umol_m2_s)
+            && same(self.cos_zenith, d.cos_zenith)
+            && same(self.lai_m2_m2, d.lai_m2_m2)
+    }
+}
+
 /// Runs the canopy of one pathway over one step.
 pub fn canopy_step(
     leaf: &LeafModel,
@@ -106,19 +159,36 @@ pub fn canopy_step(
     settings: &CanopySettings,
     d: &CanopyDrivers,
 ) -> Result<CanopyFlux> {
+    canopy_step_lit(leaf, options, settings, d, None)
+}
+
+/// [`canopy_step`] with the canopy's light computed beforehand: `light` is used when it
+/// [fits](CanopyLight::fits) these settings and drivers, and computed afresh otherwise, so the
+/// result is the same either way.
+///
+/// Both leaf classes share the leaf's temperature terms, and a class without light is not
+/// solved where the dark leaf has a closed form ([`LeafModel::dark`]): the fluxes are those of
+/// the solver to the bit.
+pub fn canopy_step_lit(
+    leaf: &LeafModel,
+    options: &LeafOptions,
+    settings: &CanopySettings,
+    d: &CanopyDrivers,
+    light: Option<&CanopyLight>,
+) -> Result<CanopyFlux> {
     if d.lai_m2_m2 <= 0.0 {
         return Ok(CanopyFlux::empty());
     }
-    let light: TwoLeafLight = settings.radiation.partition(
-        d.ppfd_beam_umol_m2_s,
-        d.ppfd_diffuse_umol_m2_s,
-        d.cos_zenith,
-        d.lai_m2_m2,
-    )?;
-    let (cap_sun, cap_shade) =
-        settings
-            .radiation
-            .capacity_fractions(d.lai_m2_m2, d.cos_zenith, settings.kn)?;
+    let own;
+    let lit = match light {
+        Some(l) if l.fits(settings, d) => l,
+        _ => {
+            own = CanopyLight::new(settings, d)?;
+            &own
+        }
+    };
+    let light = &lit.light;
+    let (cap_sun, cap_shade) = lit.capacity;
     let classes = [
         (
             light.lai_sunlit_m2_m2,
@@ -137,6 +207,8 @@ pub fn canopy_step(
         ..CanopyFlux::empty()
     };
     let (mut w_sum, mut wd_sum, mut wc_sum) = (0.0, 0.0, 0.0);
+    // The conditions differ between the classes only in PPFD: they are validated in full once.
+    let mut terms: Option<LeafTemperature> = None;
     for (lai, apar_leaf, capacity) in classes {
         if lai <= 1e-9 {
             continue;
@@ -146,17 +218,36 @@ pub fn canopy_step(
             ppfd_umol_m2_s: (apar_leaf / settings.leaf_absorptance).min(3000.0),
             ..d.leaf
         };
-        let s: LeafState = scaled.solve(options, &c)?;
-        out.a_net_umol_m2_s += lai * s.a_net;
-        out.rd_umol_m2_s += lai * s.rd;
-        out.gs_canopy_mol_m2_s += lai * s.g_s;
-        if s.a_net > 0.0 && s.discrimination.is_finite() {
-            out.gpp_umol_m2_s += lai * (s.a_net + s.rd);
-            let w = lai * s.a_net;
-            w_sum += w;
-            wd_sum += w * s.discrimination;
-            wc_sum += w * s.ci_ca;
+        if terms.is_none() {
+            c.validate()?;
+            terms = Some(leaf.temperature_terms(options, &c));
+        } else {
+            let (name, _, lo, hi) = LeafConditions::RANGES[1];
+            check_input(name, c.ppfd_umol_m2_s, lo, hi)?;
         }
+        let tt = terms.as_ref().expect("set above");
+        let dark = if c.ppfd_umol_m2_s == 0.0 {
+            scaled.dark(options, &c, tt)
+        } else {
+            None
+        };
+        let (a_net, rd, g_s) = match dark {
+            Some(flux) => flux,
+            None => {
+                let s: LeafState = scaled.solve_at(options, &c, tt)?;
+                if s.a_net > 0.0 && s.discrimination.is_finite() {
+                    out.gpp_umol_m2_s += lai * (s.a_net + s.rd);
+                    let w = lai * s.a_net;
+                    w_sum += w;
+                    wd_sum += w * s.discrimination;
+                    wc_sum += w * s.ci_ca;
+                }
+                (s.a_net, s.rd, s.g_s)
+            }
+        };
+        out.a_net_umol_m2_s += lai * a_net;
+        out.rd_umol_m2_s += lai * rd;
+        out.gs_canopy_mol_m2_s += lai * g_s;
     }
     if w_sum > 0.0 {
         out.discrimination_permil = wd_sum / w_sum;
