@@ -255,3 +255,104 @@ pub fn canopy_step_lit(
     }
     Ok(out)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::canopy::radiation::TwoLeafCanopy;
+    use crate::leaf::{C3Params, C4Params, Pathway};
+
+    /// Leaves whose dark state has a closed form, and one (C3, finite gm, g0 > 0) that has none.
+    fn leaves() -> Vec<LeafModel> {
+        let c3 = |o: &[(&str, f64)]| LeafModel::C3(C3Params::with_overrides(o.to_vec()).unwrap());
+        let c4 = |o: &[(&str, f64)]| LeafModel::C4(C4Params::with_overrides(o.to_vec()).unwrap());
+        vec![
+            c3(&[]),
+            c3(&[("gb", 1.5)]),
+            c3(&[("gm", f64::INFINITY)]),
+            c3(&[("gm", f64::INFINITY), ("g0", 0.02), ("gb", 0.8)]),
+            c3(&[("g0", 0.02)]),
+            c3(&[("tpu25", 8.0), ("rd25", 0.0)]),
+            c4(&[]),
+            c4(&[("g0", 0.03), ("gb", 2.0)]),
+            c4(&[("rd25", 0.0), ("g0", 0.01)]),
+        ]
+    }
+
+    /// The dark shortcut gives the root search's A, Rd and gs bit for bit (the promise of
+    /// `LeafModel::dark`; common practice: compare a shortcut with the path it replaces).
+    #[test]
+    fn dark_leaves_match_the_solver_to_the_bit() {
+        let options = LeafOptions::default();
+        let mut closed = 0;
+        for leaf in leaves() {
+            for t in [-1.5, 4.0, 17.3, 29.9, 41.0] {
+                for (ca, vpd, beta) in [(425.0, 0.4, 1.0), (380.0, 2.5, 0.3), (900.0, 0.05, 0.0)] {
+                    let c = LeafConditions {
+                        t_leaf_c: t,
+                        ppfd_umol_m2_s: 0.0,
+                        vpd_kpa: vpd,
+                        ca_umol_mol: ca,
+                        soil_beta: beta,
+                        t_growth_c: t + 3.0,
+                        ..LeafConditions::default()
+                    };
+                    for scale in [1.0, 0.37] {
+                        let scaled = leaf.with_capacity_scaled(scale);
+                        let tt = leaf.temperature_terms(&options, &c);
+                        let s = scaled.solve(&options, &c).unwrap();
+                        if let Some((a, rd, gs)) = scaled.dark(&options, &c, &tt) {
+                            closed += 1;
+                            assert_eq!(a.to_bits(), s.a_net.to_bits(), "{leaf:?} at {c:?}");
+                            assert_eq!(rd.to_bits(), s.rd.to_bits(), "{leaf:?} at {c:?}");
+                            assert_eq!(gs.to_bits(), s.g_s.to_bits(), "{leaf:?} at {c:?}");
+                        } else {
+                            // Only a C3 leaf with finite gm and g0 > 0 needs the search.
+                            assert_eq!(scaled.pathway(), Pathway::C3);
+                            assert!(scaled.get("gm").unwrap().is_finite());
+                            assert!(scaled.get("g0").unwrap() > 0.0);
+                        }
+                    }
+                }
+            }
+        }
+        assert!(closed > 0);
+    }
+
+    /// A light computed for other drivers or another canopy is not used: the result equals
+    /// `canopy_step`'s (common practice).
+    #[test]
+    fn a_light_that_does_not_fit_is_recomputed() {
+        let options = LeafOptions::default();
+        let settings = CanopySettings::new(TwoLeafCanopy::default(), 0.3, 0.85).unwrap();
+        let other = CanopySettings::new(
+            TwoLeafCanopy::new(0.15, 0.78, 0.036, 0.6, 0.05).unwrap(),
+            0.3,
+            0.85,
+        )
+        .unwrap();
+        let d = |ppfd: f64, cos_zenith: f64, lai: f64| CanopyDrivers {
+            leaf: LeafConditions::default(),
+            ppfd_beam_umol_m2_s: 0.6 * ppfd,
+            ppfd_diffuse_umol_m2_s: 0.4 * ppfd,
+            cos_zenith,
+            lai_m2_m2: lai,
+        };
+        for leaf in leaves() {
+            let here = d(1200.0, 0.7, 2.5);
+            let expected = canopy_step(&leaf, &options, &settings, &here).unwrap();
+            for (s, drivers) in [
+                (&settings, here),
+                (&settings, d(1200.0, 0.7, 2.4)),
+                (&settings, d(1100.0, 0.7, 2.5)),
+                (&settings, d(1200.0, 0.6, 2.5)),
+                (&other, here),
+            ] {
+                let light = CanopyLight::new(s, &drivers).unwrap();
+                assert_eq!(light.fits(&settings, &here), s == &settings && drivers == here);
+                let got = canopy_step_lit(&leaf, &options, &settings, &here, Some(&light)).unwrap();
+                assert_eq!(format!("{got:?}"), format!("{expected:?}"));
+            }
+        }
+    }
+}
