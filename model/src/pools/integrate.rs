@@ -503,32 +503,48 @@ impl PoolModel {
 }
 
 /// z ← E·z for one isotope, with z = (pools, input, 0, 0, 0); writes the pools back and returns
-/// the three accumulators (the input's own row is not needed: the input is constant).
+/// the three accumulators (the input's own row is not needed: the input is constant). The
+/// default four-pool network takes a copy of the same sums with its size known when compiled.
 fn apply(e: &[f64], pools: &mut [f64], input: f64) -> [f64; 3] {
-    let n = pools.len();
-    let m = n + 4;
-    let row = |i: usize, pools: &[f64]| {
-        let row = &e[i * m..i * m + n + 1];
-        row[..n]
-            .iter()
-            .zip(pools.iter())
-            .map(|(a, b)| a * b)
-            .sum::<f64>()
-            + row[n] * input
-    };
-    let acc = [row(n + 1, pools), row(n + 2, pools), row(n + 3, pools)];
-    let mut small = [0.0; 16];
-    let mut big = Vec::new();
-    let new: &mut [f64] = if n <= small.len() {
-        &mut small[..n]
-    } else {
-        big.resize(n, 0.0);
-        &mut big
-    };
-    for (i, o) in new.iter_mut().enumerate() {
-        *o = row(i, pools);
+    match <&mut [f64; 4]>::try_from(&mut *pools) {
+        Ok(four) => apply_sized(e, four, input),
+        Err(_) => apply_any(e, pools, input),
     }
-    pools.copy_from_slice(new);
+}
+
+/// One row of E·z: Σ E[i][j]·pools[j] over the pools, plus E[i][n]·input.
+#[inline(always)]
+fn apply_row(e: &[f64], i: usize, pools: &[f64], input: f64) -> f64 {
+    let n = pools.len();
+    let row = &e[i * (n + 4)..i * (n + 4) + n + 1];
+    row[..n]
+        .iter()
+        .zip(pools.iter())
+        .map(|(a, b)| a * b)
+        .sum::<f64>()
+        + row[n] * input
+}
+
+fn apply_sized<const N: usize>(e: &[f64], pools: &mut [f64; N], input: f64) -> [f64; 3] {
+    let acc = [
+        apply_row(e, N + 1, pools, input),
+        apply_row(e, N + 2, pools, input),
+        apply_row(e, N + 3, pools, input),
+    ];
+    let new: [f64; N] = std::array::from_fn(|i| apply_row(e, i, pools, input));
+    *pools = new;
+    acc
+}
+
+fn apply_any(e: &[f64], pools: &mut [f64], input: f64) -> [f64; 3] {
+    let n = pools.len();
+    let acc = [
+        apply_row(e, n + 1, pools, input),
+        apply_row(e, n + 2, pools, input),
+        apply_row(e, n + 3, pools, input),
+    ];
+    let new: Vec<f64> = (0..n).map(|i| apply_row(e, i, pools, input)).collect();
+    pools.copy_from_slice(&new);
     acc
 }
 
