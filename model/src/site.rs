@@ -327,7 +327,13 @@ impl SiteModel {
             // to the step, which reports it only if the canopy is run.
             *slot = CanopyLight::new(
                 &v.canopy,
-                &Self::canopy_drivers(LeafConditions::default(), ppfd, diffuse_fraction, cos_zenith, lai),
+                &Self::canopy_drivers(
+                    LeafConditions::default(),
+                    ppfd,
+                    diffuse_fraction,
+                    cos_zenith,
+                    lai,
+                ),
             )
             .ok();
         }

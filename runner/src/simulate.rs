@@ -238,7 +238,11 @@ pub fn simulate(
 /// The light of every step of `steps` at `site` (None where the step is missing or its light
 /// cannot be computed; the run then computes it and reports the error in context), for
 /// [`simulate_lit`].
-pub fn step_lights(site: &Site, steps: &[ForcingStep], step_minutes: u32) -> Vec<Option<StepLight>> {
+pub fn step_lights(
+    site: &Site,
+    steps: &[ForcingStep],
+    step_minutes: u32,
+) -> Vec<Option<StepLight>> {
     let Ok(model) = SiteModel::new(site.settings.clone()) else {
         return Vec::new();
     };

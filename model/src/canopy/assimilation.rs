@@ -349,7 +349,10 @@ mod tests {
                 (&other, here),
             ] {
                 let light = CanopyLight::new(s, &drivers).unwrap();
-                assert_eq!(light.fits(&settings, &here), s == &settings && drivers == here);
+                assert_eq!(
+                    light.fits(&settings, &here),
+                    s == &settings && drivers == here
+                );
                 let got = canopy_step_lit(&leaf, &options, &settings, &here, Some(&light)).unwrap();
                 assert_eq!(format!("{got:?}"), format!("{expected:?}"));
             }
