@@ -20,7 +20,9 @@
 //! - With wind, the leaf boundary-layer conductance to H2O is gb = 1.4 × 0.147·√(u/d) mol m⁻² s⁻¹
 //!   for leaf width d, 1.4 the outdoor enhancement (Campbell & Norman 1998, from memory).
 
-use crate::canopy::assimilation::{CanopyDrivers, CanopyFlux, CanopySettings, canopy_step};
+use crate::canopy::assimilation::{
+    CanopyDrivers, CanopyFlux, CanopyLight, CanopySettings, canopy_step_lit,
+};
 use crate::canopy::radiation::diffuse_fraction_erbs;
 use crate::canopy::solar::Location;
 use crate::error::{Result, check_input, check_range};
@@ -171,6 +173,37 @@ pub struct SiteStep {
     pub t_soil_c: f64,
 }
 
+/// The light of one step at a site: the Sun's mean height, the diffuse fraction and, for each
+/// vegetation whose leaf area is known before the step (a constant or the weather's column, not
+/// the phenology), its canopy's two-leaf light. It follows from the site's location, each
+/// canopy's optics and LAI and the step's time and light only, so runs of one site over one
+/// weather that differ in nothing else (ensemble members whose parameters leave these alone) can
+/// compute it once and share it ([`SiteModel::step_lit`]).
+#[derive(Debug, Clone, PartialEq)]
+pub struct StepLight {
+    location: Location,
+    /// (year, day of year, hour start, hour end, shortwave, PPFD) as bits.
+    when: (i32, u32, u64, u64, u64, u64),
+    cos_zenith: f64,
+    diffuse_fraction: f64,
+    ppfd: f64,
+    /// Per vegetation, in the settings' order (at most one C3 and one C4).
+    canopies: [Option<CanopyLight>; 2],
+}
+
+impl StepLight {
+    fn when(d: &SiteDrivers) -> (i32, u32, u64, u64, u64, u64) {
+        (
+            d.year,
+            d.day_of_year,
+            d.hour_start.to_bits(),
+            d.hour_end.to_bits(),
+            d.sw_w_m2.to_bits(),
+            d.ppfd_umol_m2_s.to_bits(),
+        )
+    }
+}
+
 /// A site being simulated: settings and the soil-water state.
 #[derive(Debug, Clone, PartialEq)]
 pub struct SiteModel {
@@ -264,9 +297,8 @@ impl SiteModel {
         }
     }
 
-    /// Advances the site by one step.
-    pub fn step(&mut self, d: &SiteDrivers) -> Result<SiteStep> {
-        let step_s = (d.hour_end - d.hour_start) * 3600.0;
+    /// The light of the step `d` (see [`StepLight`]).
+    pub fn light(&self, d: &SiteDrivers) -> Result<StepLight> {
         let loc = &self.settings.location;
         let (cos_zenith, et) = loc.mean_cos_zenith_and_extraterrestrial_w_m2(
             d.year,
@@ -281,6 +313,79 @@ impl SiteModel {
             1.0
         };
         let ppfd = check_input("ppfd_umol_m2_s", d.ppfd_umol_m2_s, 0.0, 5000.0)?;
+        let mut canopies = [None; 2];
+        for (slot, (v, phen)) in canopies
+            .iter_mut()
+            .zip(self.settings.vegetation.iter().zip(&self.phenology))
+        {
+            let lai = match (phen, d.lai_m2_m2) {
+                (Some(_), _) => continue,
+                (None, Some(l)) => l,
+                (None, None) => v.lai_m2_m2,
+            };
+            // A canopy whose light cannot be had here (out-of-range LAI from the weather) is left
+            // to the step, which reports it only if the canopy is run.
+            *slot = CanopyLight::new(
+                &v.canopy,
+                &Self::canopy_drivers(
+                    LeafConditions::default(),
+                    ppfd,
+                    diffuse_fraction,
+                    cos_zenith,
+                    lai,
+                ),
+            )
+            .ok();
+        }
+        Ok(StepLight {
+            location: *loc,
+            when: StepLight::when(d),
+            cos_zenith,
+            diffuse_fraction,
+            ppfd,
+            canopies,
+        })
+    }
+
+    fn canopy_drivers(
+        leaf: LeafConditions,
+        ppfd: f64,
+        diffuse_fraction: f64,
+        cos_zenith: f64,
+        lai: f64,
+    ) -> CanopyDrivers {
+        CanopyDrivers {
+            leaf,
+            ppfd_beam_umol_m2_s: ppfd * (1.0 - diffuse_fraction),
+            ppfd_diffuse_umol_m2_s: ppfd * diffuse_fraction,
+            cos_zenith,
+            lai_m2_m2: lai,
+        }
+    }
+
+    /// Advances the site by one step.
+    pub fn step(&mut self, d: &SiteDrivers) -> Result<SiteStep> {
+        let light = self.light(d)?;
+        self.step_with(d, &light)
+    }
+
+    /// [`SiteModel::step`] with the step's light computed beforehand, e.g. once for many runs of
+    /// the site: a light that was not computed for this site's location and this step is
+    /// computed afresh, and so is a canopy's whose settings or LAI differ, so the result is the
+    /// same as [`SiteModel::step`]'s either way.
+    pub fn step_lit(&mut self, d: &SiteDrivers, light: &StepLight) -> Result<SiteStep> {
+        if light.location == self.settings.location && light.when == StepLight::when(d) {
+            self.step_with(d, light)
+        } else {
+            self.step(d)
+        }
+    }
+
+    fn step_with(&mut self, d: &SiteDrivers, light: &StepLight) -> Result<SiteStep> {
+        let step_s = (d.hour_end - d.hour_start) * 3600.0;
+        let (cos_zenith, diffuse_fraction, ppfd) =
+            (light.cos_zenith, light.diffuse_fraction, light.ppfd);
+        let sw = d.sw_w_m2.max(0.0);
         let beta = match &self.settings.soil {
             SoilWater::Bucket(b) => b.beta(),
             SoilWater::Observed(p) => match d.swc_m3_m3 {
@@ -312,7 +417,13 @@ impl SiteModel {
         let (mut gpp, mut gpp_c4, mut wd) = (0.0, 0.0, 0.0);
         let mut transpiration = 0.0;
         let mut lai_total = 0.0;
-        for (v, phen) in self.settings.vegetation.iter().zip(&mut self.phenology) {
+        for ((v, phen), lit) in self
+            .settings
+            .vegetation
+            .iter()
+            .zip(&mut self.phenology)
+            .zip(&light.canopies)
+        {
             let lai = match (phen, d.lai_m2_m2) {
                 (Some(p), _) => p.step(
                     (d.year, d.day_of_year),
@@ -325,11 +436,10 @@ impl SiteModel {
                 (None, None) => v.lai_m2_m2,
             };
             let leaf = match d.wind_m_s {
-                Some(u) if u.is_finite() => {
-                    let mut l = v.leaf.clone();
-                    l.set("gb", boundary_layer_h2o_from_wind(u, v.leaf_width_m))?;
-                    std::borrow::Cow::Owned(l)
-                }
+                Some(u) if u.is_finite() => std::borrow::Cow::Owned(
+                    v.leaf
+                        .with_boundary_layer(boundary_layer_h2o_from_wind(u, v.leaf_width_m))?,
+                ),
                 _ => std::borrow::Cow::Borrowed(&v.leaf),
             };
             let leaf = if cold.factor < 1.0 {
@@ -338,17 +448,12 @@ impl SiteModel {
                 leaf
             };
             let flux = if cold.factor > 0.0 {
-                canopy_step(
+                canopy_step_lit(
                     &leaf,
                     &v.options,
                     &v.canopy,
-                    &CanopyDrivers {
-                        leaf: leaf_base,
-                        ppfd_beam_umol_m2_s: ppfd * (1.0 - diffuse_fraction),
-                        ppfd_diffuse_umol_m2_s: ppfd * diffuse_fraction,
-                        cos_zenith,
-                        lai_m2_m2: lai,
-                    },
+                    &Self::canopy_drivers(leaf_base, ppfd, diffuse_fraction, cos_zenith, lai),
+                    lit.as_ref(),
                 )?
             } else {
                 CanopyFlux::empty()

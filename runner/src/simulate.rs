@@ -14,7 +14,7 @@ use isodisc_model::pools::response::T_SOIL_RANGE_C;
 use isodisc_model::pools::{
     AtmosphereHistory, Forcing, MeanDrivers, PoolModel, PoolState, StepResult,
 };
-use isodisc_model::site::{SiteDrivers, SiteModel, SiteStep};
+use isodisc_model::site::{SiteDrivers, SiteModel, SiteStep, StepLight};
 use isodisc_model::temperature::GrowthTemperature;
 
 use crate::error::{Context, Error, Result};
@@ -232,6 +232,41 @@ pub fn simulate(
     step_minutes: u32,
     sink: &mut dyn StepSink,
 ) -> Result<Simulated> {
+    simulate_lit(site, steps, step_minutes, sink, &[])
+}
+
+/// The light of every step of `steps` at `site` (None where the step is missing or its light
+/// cannot be computed; the run then computes it and reports the error in context), for
+/// [`simulate_lit`].
+pub fn step_lights(
+    site: &Site,
+    steps: &[ForcingStep],
+    step_minutes: u32,
+) -> Vec<Option<StepLight>> {
+    let Ok(model) = SiteModel::new(site.settings.clone()) else {
+        return Vec::new();
+    };
+    steps
+        .iter()
+        .map(|f| {
+            let d = drivers(site, f, step_minutes)?;
+            model.light(&d).ok()
+        })
+        .collect()
+}
+
+/// [`simulate`] with the light of step i taken from `lights[i]` where there is one (from
+/// [`step_lights`] of the same weather): the result is the same as [`simulate`]'s, since the site
+/// model recomputes any light that does not match its site and step.
+pub fn simulate_lit(
+    site: &Site,
+    steps: impl Iterator<Item = std::result::Result<ForcingStep, ForcingError>>,
+    step_minutes: u32,
+    sink: &mut dyn StepSink,
+    lights: &[Option<StepLight>],
+) -> Result<Simulated> {
+    let light = |i: usize| lights.get(i).and_then(Option::as_ref);
+    let mut index = 0usize;
     let mut model = SiteModel::new(site.settings.clone())?;
     let has = |p: Pathway| {
         site.settings
@@ -264,7 +299,16 @@ pub fn simulate(
         }
         steps.next();
         // The pools start after this year, so its leaves respire their current assimilate (e′ = e).
-        let (d, s) = site_step(site, &mut model, &f, step_minutes, &mut growth, None)?;
+        let (d, s) = site_step(
+            site,
+            &mut model,
+            &f,
+            step_minutes,
+            &mut growth,
+            None,
+            light(index),
+        )?;
+        index += 1;
         first_year.push((f, d, s));
     }
     let mut pools = Pools::start(site, &first_year, step_minutes)?;
@@ -317,7 +361,9 @@ pub fn simulate(
             step_minutes,
             &mut growth,
             substrate.get(),
+            light(index),
         )?;
+        index += 1;
         process(&f, d, s, sink)?;
     }
     if aggs[0].current.is_some() {
@@ -345,6 +391,7 @@ fn site_step(
     step_minutes: u32,
     growth: &mut GrowthTemperature,
     substrate: Option<f64>,
+    light: Option<&StepLight>,
 ) -> Result<(Option<SiteDrivers>, Option<SiteStep>)> {
     let Some(mut d) = drivers(site, f, step_minutes) else {
         return Ok((None, None));
@@ -352,7 +399,11 @@ fn site_step(
     d.t_growth_c = growth.push((d.year, d.day_of_year), d.t_air_c);
     d.d13c_leaf_substrate_permil = substrate;
     // A range error from inside the model points at the weather file's line it came from.
-    let s = model.step(&d).with_context(|| {
+    let s = match light {
+        Some(l) => model.step_lit(&d, l),
+        None => model.step(&d),
+    };
+    let s = s.with_context(|| {
         format!(
             "{}: step {} (weather file {}, line {})",
             site.path.display(),

@@ -12,8 +12,8 @@
 //! compensation point) books neither GPP nor weight for Δ.
 
 use crate::canopy::radiation::{TwoLeafCanopy, TwoLeafLight};
-use crate::error::{Result, check_range};
-use crate::leaf::{LeafConditions, LeafModel, LeafOptions, LeafState};
+use crate::error::{Result, check_input, check_range};
+use crate::leaf::{LeafConditions, LeafModel, LeafOptions, LeafState, LeafTemperature};
 
 /// Settings of the canopy of one pathway.
 #[derive(Debug, Clone, PartialEq)]
@@ -99,6 +99,59 @@ impl CanopyFlux {
     }
 }
 
+/// The light of one canopy over one step: the two-leaf partition and the capacity weights of its
+/// sunlit and shaded leaves, with the inputs they came from. It depends on the canopy's optics,
+/// kn, LAI, the light above the canopy and the Sun's height only, so steps or runs that share
+/// those can share it (see [`canopy_step_lit`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CanopyLight {
+    radiation: TwoLeafCanopy,
+    kn: f64,
+    ppfd_beam_umol_m2_s: f64,
+    ppfd_diffuse_umol_m2_s: f64,
+    cos_zenith: f64,
+    lai_m2_m2: f64,
+    light: TwoLeafLight,
+    capacity: (f64, f64),
+}
+
+impl CanopyLight {
+    /// The light of the canopy `settings` under the drivers `d` (their leaf conditions aside).
+    pub fn new(settings: &CanopySettings, d: &CanopyDrivers) -> Result<Self> {
+        let light = settings.radiation.partition(
+            d.ppfd_beam_umol_m2_s,
+            d.ppfd_diffuse_umol_m2_s,
+            d.cos_zenith,
+            d.lai_m2_m2,
+        )?;
+        let capacity =
+            settings
+                .radiation
+                .capacity_fractions(d.lai_m2_m2, d.cos_zenith, settings.kn)?;
+        Ok(Self {
+            radiation: settings.radiation,
+            kn: settings.kn,
+            ppfd_beam_umol_m2_s: d.ppfd_beam_umol_m2_s,
+            ppfd_diffuse_umol_m2_s: d.ppfd_diffuse_umol_m2_s,
+            cos_zenith: d.cos_zenith,
+            lai_m2_m2: d.lai_m2_m2,
+            light,
+            capacity,
+        })
+    }
+
+    /// Whether this is the light of `settings` under `d` (same inputs, bit for bit).
+    pub fn fits(&self, settings: &CanopySettings, d: &CanopyDrivers) -> bool {
+        let same = |a: f64, b: f64| a.to_bits() == b.to_bits();
+        self.radiation == settings.radiation
+            && same(self.kn, settings.kn)
+            && same(self.ppfd_beam_umol_m2_s, d.ppfd_beam_umol_m2_s)
+            && same(self.ppfd_diffuse_umol_m2_s, d.ppfd_diffuse_umol_m2_s)
+            && same(self.cos_zenith, d.cos_zenith)
+            && same(self.lai_m2_m2, d.lai_m2_m2)
+    }
+}
+
 /// Runs the canopy of one pathway over one step.
 pub fn canopy_step(
     leaf: &LeafModel,
@@ -106,19 +159,36 @@ pub fn canopy_step(
     settings: &CanopySettings,
     d: &CanopyDrivers,
 ) -> Result<CanopyFlux> {
+    canopy_step_lit(leaf, options, settings, d, None)
+}
+
+/// [`canopy_step`] with the canopy's light computed beforehand: `light` is used when it
+/// [fits](CanopyLight::fits) these settings and drivers, and computed afresh otherwise, so the
+/// result is the same either way.
+///
+/// Both leaf classes share the leaf's temperature terms, and a class without light is not
+/// solved where the dark leaf has a closed form ([`LeafModel::dark`]): the fluxes are those of
+/// the solver to the bit.
+pub fn canopy_step_lit(
+    leaf: &LeafModel,
+    options: &LeafOptions,
+    settings: &CanopySettings,
+    d: &CanopyDrivers,
+    light: Option<&CanopyLight>,
+) -> Result<CanopyFlux> {
     if d.lai_m2_m2 <= 0.0 {
         return Ok(CanopyFlux::empty());
     }
-    let light: TwoLeafLight = settings.radiation.partition(
-        d.ppfd_beam_umol_m2_s,
-        d.ppfd_diffuse_umol_m2_s,
-        d.cos_zenith,
-        d.lai_m2_m2,
-    )?;
-    let (cap_sun, cap_shade) =
-        settings
-            .radiation
-            .capacity_fractions(d.lai_m2_m2, d.cos_zenith, settings.kn)?;
+    let own;
+    let lit = match light {
+        Some(l) if l.fits(settings, d) => l,
+        _ => {
+            own = CanopyLight::new(settings, d)?;
+            &own
+        }
+    };
+    let light = &lit.light;
+    let (cap_sun, cap_shade) = lit.capacity;
     let classes = [
         (
             light.lai_sunlit_m2_m2,
@@ -137,6 +207,8 @@ pub fn canopy_step(
         ..CanopyFlux::empty()
     };
     let (mut w_sum, mut wd_sum, mut wc_sum) = (0.0, 0.0, 0.0);
+    // The conditions differ between the classes only in PPFD: they are validated in full once.
+    let mut terms: Option<LeafTemperature> = None;
     for (lai, apar_leaf, capacity) in classes {
         if lai <= 1e-9 {
             continue;
@@ -146,21 +218,144 @@ pub fn canopy_step(
             ppfd_umol_m2_s: (apar_leaf / settings.leaf_absorptance).min(3000.0),
             ..d.leaf
         };
-        let s: LeafState = scaled.solve(options, &c)?;
-        out.a_net_umol_m2_s += lai * s.a_net;
-        out.rd_umol_m2_s += lai * s.rd;
-        out.gs_canopy_mol_m2_s += lai * s.g_s;
-        if s.a_net > 0.0 && s.discrimination.is_finite() {
-            out.gpp_umol_m2_s += lai * (s.a_net + s.rd);
-            let w = lai * s.a_net;
-            w_sum += w;
-            wd_sum += w * s.discrimination;
-            wc_sum += w * s.ci_ca;
+        if terms.is_none() {
+            c.validate()?;
+            terms = Some(leaf.temperature_terms(options, &c));
+        } else {
+            let (name, _, lo, hi) = LeafConditions::RANGES[1];
+            check_input(name, c.ppfd_umol_m2_s, lo, hi)?;
         }
+        let tt = terms.as_ref().expect("set above");
+        let dark = if c.ppfd_umol_m2_s == 0.0 {
+            scaled.dark(options, &c, tt)
+        } else {
+            None
+        };
+        let (a_net, rd, g_s) = match dark {
+            Some(flux) => flux,
+            None => {
+                let s: LeafState = scaled.solve_at(options, &c, tt)?;
+                if s.a_net > 0.0 && s.discrimination.is_finite() {
+                    out.gpp_umol_m2_s += lai * (s.a_net + s.rd);
+                    let w = lai * s.a_net;
+                    w_sum += w;
+                    wd_sum += w * s.discrimination;
+                    wc_sum += w * s.ci_ca;
+                }
+                (s.a_net, s.rd, s.g_s)
+            }
+        };
+        out.a_net_umol_m2_s += lai * a_net;
+        out.rd_umol_m2_s += lai * rd;
+        out.gs_canopy_mol_m2_s += lai * g_s;
     }
     if w_sum > 0.0 {
         out.discrimination_permil = wd_sum / w_sum;
         out.ci_ca = wc_sum / w_sum;
     }
     Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::canopy::radiation::TwoLeafCanopy;
+    use crate::leaf::{C3Params, C4Params, Pathway};
+
+    /// Leaves whose dark state has a closed form, and one (C3, finite gm, g0 > 0) that has none.
+    fn leaves() -> Vec<LeafModel> {
+        let c3 = |o: &[(&str, f64)]| LeafModel::C3(C3Params::with_overrides(o.to_vec()).unwrap());
+        let c4 = |o: &[(&str, f64)]| LeafModel::C4(C4Params::with_overrides(o.to_vec()).unwrap());
+        vec![
+            c3(&[]),
+            c3(&[("gb", 1.5)]),
+            c3(&[("gm", f64::INFINITY)]),
+            c3(&[("gm", f64::INFINITY), ("g0", 0.02), ("gb", 0.8)]),
+            c3(&[("g0", 0.02)]),
+            c3(&[("tpu25", 8.0), ("rd25", 0.0)]),
+            c4(&[]),
+            c4(&[("g0", 0.03), ("gb", 2.0)]),
+            c4(&[("rd25", 0.0), ("g0", 0.01)]),
+        ]
+    }
+
+    /// The dark shortcut gives the root search's A, Rd and gs bit for bit (the promise of
+    /// `LeafModel::dark`; common practice: compare a shortcut with the path it replaces).
+    #[test]
+    fn dark_leaves_match_the_solver_to_the_bit() {
+        let options = LeafOptions::default();
+        let mut closed = 0;
+        for leaf in leaves() {
+            for t in [-1.5, 4.0, 17.3, 29.9, 41.0] {
+                for (ca, vpd, beta) in [(425.0, 0.4, 1.0), (380.0, 2.5, 0.3), (900.0, 0.05, 0.0)] {
+                    let c = LeafConditions {
+                        t_leaf_c: t,
+                        ppfd_umol_m2_s: 0.0,
+                        vpd_kpa: vpd,
+                        ca_umol_mol: ca,
+                        soil_beta: beta,
+                        t_growth_c: t + 3.0,
+                        ..LeafConditions::default()
+                    };
+                    for scale in [1.0, 0.37] {
+                        let scaled = leaf.with_capacity_scaled(scale);
+                        let tt = leaf.temperature_terms(&options, &c);
+                        let s = scaled.solve(&options, &c).unwrap();
+                        if let Some((a, rd, gs)) = scaled.dark(&options, &c, &tt) {
+                            closed += 1;
+                            assert_eq!(a.to_bits(), s.a_net.to_bits(), "{leaf:?} at {c:?}");
+                            assert_eq!(rd.to_bits(), s.rd.to_bits(), "{leaf:?} at {c:?}");
+                            assert_eq!(gs.to_bits(), s.g_s.to_bits(), "{leaf:?} at {c:?}");
+                        } else {
+                            // Only a C3 leaf with finite gm and g0 > 0 needs the search.
+                            assert_eq!(scaled.pathway(), Pathway::C3);
+                            assert!(scaled.get("gm").unwrap().is_finite());
+                            assert!(scaled.get("g0").unwrap() > 0.0);
+                        }
+                    }
+                }
+            }
+        }
+        assert!(closed > 0);
+    }
+
+    /// A light computed for other drivers or another canopy is not used: the result equals
+    /// `canopy_step`'s (common practice).
+    #[test]
+    fn a_light_that_does_not_fit_is_recomputed() {
+        let options = LeafOptions::default();
+        let settings = CanopySettings::new(TwoLeafCanopy::default(), 0.3, 0.85).unwrap();
+        let other = CanopySettings::new(
+            TwoLeafCanopy::new(0.15, 0.78, 0.036, 0.6, 0.05).unwrap(),
+            0.3,
+            0.85,
+        )
+        .unwrap();
+        let d = |ppfd: f64, cos_zenith: f64, lai: f64| CanopyDrivers {
+            leaf: LeafConditions::default(),
+            ppfd_beam_umol_m2_s: 0.6 * ppfd,
+            ppfd_diffuse_umol_m2_s: 0.4 * ppfd,
+            cos_zenith,
+            lai_m2_m2: lai,
+        };
+        for leaf in leaves() {
+            let here = d(1200.0, 0.7, 2.5);
+            let expected = canopy_step(&leaf, &options, &settings, &here).unwrap();
+            for (s, drivers) in [
+                (&settings, here),
+                (&settings, d(1200.0, 0.7, 2.4)),
+                (&settings, d(1100.0, 0.7, 2.5)),
+                (&settings, d(1200.0, 0.6, 2.5)),
+                (&other, here),
+            ] {
+                let light = CanopyLight::new(s, &drivers).unwrap();
+                assert_eq!(
+                    light.fits(&settings, &here),
+                    s == &settings && drivers == here
+                );
+                let got = canopy_step_lit(&leaf, &options, &settings, &here, Some(&light)).unwrap();
+                assert_eq!(format!("{got:?}"), format!("{expected:?}"));
+            }
+        }
+    }
 }

@@ -72,32 +72,68 @@ pub fn michaelis_at(k25: f64, ea_j_mol: f64, t_leaf_c: f64, pressure_kpa: f64) -
     k25 * arrhenius_factor(ea_j_mol, t_leaf_c) * STANDARD_PRESSURE_KPA / pressure_kpa
 }
 
+/// The temperature terms of a C3 leaf: everything of [`C3Kinetics`] that depends on leaf and growth
+/// temperature, pressure and O2 but neither on light nor on the capacity scaling of
+/// [`C3Params::with_capacity_scaled`] — so a canopy's sunlit and shaded leaves share them.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct C3Temperature {
+    kc: f64,
+    ko: f64,
+    gamma_star: f64,
+    rd_factor: f64,
+    vcmax_factor: f64,
+    jmax_factor: f64,
+    gm: f64,
+}
+
+impl C3Temperature {
+    pub fn new(p: &C3Params, options: &LeafOptions, c: &LeafConditions) -> Self {
+        let t = c.t_leaf_c;
+        let k25 = p.kinetics_25();
+        let set = options.temperature_set;
+        Self {
+            kc: michaelis_at(k25.kc25, k25.ea_kc, t, c.pressure_kpa),
+            ko: michaelis_at(k25.ko25, k25.ea_ko, t, c.pressure_kpa),
+            gamma_star: gamma_star_at(k25.gamma_star25, k25.ea_gamma_star, t, c.o2_mmol_mol),
+            rd_factor: arrhenius_factor(p.ea_rd(), t),
+            vcmax_factor: p.vcmax_response(set, c.t_growth_c).factor(t),
+            jmax_factor: p.jmax_response(set, c.t_growth_c).factor(t),
+            gm: p.gm() * peaked_arrhenius_factor(p.ha_gm(), p.hd_gm(), p.ds_gm(), t),
+        }
+    }
+
+    /// Day respiration (µmol m⁻² s⁻¹) of `p` in the dark (no light inhibition).
+    pub fn rd_dark(&self, p: &C3Params) -> f64 {
+        p.rd25() * self.rd_factor
+    }
+
+    /// Mesophyll conductance at leaf temperature (mol m⁻² s⁻¹).
+    pub fn gm(&self) -> f64 {
+        self.gm
+    }
+}
+
 impl C3Kinetics {
+    /// The kinetics of `p` at the conditions `c` whose temperature terms are `tt`.
     pub fn new(
         p: &C3Params,
         options: &LeafOptions,
         c: &LeafConditions,
         capacity_scale: f64,
+        tt: &C3Temperature,
     ) -> Self {
-        let t = c.t_leaf_c;
         let ppfd = c.ppfd_umol_m2_s;
-        let k25 = p.kinetics_25();
-        let kc = michaelis_at(k25.kc25, k25.ea_kc, t, c.pressure_kpa);
-        let ko = michaelis_at(k25.ko25, k25.ea_ko, t, c.pressure_kpa);
-        let gamma_star = gamma_star_at(k25.gamma_star25, k25.ea_gamma_star, t, c.o2_mmol_mol);
+        let (kc, ko, gamma_star) = (tt.kc, tt.ko, tt.gamma_star);
         let light_factor = if ppfd > 10.0 {
             p.rd_light_factor()
         } else {
             1.0
         };
-        let rd = p.rd25() * arrhenius_factor(p.ea_rd(), t) * light_factor;
+        let rd = p.rd25() * tt.rd_factor * light_factor;
         let set = options.temperature_set;
-        let vcmax_response = p.vcmax_response(set, c.t_growth_c);
-        let vcmax = capacity_scale * p.vcmax25() * vcmax_response.factor(t);
-        let jmax = capacity_scale
-            * p.jmax25_for(set, c.t_growth_c)
-            * p.jmax_response(set, c.t_growth_c).factor(t);
-        let gm = p.gm() * peaked_arrhenius_factor(p.ha_gm(), p.hd_gm(), p.ds_gm(), t);
+        let vcmax = capacity_scale * p.vcmax25() * tt.vcmax_factor;
+        let jmax = capacity_scale * p.jmax25_for(set, c.t_growth_c) * tt.jmax_factor;
+        let gm = tt.gm;
         let j = electron_transport(ppfd, jmax, p.alpha(), p.theta());
         let (jdiv, kj) = match options.electron_limit {
             ElectronLimit::Nadph => (4.0, 2.0),
@@ -123,7 +159,7 @@ impl C3Kinetics {
         let mut n_rates = 2;
         if p.tpu25().is_finite() {
             // TPU follows Vcmax's temperature response (common practice, from memory).
-            let tpu = capacity_scale * p.tpu25() * vcmax_response.factor(t);
+            let tpu = capacity_scale * p.tpu25() * tt.vcmax_factor;
             rates[2] = Rate {
                 v: 3.0 * tpu,
                 k: 0.0,

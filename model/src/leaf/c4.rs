@@ -23,6 +23,35 @@ pub fn rd_at(rd25: f64, t_leaf_c: f64) -> f64 {
     rd25 * q10_factor(2.0, t_leaf_c, 25.0) / (1.0 + (1.3 * (t_leaf_c - 55.0)).exp())
 }
 
+/// The temperature terms of a C4 leaf: the factors of [`vmax_at`], [`rd_at`] and k at leaf
+/// temperature, which the capacity scaling of [`C4Params::with_capacity_scaled`] leaves alone — so
+/// a canopy's sunlit and shaded leaves share them.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct C4Temperature {
+    /// 2^((T − 25)/10), shared by Vmax and Rd.
+    q10_2: f64,
+    vmax_denominator: f64,
+    rd_denominator: f64,
+    k_factor: f64,
+}
+
+impl C4Temperature {
+    pub fn new(p: &C4Params, t_leaf_c: f64) -> Self {
+        Self {
+            q10_2: q10_factor(2.0, t_leaf_c, 25.0),
+            vmax_denominator: (1.0 + (0.3 * (13.0 - t_leaf_c)).exp())
+                * (1.0 + (0.3 * (t_leaf_c - 36.0)).exp()),
+            rd_denominator: 1.0 + (1.3 * (t_leaf_c - 55.0)).exp(),
+            k_factor: q10_factor(p.q10_k(), t_leaf_c, 25.0),
+        }
+    }
+
+    /// Day respiration (µmol m⁻² s⁻¹) of `p`: [`rd_at`] with these terms.
+    pub fn rd(&self, p: &C4Params) -> f64 {
+        p.rd25() * self.q10_2 / self.rd_denominator
+    }
+}
+
 /// A C4 leaf at one temperature and light: everything that does not depend on CO2.
 #[derive(Debug, Clone, Copy)]
 pub(crate) struct C4Kinetics {
@@ -36,17 +65,18 @@ pub(crate) struct C4Kinetics {
 }
 
 impl C4Kinetics {
-    pub fn new(p: &C4Params, t_leaf_c: f64, ppfd: f64, capacity_scale: f64) -> Self {
-        let vmax = capacity_scale * vmax_at(p.vmax25(), t_leaf_c);
+    /// The kinetics of `p` at PPFD `ppfd` (µmol m⁻² s⁻¹) with the temperature terms `tt`.
+    pub fn new(p: &C4Params, ppfd: f64, capacity_scale: f64, tt: &C4Temperature) -> Self {
+        let vmax = capacity_scale * (p.vmax25() * tt.q10_2 / tt.vmax_denominator);
         let light = p.alpha() * ppfd.max(0.0);
         let m = smaller_root(p.theta(), -(vmax + light), vmax * light);
         Self {
             vmax,
             light,
-            k: capacity_scale * p.k25() * q10_factor(p.q10_k(), t_leaf_c, 25.0),
+            k: capacity_scale * p.k25() * tt.k_factor,
             m,
             beta_c: p.beta_c(),
-            rd: rd_at(p.rd25(), t_leaf_c),
+            rd: tt.rd(p),
         }
     }
 

@@ -291,8 +291,18 @@ fn g1_and_capacity(g1: f64, beta: f64, target: BetaTarget) -> (f64, f64) {
 /// conductances, and the discrimination form chosen in `options`.
 pub fn solve_c3(p: &C3Params, options: &LeafOptions, c: &LeafConditions) -> Result<LeafState> {
     c.validate()?;
+    solve_c3_at(p, options, c, &c3::C3Temperature::new(p, options, c))
+}
+
+/// [`solve_c3`] with conditions already validated and their temperature terms `tt`.
+fn solve_c3_at(
+    p: &C3Params,
+    options: &LeafOptions,
+    c: &LeafConditions,
+    tt: &c3::C3Temperature,
+) -> Result<LeafState> {
     let (g1, capacity) = g1_and_capacity(p.g1(), c.soil_beta, options.beta_target);
-    let kin = c3::C3Kinetics::new(p, options, c, capacity);
+    let kin = c3::C3Kinetics::new(p, options, c, capacity, tt);
     let stomata = Medlyn::new(p.g0(), g1, c.vpd_kpa);
     let s = solve::solve(|ci| kin.demand(ci), &stomata, c.ca_umol_mol, p.gb())?;
     let ca = c.ca_umol_mol;
@@ -336,8 +346,18 @@ pub fn solve_c3(p: &C3Params, options: &LeafOptions, c: &LeafConditions) -> Resu
 /// Farquhar (1983) discrimination with leakiness.
 pub fn solve_c4(p: &C4Params, options: &LeafOptions, c: &LeafConditions) -> Result<LeafState> {
     c.validate()?;
+    solve_c4_at(p, options, c, &c4::C4Temperature::new(p, c.t_leaf_c))
+}
+
+/// [`solve_c4`] with conditions already validated and their temperature terms `tt`.
+fn solve_c4_at(
+    p: &C4Params,
+    options: &LeafOptions,
+    c: &LeafConditions,
+    tt: &c4::C4Temperature,
+) -> Result<LeafState> {
     let (g1, capacity) = g1_and_capacity(p.g1(), c.soil_beta, options.beta_target);
-    let kin = c4::C4Kinetics::new(p, c.t_leaf_c, c.ppfd_umol_m2_s, capacity);
+    let kin = c4::C4Kinetics::new(p, c.ppfd_umol_m2_s, capacity, tt);
     let stomata = Medlyn::new(p.g0(), g1, c.vpd_kpa);
     let s = solve::solve(
         |ci| {
@@ -435,6 +455,15 @@ impl LeafModel {
         }
     }
 
+    /// The same leaf with the boundary-layer conductance to H2O `gb` (mol m⁻² s⁻¹), checked as
+    /// [`LeafModel::set`] checks it.
+    pub fn with_boundary_layer(&self, gb: f64) -> Result<Self> {
+        Ok(match self {
+            LeafModel::C3(p) => LeafModel::C3(p.with_boundary_layer(gb)?),
+            LeafModel::C4(p) => LeafModel::C4(p.with_boundary_layer(gb)?),
+        })
+    }
+
     /// The same leaf with capacity and day respiration scaled by `factor` (see
     /// [`C3Params::with_capacity_scaled`]).
     pub fn with_capacity_scaled(&self, factor: f64) -> Self {
@@ -451,4 +480,73 @@ impl LeafModel {
             LeafModel::C4(p) => solve_c4(p, options, c),
         }
     }
+
+    /// The terms of this leaf at the temperatures, pressure and O2 of `c` (its light aside), which
+    /// every capacity scaling of the leaf ([`LeafModel::with_capacity_scaled`]) shares.
+    pub(crate) fn temperature_terms(
+        &self,
+        options: &LeafOptions,
+        c: &LeafConditions,
+    ) -> LeafTemperature {
+        match self {
+            LeafModel::C3(p) => LeafTemperature::C3(c3::C3Temperature::new(p, options, c)),
+            LeafModel::C4(p) => LeafTemperature::C4(c4::C4Temperature::new(p, c.t_leaf_c)),
+        }
+    }
+
+    /// [`LeafModel::solve`] for conditions already validated, with the temperature terms `tt` of
+    /// this leaf or of a capacity scaling of it at the same conditions.
+    pub(crate) fn solve_at(
+        &self,
+        options: &LeafOptions,
+        c: &LeafConditions,
+        tt: &LeafTemperature,
+    ) -> Result<LeafState> {
+        match (self, tt) {
+            (LeafModel::C3(p), LeafTemperature::C3(t)) => solve_c3_at(p, options, c, t),
+            (LeafModel::C4(p), LeafTemperature::C4(t)) => solve_c4_at(p, options, c, t),
+            _ => self.solve(options, c),
+        }
+    }
+
+    /// Net assimilation, day respiration (µmol m⁻² s⁻¹) and stomatal conductance (mol m⁻² s⁻¹)
+    /// of the leaf in the dark (PPFD 0) at validated conditions `c`, with its temperature terms
+    /// `tt`: exactly what [`LeafModel::solve`] gives, without the root search, where that has a
+    /// closed form. With no light the demand is A = −Rd whatever ci (C4: no gross assimilation;
+    /// C3 with infinite gm: Wj = 0), so stomata stay at g0 (shut at g0 = 0). A C3 leaf with a
+    /// finite gm takes A from the quadratic in A, which equals −Rd only to round-off: with g0 = 0
+    /// its stomata shut at ci = ca and A is the demand there, as the solver takes it; with g0 > 0
+    /// only the root search gives the solver's bits, so None.
+    pub(crate) fn dark(
+        &self,
+        options: &LeafOptions,
+        c: &LeafConditions,
+        tt: &LeafTemperature,
+    ) -> Option<(f64, f64, f64)> {
+        let shut = |g0: f64| if g0 <= 0.0 { 0.0 } else { g0 };
+        match (self, tt) {
+            (LeafModel::C4(p), LeafTemperature::C4(t)) => {
+                let rd = t.rd(p);
+                Some((0.0 - rd, rd, shut(p.g0())))
+            }
+            (LeafModel::C3(p), LeafTemperature::C3(t)) if t.gm().is_infinite() => {
+                let rd = t.rd_dark(p);
+                Some((0.0 - rd, rd, shut(p.g0())))
+            }
+            (LeafModel::C3(p), LeafTemperature::C3(t)) if p.g0() <= 0.0 => {
+                let (_, capacity) = g1_and_capacity(p.g1(), c.soil_beta, options.beta_target);
+                let kin = c3::C3Kinetics::new(p, options, c, capacity, t);
+                let (a, _, _) = kin.demand(c.ca_umol_mol);
+                (a <= 0.0).then_some((a, kin.rd, 0.0))
+            }
+            _ => None,
+        }
+    }
+}
+
+/// A leaf's temperature terms (see [`LeafModel::temperature_terms`]).
+#[derive(Debug, Clone, Copy)]
+pub(crate) enum LeafTemperature {
+    C3(c3::C3Temperature),
+    C4(c4::C4Temperature),
 }

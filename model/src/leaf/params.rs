@@ -113,9 +113,21 @@ macro_rules! parameter_set {
                 }
                 Ok(p)
             }
+
+            /// These parameters with the boundary-layer conductance to H2O `gb`
+            /// (mol m⁻² s⁻¹), checked against [`BOUNDARY_LAYER_RANGE`] as [`Self::set`] checks
+            /// it, without looking the name up (a site sets it from the wind every step).
+            pub fn with_boundary_layer(&self, gb: f64) -> Result<Self> {
+                let (lo, hi) = BOUNDARY_LAYER_RANGE;
+                let gb = if gb == hi { gb } else { check_range("gb", gb, lo, hi)? };
+                Ok(Self { gb, ..self.clone() })
+            }
         }
     };
 }
+
+/// Range of the boundary-layer conductance `gb` (mol m⁻² s⁻¹) in both parameter tables.
+pub const BOUNDARY_LAYER_RANGE: (f64, f64) = (0.01, INF);
 
 const BERNACCHI01: &str = "Bernacchi et al. 2001, Plant Cell Environ.";
 const BERNACCHI02: &str = "Bernacchi et al. 2002, Plant Physiol. (from memory)";
@@ -180,7 +192,7 @@ parameter_set! {
             "residual stomatal conductance to H2O";
         g1 = 4.1, "kPa^0.5", [0.01, 20.0], "angiosperm trees, Lin et al. 2015, Nature Clim. Change (from memory)",
             "slope of the Medlyn et al. 2011 stomatal model";
-        gb = INF, "mol m-2 s-1", [0.01, INF], "none (infinite) for a single leaf; site runs with wind compute it",
+        gb = INF, "mol m-2 s-1", [BOUNDARY_LAYER_RANGE.0, BOUNDARY_LAYER_RANGE.1], "none (infinite) for a single leaf; site runs with wind compute it",
             "leaf boundary-layer conductance to H2O (CO2: gb/1.37)";
         gm = 0.25, "mol m-2 s-1", [0.01, INF],
             "0.1-0.5 reported for C3 leaves at 25 degC (Flexas et al. 2008, Plant Cell Environ.; von Caemmerer & Evans 2015; from memory)",
@@ -229,7 +241,7 @@ parameter_set! {
             "residual stomatal conductance to H2O";
         g1 = 1.6, "kPa^0.5", [0.01, 20.0], "C4, Lin et al. 2015, Nature Clim. Change (from memory)",
             "slope of the Medlyn et al. 2011 stomatal model";
-        gb = INF, "mol m-2 s-1", [0.01, INF], "none (infinite) by default",
+        gb = INF, "mol m-2 s-1", [BOUNDARY_LAYER_RANGE.0, BOUNDARY_LAYER_RANGE.1], "none (infinite) by default",
             "leaf boundary-layer conductance to H2O (CO2: gb/1.37)";
         leakiness = 0.3, "-", [0.0, 0.95], "0.2-0.35 reported (Farquhar 1983; Henderson et al. 1992, Aust. J. Plant Physiol.; from memory); 0.3 puts C4 grass within compilations of C4 leaf d13C",
             "fraction of fixed carbon leaking from the bundle sheath";

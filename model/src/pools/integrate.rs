@@ -18,6 +18,8 @@
 //! `Exact` is the default: it is exact to round-off whatever the step (hourly or yearly), and in
 //! the benchmark (`model/benches/pools.rs`) it is several times faster than Dopri5 at rtol 1e-10.
 
+use std::cell::Cell;
+
 use ode_solvers::{DVector, Dopri5, OutputType, System};
 
 use super::expm::{Expm, solve_in_place};
@@ -153,6 +155,9 @@ pub struct PoolModel {
     expm: Expm,
     scratch: Vec<f64>,
     cache: Option<Cache>,
+    /// The last (soil temperature, moisture) → turnover factor of the response: within a day the
+    /// caller holds both, so the factor is reused rather than recomputed.
+    last_factor: Cell<Option<(u64, u64, f64)>>,
 }
 
 impl PoolModel {
@@ -191,6 +196,7 @@ impl PoolModel {
             expm: Expm::new(m),
             scratch: vec![0.0; m * m],
             cache: None,
+            last_factor: Cell::new(None),
         }
     }
 
@@ -286,10 +292,20 @@ impl PoolModel {
     ) -> Result<f64> {
         match turnover_factor {
             Some(f) => check_input("turnover_factor", f, f64::MIN_POSITIVE, 1e3),
-            None => self
-                .settings
-                .response
-                .factor(forcing.t_soil_c, forcing.moisture),
+            None => {
+                let key = (forcing.t_soil_c.to_bits(), forcing.moisture.to_bits());
+                if let Some((t, m, f)) = self.last_factor.get()
+                    && (t, m) == key
+                {
+                    return Ok(f);
+                }
+                let f = self
+                    .settings
+                    .response
+                    .factor(forcing.t_soil_c, forcing.moisture)?;
+                self.last_factor.set(Some((key.0, key.1, f)));
+                Ok(f)
+            }
         }
     }
 
@@ -487,29 +503,49 @@ impl PoolModel {
 }
 
 /// z ← E·z for one isotope, with z = (pools, input, 0, 0, 0); writes the pools back and returns
-/// the three accumulators.
+/// the three accumulators (the input's own row is not needed: the input is constant). The
+/// default four-pool network takes a copy of the same sums with its size known when compiled.
 fn apply(e: &[f64], pools: &mut [f64], input: f64) -> [f64; 3] {
-    let n = pools.len();
-    let m = n + 4;
-    let mut z = [0.0; 64];
-    let mut big = Vec::new();
-    let out: &mut [f64] = if m <= z.len() {
-        &mut z[..m]
-    } else {
-        big.resize(m, 0.0);
-        &mut big
-    };
-    for (i, o) in out.iter_mut().enumerate() {
-        let row = &e[i * m..i * m + n + 1];
-        *o = row[..n]
-            .iter()
-            .zip(pools.iter())
-            .map(|(a, b)| a * b)
-            .sum::<f64>()
-            + row[n] * input;
+    match <&mut [f64; 4]>::try_from(&mut *pools) {
+        Ok(four) => apply_sized(e, four, input),
+        Err(_) => apply_any(e, pools, input),
     }
-    pools.copy_from_slice(&out[..n]);
-    [out[n + 1], out[n + 2], out[n + 3]]
+}
+
+/// One row of E·z: Σ E[i][j]·pools[j] over the pools, plus E[i][n]·input.
+#[inline(always)]
+fn apply_row(e: &[f64], i: usize, pools: &[f64], input: f64) -> f64 {
+    let n = pools.len();
+    let row = &e[i * (n + 4)..i * (n + 4) + n + 1];
+    row[..n]
+        .iter()
+        .zip(pools.iter())
+        .map(|(a, b)| a * b)
+        .sum::<f64>()
+        + row[n] * input
+}
+
+fn apply_sized<const N: usize>(e: &[f64], pools: &mut [f64; N], input: f64) -> [f64; 3] {
+    let acc = [
+        apply_row(e, N + 1, pools, input),
+        apply_row(e, N + 2, pools, input),
+        apply_row(e, N + 3, pools, input),
+    ];
+    let new: [f64; N] = std::array::from_fn(|i| apply_row(e, i, pools, input));
+    *pools = new;
+    acc
+}
+
+fn apply_any(e: &[f64], pools: &mut [f64], input: f64) -> [f64; 3] {
+    let n = pools.len();
+    let acc = [
+        apply_row(e, n + 1, pools, input),
+        apply_row(e, n + 2, pools, input),
+        apply_row(e, n + 3, pools, input),
+    ];
+    let new: Vec<f64> = (0..n).map(|i| apply_row(e, i, pools, input)).collect();
+    pools.copy_from_slice(&new);
+    acc
 }
 
 /// z' = B·z for the 12C and 13C blocks side by side (per day).

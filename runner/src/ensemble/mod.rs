@@ -12,7 +12,7 @@ use indicatif::{ParallelProgressIterator, ProgressBar};
 use rayon::prelude::*;
 
 use crate::forcing::ForcingStep;
-use crate::simulate::{NoSink, PeriodRow, Simulated, period_col, simulate};
+use crate::simulate::{NoSink, PeriodRow, Simulated, period_col, simulate_lit, step_lights};
 use crate::site::Site;
 use sample::Design;
 use spec::EnsembleSpec;
@@ -106,8 +106,20 @@ pub fn member_site(site: &Site, spec: &EnsembleSpec, values: &[f64]) -> crate::e
     Ok(s)
 }
 
+/// Whether the members of `spec` share the site's light (solar geometry, diffuse fraction and the
+/// canopies' two-leaf light): every member has the site's location unless the spec samples
+/// `site.latitude` or `site.longitude`. A canopy whose LAI a member changes (`vegetation.*.lai`)
+/// recomputes its own light step by step (the site model checks that a shared light fits).
+pub fn shares_light(spec: &EnsembleSpec) -> bool {
+    !spec
+        .params
+        .iter()
+        .any(|p| matches!(p.path.as_str(), "site.latitude" | "site.longitude"))
+}
+
 /// Runs members 0..n of the ensemble over `steps` (weather read once) in the current rayon pool,
-/// ticking `progress`; results are in member order whatever the thread count.
+/// ticking `progress`; results are in member order whatever the thread count. The light of each
+/// step is computed once for all members when [`shares_light`].
 pub fn run_members(
     site: &Site,
     steps: &[ForcingStep],
@@ -118,6 +130,11 @@ pub fn run_members(
     progress: &ProgressBar,
 ) -> Vec<Member> {
     let design = Design::new(spec, members, seed);
+    let lights = if shares_light(spec) {
+        step_lights(site, steps, step_minutes)
+    } else {
+        Vec::new()
+    };
     (0..members)
         .into_par_iter()
         .progress_with(progress.clone())
@@ -126,7 +143,8 @@ pub fn run_members(
             let status = match member_site(site, spec, &params) {
                 Err(e) => MemberStatus::Invalid(e.chain()),
                 Ok(s) => {
-                    match simulate(&s, steps.iter().cloned().map(Ok), step_minutes, &mut NoSink) {
+                    let steps = steps.iter().cloned().map(Ok);
+                    match simulate_lit(&s, steps, step_minutes, &mut NoSink, &lights) {
                         Ok(sim) => MemberStatus::Ok(MemberPeriods::from_simulated(&sim)),
                         Err(e) => MemberStatus::Failed(e.chain()),
                     }
