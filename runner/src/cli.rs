@@ -42,6 +42,8 @@ pub enum Command {
     Merge(MergeArgs),
     /// Writes a Slurm submission script: an array job over the shards and a merge job after it.
     ClusterScript(ClusterScriptArgs),
+    /// Every vegetated cell of gridded NetCDF weather run as a site: monthly priors on the grid.
+    Grid(GridArgs),
 }
 
 /// `isodisc run`.
@@ -467,4 +469,38 @@ pub struct PeriodArgs {
     /// Last day to run, YYYY-MM-DD, inclusive.
     #[arg(long)]
     pub to: Option<String>,
+}
+
+/// `isodisc grid`.
+#[derive(Debug, clap::Args)]
+pub struct GridArgs {
+    /// The grid file (TOML; see docs/grid.md).
+    pub grid: PathBuf,
+    /// Folder for the results; an interrupted run re-run into it resumes.
+    #[arg(long, conflicts_with_all = ["cell", "export"])]
+    pub out: Option<PathBuf>,
+    /// Run only shard K of N (blocks of 64 vegetated cells whose 0-based index mod N is K - 1),
+    /// e.g. 2/3; or `env`: the shard of this Slurm array task.
+    #[arg(long, value_name = "K/N|env", requires = "out")]
+    pub shard: Option<String>,
+    /// Worker threads [default: one per core].
+    #[arg(long)]
+    pub threads: Option<usize>,
+    /// The cell nearest LAT,LON (degrees north, east) to export (with --export).
+    #[arg(
+        long,
+        value_name = "LAT,LON",
+        requires = "export",
+        allow_hyphen_values = true
+    )]
+    pub cell: Option<String>,
+    /// Folder to write the cell's site.toml and weather.csv into (with --cell).
+    #[arg(long, requires = "cell")]
+    pub export: Option<PathBuf>,
+    /// The days to run.
+    #[command(flatten)]
+    pub period: PeriodArgs,
+    /// Print nothing on success.
+    #[arg(long)]
+    pub quiet: bool,
 }

@@ -8,6 +8,8 @@ pub mod commands;
 pub mod ensemble;
 pub mod error;
 pub mod forcing;
+pub mod grid;
+pub mod netcdf_in;
 pub mod output;
 pub mod priors;
 pub mod simulate;
@@ -46,6 +48,7 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Plot(args) => commands::plot::PlotPlan::from_args(&args)?.run(),
         Command::Ensemble(args) => commands::ensemble::EnsemblePlan::from_args(&args)?.run(),
         Command::Batch(args) => commands::batch::BatchPlan::from_args(&args)?.run(),
+        Command::Grid(args) => commands::grid::GridPlan::from_args(&args)?.run(),
         Command::Merge(args) => commands::merge::MergePlan::from_args(&args)?.run(),
         Command::ClusterScript(args) => {
             commands::cluster::ClusterScriptPlan::from_args(&args)?.run()

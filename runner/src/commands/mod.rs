@@ -4,6 +4,7 @@ pub mod batch;
 pub mod cluster;
 pub mod compare;
 pub mod ensemble;
+pub mod grid;
 pub mod keeling;
 pub mod leaf;
 pub mod leaf_input;
