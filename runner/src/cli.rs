@@ -479,7 +479,7 @@ pub struct GridArgs {
     /// Folder for the results; an interrupted run re-run into it resumes.
     #[arg(long, conflicts_with_all = ["cell", "export"])]
     pub out: Option<PathBuf>,
-    /// Run only shard K of N (blocks of 64 vegetated cells whose 0-based index mod N is K - 1),
+    /// Run only shard K of N (blocks of 32 vegetated cells whose 0-based index mod N is K - 1),
     /// e.g. 2/3; or `env`: the shard of this Slurm array task.
     #[arg(long, value_name = "K/N|env", requires = "out")]
     pub shard: Option<String>,

@@ -21,7 +21,7 @@ use crate::simulate::{NoSink, PERIOD_COLUMNS, period_col, simulate};
 use crate::site::Site;
 
 /// Land cells per block: the unit of resuming and sharding.
-pub const BLOCK_CELLS: usize = 64;
+pub const BLOCK_CELLS: usize = 32;
 
 /// The monthly fields of the grid output: period columns of the site run, with their units as
 /// written to the NetCDF file.

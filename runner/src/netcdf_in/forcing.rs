@@ -436,7 +436,7 @@ impl GriddedForcing {
                             .to_string()
                     } else {
                         format!(
-                            "{} = {value} {} is outside its valid range {lo}…{hi} {}",
+                            "{} = {value:.3} {} is outside its valid range {lo}…{hi} {}",
                             s.var.name(),
                             s.var.project_unit(),
                             s.var.project_unit()

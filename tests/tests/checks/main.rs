@@ -6,6 +6,7 @@ mod common;
 mod docs;
 mod ensemble;
 mod golden;
+mod grid;
 mod isotopes_leaf;
 mod observations;
 mod phenology_cold;
