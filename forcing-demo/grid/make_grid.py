@@ -11,8 +11,12 @@ Writes, next to this script:
                                       columns are sea (no vegetation)
 
 Usage: python3 forcing-demo/grid/make_grid.py   (numbers are invented, not observations)
+
+For the speed measurement (not committed): python3 forcing-demo/grid/make_grid.py --bench DIR
+writes DIR/forcing.nc (100 x 100 cells, all land, 64-bit offset), DIR/cover.nc and DIR/grid.toml.
 """
 import os
+import sys
 
 import numpy as np
 import netCDF4
@@ -34,18 +38,19 @@ VARS = {
 }
 
 
-def weather(rng):
+def weather(rng, lat_values=LAT, lon_values=LON):
+    nlat, nlon = len(lat_values), len(lon_values)
     t = HOURS[:, None, None]
     day = t / 24.0
-    lat = LAT[None, :, None]
-    lon = LON[None, None, :]
+    lat = lat_values[None, :, None]
+    lon = lon_values[None, None, :]
     season = -np.cos(2 * np.pi * (day - 15) / 365.0)
     solar_hour = (t % 24) + lon / 15.0 + STEP_H / 2.0
     # Clear-sky shortwave from the sun's elevation at mid-step (simple declination formula).
     decl = np.radians(23.44) * np.sin(2 * np.pi * (day - 80) / 365.0)
     ha = np.radians(15.0 * (solar_hour - 12.0))
     sin_el = np.sin(np.radians(lat)) * np.sin(decl) + np.cos(np.radians(lat)) * np.cos(decl) * np.cos(ha)
-    cloud = np.clip(0.75 + 0.2 * rng.standard_normal((len(HOURS) // 8, NLAT, NLON)), 0.2, 1.0)
+    cloud = np.clip(0.75 + 0.2 * rng.standard_normal((len(HOURS) // 8, nlat, nlon)), 0.2, 1.0)
     cloud = np.repeat(cloud, 8, axis=0)
     rsds = np.clip(1000.0 * sin_el, 0.0, None) * cloud
     diurnal = np.cos(2 * np.pi * (solar_hour - 15.0) / 24.0)
@@ -132,5 +137,52 @@ def main():
     ds.close()
 
 
+def bench(out):
+    """A 100 x 100 grid at 0.5 degrees, every cell land, written ten latitude rows at a time."""
+    os.makedirs(out, exist_ok=True)
+    nlat, nlon = 100, 100
+    lat = 20.25 + 0.5 * np.arange(nlat)
+    lon = -10.25 + 0.5 * np.arange(nlon)
+    rng = np.random.default_rng(7)
+    ds = netCDF4.Dataset(os.path.join(out, "forcing.nc"), "w", format="NETCDF3_64BIT_OFFSET")
+    ds.createDimension("time", len(HOURS))
+    ds.createDimension("lat", nlat)
+    ds.createDimension("lon", nlon)
+    t = ds.createVariable("time", "f8", ("time",))
+    t.units = "hours since 2001-01-01 00:00:00"
+    t.calendar = "standard"
+    t[:] = HOURS
+    for name, values, units in (("lat", lat, "degrees_north"), ("lon", lon, "degrees_east")):
+        v = ds.createVariable(name, "f8", (name,))
+        v.units = units
+        v[:] = values
+    vs = {}
+    for name, (units, std, long_name) in VARS.items():
+        vs[name] = ds.createVariable(name, "f4", ("time", "lat", "lon"))
+        vs[name].units = units
+    for r in range(0, nlat, 10):
+        fields = weather(rng, lat[r:r + 10] - 15.0, lon)
+        for name in VARS:
+            vs[name][:, r:r + 10, :] = fields[name].astype(np.float32)
+    ds.close()
+    ds = netCDF4.Dataset(os.path.join(out, "cover.nc"), "w", format="NETCDF3_CLASSIC")
+    ds.createDimension("lat", nlat)
+    ds.createDimension("lon", nlon)
+    for name, values, units in (("lat", lat, "degrees_north"), ("lon", lon, "degrees_east")):
+        v = ds.createVariable(name, "f8", (name,))
+        v.units = units
+        v[:] = values
+    for name, frac in (("cover_c3", 0.6), ("cover_c4", 0.3)):
+        v = ds.createVariable(name, "f4", ("lat", "lon"))
+        v[:] = np.full((nlat, nlon), frac)
+    ds.close()
+    here = open(os.path.join(HERE, "grid.toml")).read()
+    here = here.replace('files = ["forcing_2001a.nc", "forcing_2001b.nc"]', 'files = ["forcing.nc"]')
+    open(os.path.join(out, "grid.toml"), "w").write(here)
+
+
 if __name__ == "__main__":
-    main()
+    if len(sys.argv) == 3 and sys.argv[1] == "--bench":
+        bench(sys.argv[2])
+    else:
+        main()
