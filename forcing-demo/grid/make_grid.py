@@ -161,7 +161,7 @@ def bench(out):
         vs[name] = ds.createVariable(name, "f4", ("time", "lat", "lon"))
         vs[name].units = units
     for r in range(0, nlat, 10):
-        fields = weather(rng, lat[r:r + 10] - 15.0, lon)
+        fields = weather(rng, 10.0 + 0.5 * lat[r:r + 10], lon)
         for name in VARS:
             vs[name][:, r:r + 10, :] = fields[name].astype(np.float32)
     ds.close()
