@@ -10,6 +10,7 @@ pub mod error;
 pub mod forcing;
 pub mod output;
 pub mod priors;
+pub mod priors_grid;
 pub mod simulate;
 pub mod site;
 pub mod site_params;
