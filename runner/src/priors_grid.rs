@@ -328,8 +328,9 @@ pub fn filled(v: &[f64]) -> Vec<f64> {
         .collect()
 }
 
-/// The days since the first month's 1 January of each month's start and end.
-fn time_axis(months: &[(i32, u32)]) -> (i32, Vec<f64>, Vec<f64>) {
+/// The time axis of `months`: the first month's year Y0 (the axis counts days since Y0-01-01),
+/// each month's middle and its bounds (start, end) flattened.
+pub fn time_axis(months: &[(i32, u32)]) -> (i32, Vec<f64>, Vec<f64>) {
     let y0 = months.first().map_or(1970, |m| m.0);
     let origin = days_from_civil(y0.into(), 1, 1);
     let day = |(y, m): (i32, u32)| (days_from_civil(y.into(), m, 1) - origin) as f64;
@@ -341,6 +342,29 @@ fn time_axis(months: &[(i32, u32)]) -> (i32, Vec<f64>, Vec<f64>) {
         bnds.extend([a, b]);
     }
     (y0, mid, bnds)
+}
+
+/// The (year, month) of each month's start in a flattened `time_bnds` whose time `units` are
+/// "days since YYYY-01-01 ..." (as [`time_axis`] writes them); the error names the file.
+pub fn months_of_time_bnds(path: &Path, units: &str, bnds: &[f64]) -> Result<Vec<(i32, u32)>> {
+    let y0: i64 = units
+        .strip_prefix("days since ")
+        .and_then(|s| s.get(..4))
+        .and_then(|y| y.parse().ok())
+        .ok_or_else(|| {
+            Error::msg(format!(
+                "{}: time units `{units}` are not `days since YYYY-01-01 ...`",
+                path.display()
+            ))
+        })?;
+    let origin = days_from_civil(y0, 1, 1);
+    Ok(bnds
+        .chunks(2)
+        .map(|b| {
+            let (y, m, _) = civil_from_days(origin + b[0] as i64);
+            (y as i32, m)
+        })
+        .collect())
 }
 
 /// Writes gridded priors as CF-1.8 NetCDF (classic format with 64-bit offsets), atomically.
@@ -557,16 +581,6 @@ pub fn read_priors_grid(path: &Path) -> Result<GridPriors> {
         };
         (time_units, meta, attributes)
     };
-    let y0: i64 = time_units
-        .strip_prefix("days since ")
-        .and_then(|s| s.get(..4))
-        .and_then(|y| y.parse().ok())
-        .ok_or_else(|| {
-            Error::msg(format!(
-                "{}: time units `{time_units}` are not `days since YYYY-01-01 ...`",
-                path.display()
-            ))
-        })?;
     let mut f64_var = |n: &str| -> Result<Vec<f64>> {
         let v =
             fr.read_var(n).map_err(r)?.get_f64_into().map_err(|_| {
@@ -581,14 +595,7 @@ pub fn read_priors_grid(path: &Path) -> Result<GridPriors> {
     let lon = f64_var("lon")?;
     let lat_bnds = pairs(f64_var("lat_bnds")?);
     let lon_bnds = pairs(f64_var("lon_bnds")?);
-    let origin = days_from_civil(y0, 1, 1);
-    let month_starts = pairs(f64_var("time_bnds")?)
-        .iter()
-        .map(|[a, _]| {
-            let (y, m, _) = civil_from_days(origin + *a as i64);
-            (y as i32, m)
-        })
-        .collect();
+    let month_starts = months_of_time_bnds(path, &time_units, &f64_var("time_bnds")?)?;
     let mut fields = Vec::new();
     for (name, units, standard_name, long_name, has_sd) in field_meta {
         let values = f64_var(&name)?;

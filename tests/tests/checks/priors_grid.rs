@@ -394,3 +394,92 @@ fn bad_grids_are_refused_by_name_and_failed_writes_leave_nothing() {
     assert_eq!(listing(dir.path()), ["blocked.nc", "priors_grid.nc"]);
     assert_eq!(listing(&blocked), ["keep"]);
 }
+
+#[test]
+fn batch_priors_have_what_xarray_needs_and_fluxes_per_second() {
+    // xarray (conventions.decode_cf, from memory; cross-checked by
+    // tests/fixtures/check_priors_xarray.py with xarray 2026.9) turns a 2-D NC_CHAR variable into
+    // strings along its first dimension, and into `str` rather than bytes when it carries
+    // `_Encoding = "utf-8"`; named like its dimension `site`, it becomes the index that
+    // `.sel(site=...)` uses. `time` with `units = "days since ..."` and `bounds` decodes to
+    // datetimes, and so does the bounds variable.
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("batch");
+    let manifest = crate::common::demo_path("batch/manifest.toml");
+    crate::common::run(&[
+        "batch",
+        manifest.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+    ])
+    .unwrap();
+    let mut fr = FileReader::open(out.join("priors.nc")).unwrap();
+    let ds = fr.data_set();
+    let site = ds.get_var("site").unwrap();
+    assert_eq!(site.data_type(), netcdf3::DataType::U8, "NC_CHAR");
+    assert_eq!(site.dim_names(), ["site", "name_strlen"]);
+    assert_eq!(attr(&fr, "site", "_Encoding").as_deref(), Some("utf-8"));
+    assert_eq!(
+        attr(&fr, "site", "cf_role").as_deref(),
+        Some("timeseries_id")
+    );
+    let ds = fr.data_set();
+    assert_eq!(ds.get_var("time").unwrap().dim_names(), ["time"]);
+    assert_eq!(ds.get_var("time_bnds").unwrap().dim_names(), ["time", "nv"]);
+    assert_eq!(ds.get_var("gpp").unwrap().dim_names(), ["site", "time"]);
+    assert_eq!(ds.get_var("utc_offset").unwrap().dim_names(), ["site"]);
+    assert_eq!(attr(&fr, "time", "bounds").as_deref(), Some("time_bnds"));
+    assert_eq!(
+        attr(&fr, "time", "units").as_deref(),
+        Some("days since 2025-01-01 00:00:00")
+    );
+    assert_eq!(attr(&fr, "gpp", "units").as_deref(), Some("kg m-2 s-1"));
+    assert_eq!(
+        attr(&fr, "isoflux_discrimination", "units").as_deref(),
+        Some("1e-3 kg m-2 s-1")
+    );
+    assert_eq!(
+        fr.data_set()
+            .get_global_attr_as_string("featureType")
+            .as_deref(),
+        Some("timeSeries")
+    );
+    let chars = fr.read_var("site").unwrap().get_u8_into().unwrap();
+    assert!(chars.starts_with(b"miombo"));
+    // January 2025 of the first site: priors' GPP = monthly.csv's gC m-2 / 1000 / (31 x 86,400 s)
+    // (by hand; monthly.csv is rounded to 6 decimals).
+    let monthly = fs::read_to_string(out.join("sites/miombo/monthly.csv")).unwrap();
+    let header: Vec<&str> = monthly.lines().next().unwrap().split(',').collect();
+    let jan: Vec<&str> = monthly.lines().nth(1).unwrap().split(',').collect();
+    assert_eq!(jan[0], "2025-01");
+    let col = |n: &str| -> f64 {
+        jan[header.iter().position(|h| *h == n).unwrap()]
+            .parse()
+            .unwrap()
+    };
+    let gpp = fr.read_var("gpp").unwrap().get_f64_into().unwrap();
+    let want = col("gpp") / 1000.0 / (31.0 * 86_400.0);
+    assert!(
+        ((gpp[0] - want) / want).abs() < 1e-6,
+        "{} vs {want}",
+        gpp[0]
+    );
+    let iso = fr
+        .read_var("isoflux_discrimination")
+        .unwrap()
+        .get_f64_into()
+        .unwrap();
+    let want = col("gpp") * col("discrimination") / 1000.0 / (31.0 * 86_400.0);
+    assert!(
+        ((iso[0] - want) / want).abs() < 1e-5,
+        "{} vs {want}",
+        iso[0]
+    );
+    let offsets = fr.read_var("utc_offset").unwrap().get_f64_into().unwrap();
+    // Every demo site keeps the template's clock (forcing-demo/site.toml: utc_offset = 2).
+    assert_eq!(offsets, [2.0; 4]);
+    // A single run per site: every sd is the fill value, never 0.
+    let sd = fr.read_var("gpp_sd").unwrap().get_f64_into().unwrap();
+    assert!(sd.iter().all(|x| *x == NC_FILL_F64));
+}
