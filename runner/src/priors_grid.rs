@@ -705,7 +705,8 @@ impl MonthAggregate {
     }
 }
 
-/// A standard field: name, UDUNITS units, CF standard name (where one exists), long name.
+/// A standard field: name, UDUNITS units, CF standard name (where one exists), long name (without
+/// units: they are in `units`).
 pub type FieldSpec = (
     &'static str,
     &'static str,
@@ -724,68 +725,68 @@ pub const STANDARD_FIELDS: [FieldSpec; 12] = [
         "gpp",
         FLUX_UNITS,
         Some("gross_primary_productivity_of_biomass_expressed_as_carbon"),
-        "gross primary production, kg C m-2 s-1",
+        "gross primary production",
     ),
     (
         "reco",
         FLUX_UNITS,
         None,
-        "ecosystem respiration (autotrophic + heterotrophic), kg C m-2 s-1",
+        "ecosystem respiration (autotrophic + heterotrophic)",
     ),
     (
         "nee",
         FLUX_UNITS,
         None,
-        "net ecosystem exchange reco - gpp, kg C m-2 s-1 (positive: a source to the air)",
+        "net ecosystem exchange reco - gpp (positive: a source to the air)",
     ),
     (
         "discrimination",
         "1e-3",
         None,
-        "GPP-weighted ecosystem 13C discrimination (permil)",
+        "GPP-weighted ecosystem 13C discrimination",
     ),
     (
         "discrimination_c3",
         "1e-3",
         None,
-        "GPP-weighted 13C discrimination of the C3 vegetation (permil)",
+        "GPP-weighted 13C discrimination of the C3 vegetation",
     ),
     (
         "discrimination_c4",
         "1e-3",
         None,
-        "GPP-weighted 13C discrimination of the C4 vegetation (permil)",
+        "GPP-weighted 13C discrimination of the C4 vegetation",
     ),
     (
         "d13c_assimilate",
         "1e-3",
         None,
-        "GPP-weighted d13C of the assimilate (permil VPDB)",
+        "GPP-weighted d13C of the assimilate (VPDB)",
     ),
     ("c4_share", "1", None, "share of GPP fixed by C4 vegetation"),
     (
         "d13c_respiration",
         "1e-3",
         None,
-        "respiration-weighted d13C of ecosystem respiration (permil VPDB)",
+        "respiration-weighted d13C of ecosystem respiration (VPDB)",
     ),
     (
         "disequilibrium",
         "1e-3",
         None,
-        "isotopic disequilibrium d13c_respiration - d13c_assimilate (permil)",
+        "isotopic disequilibrium d13c_respiration - d13c_assimilate",
     ),
     (
         "isoflux_discrimination",
         "1e-3 kg m-2 s-1",
         None,
-        "photosynthetic isoflux gpp x discrimination (permil kg C m-2 s-1)",
+        "photosynthetic isoflux gpp x discrimination",
     ),
     (
         "isoflux_disequilibrium",
         "1e-3 kg m-2 s-1",
         None,
-        "disequilibrium isoflux reco x disequilibrium (permil kg C m-2 s-1)",
+        "disequilibrium isoflux reco x disequilibrium",
     ),
 ];
 

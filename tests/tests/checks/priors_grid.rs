@@ -483,3 +483,154 @@ fn batch_priors_have_what_xarray_needs_and_fluxes_per_second() {
     let sd = fr.read_var("gpp_sd").unwrap().get_f64_into().unwrap();
     assert!(sd.iter().all(|x| *x == NC_FILL_F64));
 }
+
+/// An invented 10° global grid over January and July 2025: land where an invented pattern is
+/// positive, GPP and Δ smooth functions of latitude and season, one land cell without a value.
+/// Built through `standard_fields` from hand-made monthly sums, as a grid run builds it.
+fn invented_grid() -> GridPriors {
+    let (lat_bnds, lon_bnds) = global_bounds(10.0);
+    let centre = |b: &[[f64; 2]]| b.iter().map(|[a, z]| 0.5 * (a + z)).collect::<Vec<_>>();
+    let (lat, lon) = (centre(&lat_bnds), centre(&lon_bnds));
+    let months = vec![(2025, 1), (2025, 7)];
+    let mut land_mask = Vec::new();
+    let mut cells = Vec::new();
+    for (i, &y) in lat.iter().enumerate() {
+        for (j, &x) in lon.iter().enumerate() {
+            let land = (x.to_radians() * 2.0).sin() + 0.6 * (y.to_radians() * 3.0).cos() > 0.3
+                && y > -60.0
+                && y < 80.0;
+            land_mask.push(u8::from(land));
+            if !land || (i, j) == (9, 20) {
+                cells.push(Vec::new());
+                continue;
+            }
+            let member = months
+                .iter()
+                .map(|&(_, m)| {
+                    let summer = if (m == 7) == (y > 0.0) { 1.0 } else { 0.3 };
+                    let gpp = 300.0 * y.to_radians().cos().powi(2) * summer;
+                    let share = (0.5 - y.abs() / 60.0).clamp(0.0, 0.6);
+                    let disc = 19.0 * (1.0 - share) + 4.0 * share;
+                    Some(MonthAggregate {
+                        gpp_g_m2: gpp,
+                        gpp_c4_g_m2: share * gpp,
+                        discrimination_permil: disc,
+                        discrimination_c3_permil: 19.0,
+                        discrimination_c4_permil: 4.0,
+                        d13c_assimilate_permil: -8.5 - disc,
+                        reco_g_m2: 0.9 * gpp + 20.0,
+                        d13c_respiration_permil: -8.5 - disc + 0.8,
+                        disequilibrium_permil: 0.8,
+                        complete: true,
+                    })
+                })
+                .collect();
+            cells.push(vec![member]);
+        }
+    }
+    GridPriors {
+        lat,
+        lon,
+        lat_bnds,
+        lon_bnds,
+        fields: standard_fields(&months, &cells, false),
+        month_starts: months,
+        land_mask,
+        attributes: GridAttributes::new(
+            "invented 10-degree grid (not real data)",
+            "isodisc-checks priors_grid::invented_grid",
+        ),
+    }
+}
+
+#[test]
+fn invented_grid_matches_its_golden_copy_and_maps() {
+    // Golden copy (common practice): tests/golden/priors_grid/priors_grid.nc, also the input of
+    // the documented `isodisc plot --map` example and of tests/fixtures/check_priors_xarray.py.
+    // Compared after reading back, apart from the isodisc version it records;
+    // ISODISC_UPDATE_GOLDEN=1 rewrites it.
+    let golden = Path::new(env!("CARGO_MANIFEST_DIR")).join("golden/priors_grid");
+    let dir = tempfile::tempdir().unwrap();
+    let g = invented_grid();
+    write_priors_grid(&dir.path().join("priors_grid.nc"), &g).unwrap();
+    if std::env::var_os("ISODISC_UPDATE_GOLDEN").is_some() {
+        fs::create_dir_all(&golden).unwrap();
+        write_priors_grid(&golden.join("priors_grid.nc"), &g).unwrap();
+    }
+    let mut want = read_priors_grid(&golden.join("priors_grid.nc")).unwrap();
+    let mut got = read_priors_grid(&dir.path().join("priors_grid.nc")).unwrap();
+    want.attributes.isodisc_version.clear();
+    got.attributes.isodisc_version.clear();
+    let bits = |p: &GridPriors| -> Vec<Vec<u64>> {
+        p.fields
+            .iter()
+            .map(|f| f.values.iter().map(|v| v.to_bits()).collect())
+            .collect()
+    };
+    assert_eq!(
+        bits(&got),
+        bits(&want),
+        "field values differ from the golden copy"
+    );
+    let strip = |mut p: GridPriors| {
+        for f in &mut p.fields {
+            f.values.clear();
+        }
+        p
+    };
+    assert_eq!(strip(got), strip(want));
+
+    // The map of July GPP: one rectangle per run of equal colour; the land cell without a value
+    // is grey, the cells not run pale; title, unit (g C m-2 d-1) and the key are written.
+    let out = dir.path().join("maps");
+    crate::common::run(&[
+        "plot",
+        golden.to_str().unwrap(),
+        "--map",
+        "gpp",
+        "--month",
+        "2025-07",
+        "--out",
+        out.to_str().unwrap(),
+    ])
+    .unwrap();
+    let svg = fs::read_to_string(out.join("map_gpp_2025-07.svg")).unwrap();
+    assert!(svg.contains("gpp, 2025-07") && svg.contains("gross primary production"));
+    assert!(svg.contains("g C m⁻² d⁻¹"));
+    assert!(svg.contains("no value") && svg.contains("not run"));
+    assert_eq!(
+        svg.matches(r##"fill="#969696""##).count(),
+        2,
+        "one grey cell + its key"
+    );
+    assert!(svg.contains(r##"fill="#E4E8EC""##), "cells not run");
+    assert!(
+        svg.contains("60°N") && svg.contains("120°W"),
+        "lat/lon tick labels"
+    );
+    // Refusals name the variable or month and what the file has.
+    let e = crate::common::run(&[
+        "plot",
+        golden.to_str().unwrap(),
+        "--map",
+        "gdp",
+        "--month",
+        "2025-07",
+        "--out",
+        out.to_str().unwrap(),
+    ])
+    .unwrap_err();
+    assert!(e.contains("--map gdp") && e.contains("gpp, reco"), "{e}");
+    let e = crate::common::run(&[
+        "plot",
+        golden.to_str().unwrap(),
+        "--map",
+        "gpp",
+        "--month",
+        "2025-03",
+        "--out",
+        out.to_str().unwrap(),
+    ])
+    .unwrap_err();
+    assert!(e.contains("2025-01 to 2025-07"), "{e}");
+}
