@@ -315,7 +315,8 @@ pub struct CompareArgs {
 /// `isodisc plot`.
 #[derive(Debug, clap::Args)]
 pub struct PlotArgs {
-    /// A run's results folder (daily.csv; quantiles_monthly.csv if an ensemble wrote one).
+    /// A run's results folder (daily.csv; quantiles_monthly.csv if an ensemble wrote one), or a
+    /// folder holding priors_grid.nc for --map.
     pub dir: PathBuf,
     /// Folder for the SVG figures [default: DIR/figures].
     #[arg(long, value_name = "FIGDIR")]
@@ -335,6 +336,12 @@ pub struct PlotArgs {
     /// Column of the observed file.
     #[arg(long, default_value = "d13c_respiration", requires = "observed")]
     pub observed_column: String,
+    /// Map of this variable of DIR/priors_grid.nc (gpp, discrimination, ...; docs/priors.md).
+    #[arg(long, value_name = "VARIABLE", requires = "month")]
+    pub map: Option<String>,
+    /// Month of the map.
+    #[arg(long, value_name = "YYYY-MM", requires = "map")]
+    pub month: Option<String>,
 }
 
 /// `isodisc ensemble`.

@@ -12,6 +12,7 @@ pub mod grid;
 pub mod netcdf_in;
 pub mod output;
 pub mod priors;
+pub mod priors_grid;
 pub mod simulate;
 pub mod site;
 pub mod site_params;

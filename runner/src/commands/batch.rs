@@ -381,8 +381,7 @@ impl BatchPlan {
             let loc = &s.site.settings.location;
             let rows = prior_rows(
                 &s.id,
-                loc.latitude_deg(),
-                loc.longitude_deg(),
+                (loc.latitude_deg(), loc.longitude_deg(), loc.utc_offset_h()),
                 s.weight,
                 &members,
             );

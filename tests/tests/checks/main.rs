@@ -12,6 +12,7 @@ mod observations;
 mod phenology_cold;
 mod plots;
 mod pools;
+mod priors_grid;
 mod robustness;
 mod runner_forcing;
 mod runner_leaf;
