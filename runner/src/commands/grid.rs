@@ -15,8 +15,9 @@ use super::parse_period;
 use crate::cli::GridArgs;
 use crate::error::{Context, Error, Result};
 use crate::grid::Grid;
-use crate::grid::output::{Layout, blocks, gather, read_block, write_block, write_priors_grid};
+use crate::grid::output::{Layout, blocks, gather, read_block, write_block};
 use crate::output::{plural, write_json, write_marker};
+use crate::priors_grid::write_priors_grid;
 
 /// The file name of the gridded priors.
 pub const PRIORS_GRID: &str = "priors_grid.nc";
@@ -173,7 +174,7 @@ impl GridPlan {
         let whole = shard.is_none_or(|(_, n)| n == 1);
         if whole {
             let priors = gather(&layout, &[out.to_path_buf()])?;
-            write_priors_grid(&out.join(PRIORS_GRID), &priors, &layout.title())?;
+            write_priors_grid(&out.join(PRIORS_GRID), &priors)?;
         }
         if !self.quiet {
             let a = &self.grid.forcing.axes;
@@ -253,7 +254,7 @@ pub fn merge_grid(shards: &[PathBuf], out: &Path, overwrite: bool, quiet: bool) 
     let (identity, layout) = first.ok_or_else(|| Error::msg("no shard folders given"))?;
     let priors = gather(&layout, shards)?;
     crate::output::write_folder(out, overwrite, "merge", |tmp| -> Result<()> {
-        write_priors_grid(&tmp.join(PRIORS_GRID), &priors, &layout.title())?;
+        write_priors_grid(&tmp.join(PRIORS_GRID), &priors)?;
         write_json(&tmp.join("grid.json"), &identity)
     })?;
     if !quiet {

@@ -17,51 +17,25 @@ use crate::error::{Context, Error, Result};
 use crate::forcing::{LocalTime, Variable};
 use crate::netcdf_in::forcing::NcForcingConfig;
 use crate::netcdf_in::{GriddedForcing, read_map};
-use crate::simulate::{NoSink, PERIOD_COLUMNS, period_col, simulate};
+use crate::simulate::{NoSink, period_col, simulate};
 use crate::site::Site;
 
 /// Land cells per block: the unit of resuming and sharding.
 pub const BLOCK_CELLS: usize = 32;
 
-/// The monthly fields of the grid output: period columns of the site run, with their units as
-/// written to the NetCDF file.
-pub const GRID_FIELDS: [(&str, &str, &str); 8] = [
-    (
-        "gpp",
-        "g m-2",
-        "gross primary production summed over the month (grams of carbon)",
-    ),
-    ("c4_share", "1", "share of GPP fixed by C4 vegetation"),
-    (
-        "discrimination",
-        "1e-3",
-        "GPP-weighted ecosystem 13C discrimination (permil)",
-    ),
-    (
-        "d13c_assimilate",
-        "1e-3",
-        "GPP-weighted d13C of the assimilate (permil VPDB)",
-    ),
-    (
-        "reco",
-        "g m-2",
-        "ecosystem respiration summed over the month (grams of carbon)",
-    ),
-    (
-        "d13c_respiration",
-        "1e-3",
-        "respiration-weighted d13C of ecosystem respiration (permil VPDB)",
-    ),
-    (
-        "nee",
-        "g m-2",
-        "net ecosystem exchange, reco - gpp, summed over the month (grams of carbon)",
-    ),
-    (
-        "disequilibrium",
-        "1e-3",
-        "d13c_respiration - d13c_assimilate over the month (permil)",
-    ),
+/// The monthly columns of a cell's run kept in a block file: what
+/// [`crate::priors_grid::MonthAggregate`] needs for the standard gridded priors.
+pub const GRID_FIELDS: [&str; 10] = [
+    "gpp",
+    "gpp_c4",
+    "discrimination",
+    "discrimination_c3",
+    "discrimination_c4",
+    "d13c_assimilate",
+    "reco",
+    "d13c_respiration",
+    "disequilibrium",
+    "complete",
 ];
 
 /// A value of the grid file: a constant (any TOML value) or a map `{ file, variable }` read onto
@@ -499,7 +473,7 @@ impl Grid {
             let Some(m) = self.month_index(&row.key) else {
                 continue;
             };
-            for (f, (name, ..)) in GRID_FIELDS.iter().enumerate() {
+            for (f, name) in GRID_FIELDS.iter().enumerate() {
                 out[f * nm + m] = row.values[period_col(name)];
             }
         }
@@ -568,20 +542,6 @@ impl Grid {
         crate::output::write_atomic(&weather, csv.as_bytes())?;
         written.push(weather);
         Ok(written)
-    }
-
-    /// Units of the fields as the run's monthly table states them (for grid.json).
-    pub fn field_units() -> Vec<(&'static str, &'static str)> {
-        GRID_FIELDS
-            .iter()
-            .map(|(n, ..)| {
-                let unit = PERIOD_COLUMNS
-                    .iter()
-                    .find(|c| c.0 == *n)
-                    .map_or("", |c| c.1);
-                (*n, unit)
-            })
-            .collect()
     }
 }
 

@@ -1,13 +1,14 @@
-//! What a grid run writes: one file per finished block of cells (`blocks/NNNNNN.bin`), the run's
-//! identity (`grid.json`), and, when every block is done, `priors_grid.nc` — CF-1.8 monthly
-//! fields on the grid. The NetCDF file depends only on the block values and the grid, so shards
-//! merged give the same bytes as one run.
+//! What a grid run writes: one file per finished block of cells (`blocks/NNNNNN.bin`: each cell's
+//! monthly aggregates), the run's identity (`grid.json`), and, when every block is done,
+//! `priors_grid.nc` — the standard gridded priors of [`crate::priors_grid`]. The NetCDF file
+//! depends only on the block values and the grid, so shards merged give the same bytes as one run.
 
 use std::path::{Path, PathBuf};
 
-use netcdf3::{DataSet, FileWriter, NC_FILL_F64, Version};
-
 use super::{BLOCK_CELLS, GRID_FIELDS, Grid};
+use crate::error::{Context, Error, Result};
+use crate::priors_grid::{GridAttributes, GridPriors, MonthAggregate, standard_fields};
+use crate::simulate::{PERIOD_COLUMNS, PeriodRow, period_col};
 
 /// What the output of a grid run depends on besides the cells' values: kept in `grid.json` so
 /// that `isodisc merge` needs neither the grid file nor its weather.
@@ -58,7 +59,7 @@ impl Layout {
             "months": self.months.iter().map(|(y, m)| format!("{y:04}-{m:02}")).collect::<Vec<_>>(),
             "land_cells": self.land,
             "block_cells": BLOCK_CELLS,
-            "fields": GRID_FIELDS.iter().map(|f| f.0).collect::<Vec<_>>(),
+            "fields": GRID_FIELDS,
         })
     }
 
@@ -104,24 +105,9 @@ impl Layout {
         format!("isodisc monthly priors on the grid of {}", self.grid_file)
     }
 }
-use crate::error::{Context, Error, Result};
 
 /// First bytes of a block file.
 const BLOCK_MAGIC: &[u8] = b"isodisc grid block 1\n";
-
-/// Gridded monthly priors in memory.
-#[derive(Debug, Clone, PartialEq)]
-pub struct GridPriors {
-    /// Cell-centre latitudes and longitudes, degrees.
-    pub lat: Vec<f64>,
-    pub lon: Vec<f64>,
-    /// Months, (year, month).
-    pub month_starts: Vec<(i32, u32)>,
-    /// 1 where a cell was run, `[lat][lon]`.
-    pub land_mask: Vec<u8>,
-    /// One entry per field of [`GRID_FIELDS`]: values `[time][lat][lon]`, NaN = no value.
-    pub fields: Vec<Vec<f64>>,
-}
 
 /// The blocks of a grid: land cells in order, [`BLOCK_CELLS`] at a time.
 pub fn blocks(layout: &Layout) -> Vec<&[usize]> {
@@ -190,17 +176,18 @@ pub fn read_block(grid: &Layout, path: &Path, cells: &[usize]) -> Result<Option<
 }
 
 /// Gathers every block from `dirs` (each block from the first folder holding it) into the
-/// gridded priors; an error names the first block that none holds.
+/// standard gridded priors; an error names the first block that none holds.
 pub fn gather(grid: &Layout, dirs: &[PathBuf]) -> Result<GridPriors> {
-    let (nlat, nlon) = (grid.lat.len(), grid.lon.len());
-    let ncell = nlat * nlon;
+    let ncell = grid.lat.len() * grid.lon.len();
     let nm = grid.months.len();
-    let mut fields = vec![vec![f64::NAN; nm * ncell]; GRID_FIELDS.len()];
+    // cells[c][member][month]: one member per cell with vegetation, none elsewhere.
+    let mut cells: Vec<Vec<Vec<Option<MonthAggregate>>>> = vec![Vec::new(); ncell];
     let mut land_mask = vec![0u8; ncell];
-    for (b, cells) in blocks(grid).into_iter().enumerate() {
+    let all = blocks(grid);
+    for (b, block) in all.iter().enumerate() {
         let mut found = None;
         for d in dirs {
-            if let Some(v) = read_block(grid, &block_path(d, b), cells)? {
+            if let Some(v) = read_block(grid, &block_path(d, b), block)? {
                 found = Some(v);
                 break;
             }
@@ -208,168 +195,77 @@ pub fn gather(grid: &Layout, dirs: &[PathBuf]) -> Result<GridPriors> {
         let values = found.ok_or_else(|| {
             Error::msg(format!(
                 "block {b} of {} (cells {}…{}) is in none of {}",
-                blocks(grid).len(),
-                cells[0],
-                cells[cells.len() - 1],
+                all.len(),
+                block[0],
+                block[block.len() - 1],
                 dirs.iter()
                     .map(|d| d.display().to_string())
                     .collect::<Vec<_>>()
                     .join(", ")
             ))
         })?;
-        for (&cell, v) in cells.iter().zip(values) {
+        for (&cell, v) in block.iter().zip(values) {
             land_mask[cell] = 1;
-            for f in 0..GRID_FIELDS.len() {
-                for m in 0..nm {
-                    fields[f][m * ncell + cell] = v[f * nm + m];
-                }
-            }
+            let months = (0..nm)
+                .map(|m| {
+                    // A month the run did not reach has no `complete` flag.
+                    let complete = v[GRID_FIELDS
+                        .iter()
+                        .position(|f| *f == "complete")
+                        .expect("listed")
+                        * nm
+                        + m];
+                    if complete.is_nan() {
+                        return None;
+                    }
+                    let mut row = PeriodRow {
+                        key: String::new(),
+                        values: vec![f64::NAN; PERIOD_COLUMNS.len() - 1],
+                    };
+                    for (f, name) in GRID_FIELDS.iter().enumerate() {
+                        row.values[period_col(name)] = v[f * nm + m];
+                    }
+                    Some(MonthAggregate::from_period_row(&row))
+                })
+                .collect();
+            cells[cell] = vec![months];
         }
     }
     Ok(GridPriors {
         lat: grid.lat.clone(),
         lon: grid.lon.clone(),
+        lat_bnds: bounds(&grid.lat),
+        lon_bnds: bounds(&grid.lon),
         month_starts: grid.months.clone(),
         land_mask,
-        fields,
+        fields: standard_fields(&grid.months, &cells, false),
+        attributes: GridAttributes::new(&grid.title(), &format!("isodisc grid {}", grid.grid_file)),
     })
 }
 
-/// Cell bounds from centres: midpoints, the outer edges half a spacing out.
-fn bounds(c: &[f64]) -> Vec<f64> {
+/// Cell bounds from centres: midpoints, the outer edges half a spacing out; each pair ordered
+/// low to high whichever way the coordinate runs.
+fn bounds(c: &[f64]) -> Vec<[f64; 2]> {
     let n = c.len();
-    let mut out = Vec::with_capacity(2 * n);
-    for i in 0..n {
-        let lo = if i > 0 {
-            (c[i - 1] + c[i]) / 2.0
-        } else if n > 1 {
-            c[0] - (c[1] - c[0]) / 2.0
-        } else {
-            c[0] - 0.25
-        };
-        let hi = if i + 1 < n {
-            (c[i] + c[i + 1]) / 2.0
-        } else if n > 1 {
-            c[n - 1] + (c[n - 1] - c[n - 2]) / 2.0
-        } else {
-            c[0] + 0.25
-        };
-        out.push(lo);
-        out.push(hi);
-    }
-    out
-}
-
-/// Days from 1970-01-01 to the first of a month.
-fn days_since_1970(y: i32, m: u32) -> f64 {
-    let t = crate::forcing::LocalTime::from_ymdhm(y, m, 1, 0, 0).expect("a valid month");
-    (t.minutes() / 1440) as f64
-}
-
-/// Writes `priors_grid.nc` (NetCDF classic, CF-1.8) through a temporary file.
-pub fn write_priors_grid(path: &Path, p: &GridPriors, title: &str) -> Result<()> {
-    let nc = |what: &str, e: &dyn std::fmt::Debug| {
-        Error::msg(format!("{}: NetCDF {what}: {e:?}", path.display()))
-    };
-    let def = |e: netcdf3::InvalidDataSet| nc("definition", &e);
-    let mut ds = DataSet::new();
-    let nm = p.month_starts.len();
-    ds.add_fixed_dim("time", nm).map_err(def)?;
-    ds.add_fixed_dim("lat", p.lat.len()).map_err(def)?;
-    ds.add_fixed_dim("lon", p.lon.len()).map_err(def)?;
-    ds.add_fixed_dim("bnds", 2).map_err(def)?;
-    ds.add_var_f64("time", &["time"]).map_err(def)?;
-    for (k, v) in [
-        ("units", "days since 1970-01-01 00:00:00"),
-        ("calendar", "standard"),
-        ("standard_name", "time"),
-        ("long_name", "start of the month (UTC)"),
-        ("bounds", "time_bnds"),
-    ] {
-        ds.add_var_attr_string("time", k, v).map_err(def)?;
-    }
-    ds.add_var_f64("time_bnds", &["time", "bnds"])
-        .map_err(def)?;
-    for (name, units, std) in [
-        ("lat", "degrees_north", "latitude"),
-        ("lon", "degrees_east", "longitude"),
-    ] {
-        ds.add_var_f64(name, &[name]).map_err(def)?;
-        ds.add_var_attr_string(name, "units", units).map_err(def)?;
-        ds.add_var_attr_string(name, "standard_name", std)
-            .map_err(def)?;
-        ds.add_var_attr_string(name, "bounds", format!("{name}_bnds"))
-            .map_err(def)?;
-        ds.add_var_f64(&format!("{name}_bnds"), &[name, "bnds"])
-            .map_err(def)?;
-    }
-    ds.add_var_u8("land_mask", &["lat", "lon"]).map_err(def)?;
-    ds.add_var_attr_string(
-        "land_mask",
-        "long_name",
-        "1 where the cell has vegetation and was run",
-    )
-    .map_err(def)?;
-    ds.add_var_attr_string("land_mask", "flag_values", "0 1")
-        .map_err(def)?;
-    for (name, units, long) in GRID_FIELDS {
-        ds.add_var_f64(name, &["time", "lat", "lon"]).map_err(def)?;
-        ds.add_var_attr_string(name, "units", units).map_err(def)?;
-        ds.add_var_attr_string(name, "long_name", long)
-            .map_err(def)?;
-        ds.add_var_attr_f64(name, "_FillValue", vec![NC_FILL_F64])
-            .map_err(def)?;
-    }
-    ds.add_global_attr_string("title", title).map_err(def)?;
-    ds.add_global_attr_string("Conventions", "CF-1.8")
-        .map_err(def)?;
-    ds.add_global_attr_string(
-        "source",
-        format!(
-            "isodisc {} grid (site model with carbon/13C pools per cell)",
-            env!("CARGO_PKG_VERSION")
-        ),
-    )
-    .map_err(def)?;
-
-    let tmp = crate::output::sibling(path, "tmp");
-    crate::output::track_temp(&tmp);
-    let result = (|| -> Result<()> {
-        let w = |e: netcdf3::WriteError| nc("write", &e);
-        let mut fw = FileWriter::open(&tmp).map_err(w)?;
-        fw.set_def(&ds, Version::Offset64Bit, 0).map_err(w)?;
-        let starts: Vec<f64> = p
-            .month_starts
-            .iter()
-            .map(|&(y, m)| days_since_1970(y, m))
-            .collect();
-        let mut tb = Vec::with_capacity(2 * nm);
-        for &(y, m) in &p.month_starts {
-            let (ny, nmo) = if m == 12 { (y + 1, 1) } else { (y, m + 1) };
-            tb.push(days_since_1970(y, m));
-            tb.push(days_since_1970(ny, nmo));
-        }
-        fw.write_var_f64("time", &starts).map_err(w)?;
-        fw.write_var_f64("time_bnds", &tb).map_err(w)?;
-        fw.write_var_f64("lat", &p.lat).map_err(w)?;
-        fw.write_var_f64("lat_bnds", &bounds(&p.lat)).map_err(w)?;
-        fw.write_var_f64("lon", &p.lon).map_err(w)?;
-        fw.write_var_f64("lon_bnds", &bounds(&p.lon)).map_err(w)?;
-        fw.write_var_u8("land_mask", &p.land_mask).map_err(w)?;
-        for ((name, ..), values) in GRID_FIELDS.iter().zip(&p.fields) {
-            let filled: Vec<f64> = values
-                .iter()
-                .map(|x| if x.is_nan() { NC_FILL_F64 } else { *x })
-                .collect();
-            fw.write_var_f64(name, &filled).map_err(w)?;
-        }
-        fw.close().map_err(w)?;
-        std::fs::rename(&tmp, path)
-            .with_context(|| format!("cannot move the result into {}", path.display()))
-    })();
-    if result.is_err() {
-        let _ = std::fs::remove_file(&tmp);
-    }
-    crate::output::untrack(&tmp);
-    result
+    let half = if n > 1 { (c[1] - c[0]) / 2.0 } else { 0.25 };
+    (0..n)
+        .map(|i| {
+            let lo = if i > 0 {
+                (c[i - 1] + c[i]) / 2.0
+            } else {
+                c[0] - half
+            };
+            let hi = if i + 1 < n {
+                (c[i] + c[i + 1]) / 2.0
+            } else {
+                c[n - 1]
+                    + if n > 1 {
+                        (c[n - 1] - c[n - 2]) / 2.0
+                    } else {
+                        0.25
+                    }
+            };
+            [lo.min(hi), lo.max(hi)]
+        })
+        .collect()
 }

@@ -65,7 +65,7 @@ fn run_site(site: &Path, months: &[(i32, u32)]) -> Vec<f64> {
             .iter()
             .position(|(y, mo)| format!("{y:04}-{mo:02}") == row.key)
             .unwrap();
-        for (f, (name, ..)) in GRID_FIELDS.iter().enumerate() {
+        for (f, name) in GRID_FIELDS.iter().enumerate() {
             out[f * nm + m] = row.values[period_col(name)];
         }
     }
@@ -76,7 +76,7 @@ fn assert_same(a: &[f64], b: &[f64], tol: f64, what: &str) {
     assert_eq!(a.len(), b.len(), "{what}");
     let nm = a.len() / GRID_FIELDS.len();
     for (k, (x, y)) in a.iter().zip(b).enumerate() {
-        let field = GRID_FIELDS[k / nm].0;
+        let field = GRID_FIELDS[k / nm];
         assert!(
             (x.is_nan() && y.is_nan()) || (x - y).abs() <= tol * (1.0 + y.abs()),
             "{what}: {field} month {}: {x} vs {y}",
@@ -116,13 +116,6 @@ fn each_cell_equals_isodisc_run_on_its_export() {
     .unwrap();
     crate::common::run_quiet(&dir.join("site.toml"), &tmp.path().join("run")).unwrap();
     assert!(tmp.path().join("run/monthly.csv").is_file());
-}
-
-/// The file `priors_grid.nc` holds each cell's values at its place and fill values over sea
-/// (read back with the netcdf3 reader).
-fn read_nc_field(path: &Path, name: &str) -> Vec<f64> {
-    let mut r = netcdf3::FileReader::open(path).unwrap();
-    r.read_var_f64(name).unwrap()
 }
 
 /// Shards 1/2 and 2/2 merged give the same bytes as one run; a run whose block file was removed
@@ -174,12 +167,20 @@ fn shards_merged_and_a_resumed_run_equal_one_run_byte_for_byte() {
         Some(LocalTime::parse_date("2001-03-01").unwrap()),
     )
     .unwrap();
-    let gpp = read_nc_field(&tmp.path().join("one/priors_grid.nc"), "gpp");
+    let path = tmp.path().join("one/priors_grid.nc");
+    let mut r = isodisc_runner::netcdf_in::open(&path).unwrap();
+    let gpp = isodisc_runner::netcdf_in::read_values(&mut r, &path, "gpp").unwrap();
     let ncell = grid.forcing.axes.cells();
     let cell = grid.land[5];
     let v = grid.run_cell(cell).unwrap();
-    assert_eq!(gpp[ncell + cell], v[1], "February GPP of cell {cell}");
-    assert_eq!(gpp[0], netcdf3::NC_FILL_F64, "a sea cell");
+    // February GPP in kg C m-2 s-1: the month's sum in g C m-2 / 1000 / 28 days.
+    let expected = v[1] * 1e-3 / (28.0 * 86_400.0);
+    assert!(
+        (gpp[ncell + cell] - expected).abs() <= 1e-6 * expected,
+        "February GPP of cell {cell}: {} vs {expected}",
+        gpp[ncell + cell]
+    );
+    assert!(gpp[0].is_nan(), "a sea cell");
 }
 
 /// The packed copy (int16 with scale_factor and add_offset, CF 1.8 section 8.1) gives the same
