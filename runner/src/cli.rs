@@ -44,6 +44,8 @@ pub enum Command {
     ClusterScript(ClusterScriptArgs),
     /// Calibrates a site's parameters to observations: the posterior by an ensemble sampler.
     Fit(FitArgs),
+    /// Every vegetated cell of gridded NetCDF weather run as a site: monthly priors on the grid.
+    Grid(GridArgs),
 }
 
 /// `isodisc run`.
@@ -315,7 +317,8 @@ pub struct CompareArgs {
 /// `isodisc plot`.
 #[derive(Debug, clap::Args)]
 pub struct PlotArgs {
-    /// A run's results folder (daily.csv; quantiles_monthly.csv if an ensemble wrote one).
+    /// A run's results folder (daily.csv; quantiles_monthly.csv if an ensemble wrote one), or a
+    /// folder holding priors_grid.nc for --map.
     pub dir: PathBuf,
     /// Folder for the SVG figures [default: DIR/figures].
     #[arg(long, value_name = "FIGDIR")]
@@ -335,6 +338,12 @@ pub struct PlotArgs {
     /// Column of the observed file.
     #[arg(long, default_value = "d13c_respiration", requires = "observed")]
     pub observed_column: String,
+    /// Map of this variable of DIR/priors_grid.nc (gpp, discrimination, ...; docs/priors.md).
+    #[arg(long, value_name = "VARIABLE", requires = "month")]
+    pub map: Option<String>,
+    /// Month of the map.
+    #[arg(long, value_name = "YYYY-MM", requires = "map")]
+    pub month: Option<String>,
 }
 
 /// `isodisc ensemble`.
@@ -544,6 +553,40 @@ pub struct FitArgs {
     #[arg(long)]
     pub overwrite: bool,
     /// No progress bar and no summary.
+    #[arg(long)]
+    pub quiet: bool,
+}
+
+/// `isodisc grid`.
+#[derive(Debug, clap::Args)]
+pub struct GridArgs {
+    /// The grid file (TOML; see docs/grid.md).
+    pub grid: PathBuf,
+    /// Folder for the results; an interrupted run re-run into it resumes.
+    #[arg(long, conflicts_with_all = ["cell", "export"])]
+    pub out: Option<PathBuf>,
+    /// Run only shard K of N (blocks of 32 vegetated cells whose 0-based index mod N is K - 1),
+    /// e.g. 2/3; or `env`: the shard of this Slurm array task.
+    #[arg(long, value_name = "K/N|env", requires = "out")]
+    pub shard: Option<String>,
+    /// Worker threads [default: one per core].
+    #[arg(long)]
+    pub threads: Option<usize>,
+    /// The cell nearest LAT,LON (degrees north, east) to export (with --export).
+    #[arg(
+        long,
+        value_name = "LAT,LON",
+        requires = "export",
+        allow_hyphen_values = true
+    )]
+    pub cell: Option<String>,
+    /// Folder to write the cell's site.toml and weather.csv into (with --cell).
+    #[arg(long, requires = "cell")]
+    pub export: Option<PathBuf>,
+    /// The days to run.
+    #[command(flatten)]
+    pub period: PeriodArgs,
+    /// Print nothing on success.
     #[arg(long)]
     pub quiet: bool,
 }

@@ -9,8 +9,11 @@ pub mod ensemble;
 pub mod error;
 pub mod fit;
 pub mod forcing;
+pub mod grid;
+pub mod netcdf_in;
 pub mod output;
 pub mod priors;
+pub mod priors_grid;
 pub mod simulate;
 pub mod site;
 pub mod site_params;
@@ -47,6 +50,7 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Plot(args) => commands::plot::PlotPlan::from_args(&args)?.run(),
         Command::Ensemble(args) => commands::ensemble::EnsemblePlan::from_args(&args)?.run(),
         Command::Batch(args) => commands::batch::BatchPlan::from_args(&args)?.run(),
+        Command::Grid(args) => commands::grid::GridPlan::from_args(&args)?.run(),
         Command::Merge(args) => commands::merge::MergePlan::from_args(&args)?.run(),
         Command::ClusterScript(args) => {
             commands::cluster::ClusterScriptPlan::from_args(&args)?.run()

@@ -406,6 +406,12 @@ impl Site {
         let text = std::fs::read_to_string(path).map_err(|e| {
             Error::msg(format!("cannot read the site file {}: {e}", path.display()))
         })?;
+        Self::from_text(path, text)
+    }
+
+    /// Validates the text of a site file as if read from `path` (relative paths in it are taken
+    /// from `path`'s folder): a grid builds each cell's site this way.
+    pub fn from_text(path: &Path, text: String) -> Result<Self> {
         let file: SiteFile = toml::from_str(&text)
             .map_err(|e| toml_error(path, &text, e))
             .map_err(site_err)?;

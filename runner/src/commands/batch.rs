@@ -60,7 +60,7 @@ pub struct BatchPlan {
 }
 
 /// Parses `K/N` (1 ≤ K ≤ N), or `env`: the shard of a Slurm array task (see [`shard_from_env`]).
-fn parse_shard(s: &str) -> Result<(usize, usize)> {
+pub(crate) fn parse_shard(s: &str) -> Result<(usize, usize)> {
     if s == "env" {
         return shard_from_env(|name| std::env::var(name).ok());
     }
@@ -381,8 +381,7 @@ impl BatchPlan {
             let loc = &s.site.settings.location;
             let rows = prior_rows(
                 &s.id,
-                loc.latitude_deg(),
-                loc.longitude_deg(),
+                (loc.latitude_deg(), loc.longitude_deg(), loc.utc_offset_h()),
                 s.weight,
                 &members,
             );

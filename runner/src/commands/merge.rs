@@ -68,6 +68,9 @@ impl MergePlan {
 
     /// Checks the shards and writes the merged folder.
     pub fn run(&self) -> Result<()> {
+        if super::grid::is_grid_folder(&self.shards[0]) {
+            return super::grid::merge_grid(&self.shards, &self.out, self.overwrite, self.quiet);
+        }
         let identity = read_batch(&self.shards[0])?;
         for d in &self.shards[1..] {
             if read_batch(d)? != identity {

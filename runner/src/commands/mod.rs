@@ -5,6 +5,7 @@ pub mod cluster;
 pub mod compare;
 pub mod ensemble;
 pub mod fit;
+pub mod grid;
 pub mod keeling;
 pub mod leaf;
 pub mod leaf_input;

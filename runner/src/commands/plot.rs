@@ -2,7 +2,8 @@
 //! course of daily Δ per pathway and for the ecosystem (each day's point as opaque as its GPP is
 //! large, with GPP-weighted running means), predicted δ13C of respiration against observations,
 //! Keeling plots (δ13C against 1/CO2, Keeling 1958) of chosen groups with their fitted lines, and
-//! ensemble envelopes.
+//! ensemble envelopes; and maps of one field and month of gridded priors (`--map`, see
+//! [`map_svg`]).
 //!
 //! Made for slides and papers: time axes ticked at month starts (year starts for long runs),
 //! typographic axis titles with units, legends in their own row above the plot so they hide no
@@ -180,13 +181,31 @@ pub struct PlotPlan {
     out: PathBuf,
     keeling: Option<(PathBuf, PathBuf, Vec<String>)>,
     observed: Option<(PathBuf, String)>,
+    /// `--map VARIABLE --month YYYY-MM` of DIR/priors_grid.nc.
+    map: Option<(String, String)>,
 }
 
 impl PlotPlan {
     /// Checks that the folder holds a run (daily.csv) or an ensemble (quantiles_monthly.csv) and
     /// builds the output folder's path.
     pub fn from_args(args: &PlotArgs) -> Result<Self> {
-        if !args.dir.join("daily.csv").is_file()
+        let map = match (&args.map, &args.month) {
+            (Some(v), Some(m)) => {
+                if crate::priors_grid::parse_month(m).is_none() {
+                    return Err(Error::msg(format!("--month {m}: not a month (YYYY-MM)")));
+                }
+                if !args.dir.join(GRID_FILE).is_file() {
+                    return Err(Error::msg(format!(
+                        "--map {v}: {} has no {GRID_FILE}",
+                        args.dir.display()
+                    )));
+                }
+                Some((v.clone(), m.clone()))
+            }
+            _ => None,
+        };
+        if map.is_none()
+            && !args.dir.join("daily.csv").is_file()
             && !args.dir.join("quantiles_monthly.csv").is_file()
             && !args.dir.join("posterior.csv").is_file()
         {
@@ -215,6 +234,7 @@ impl PlotPlan {
                 .observed
                 .clone()
                 .map(|p| (p, args.observed_column.clone())),
+            map,
         })
     }
 
@@ -230,6 +250,9 @@ impl PlotPlan {
         }
         if let Some((observed, _)) = &self.observed {
             inputs.push(observed.clone());
+        }
+        if self.map.is_some() {
+            inputs.push(self.dir.join(GRID_FILE));
         }
         inputs
     }
@@ -275,10 +298,18 @@ impl PlotPlan {
         if self.dir.join("posterior.csv").is_file() {
             pages.extend(fit_pages(&self.dir)?);
         }
-        pages
+        let mut svgs = pages
             .into_iter()
             .map(|(name, page)| Ok((name, render(&page)?)))
-            .collect()
+            .collect::<Result<Vec<_>>>()?;
+        if let Some((variable, month)) = &self.map {
+            let grid = crate::priors_grid::read_priors_grid(&self.dir.join(GRID_FILE))?;
+            svgs.push((
+                format!("map_{}_{month}.svg", file_stem(variable)),
+                map_svg(&grid, variable, month)?,
+            ));
+        }
+        Ok(svgs)
     }
 
     /// Writes every figure into `tmp` (the temporary folder that becomes the figures folder) and
@@ -1486,4 +1517,288 @@ fn fit_pages(dir: &Path) -> Result<Vec<(String, Page)>> {
         ));
     }
     Ok(pages)
+}
+
+// ---------------------------------------------------------------------------------------------
+// Maps of gridded priors (`--map VARIABLE --month YYYY-MM`, docs/priors.md).
+
+/// File of gridded priors that `--map` reads in DIR.
+pub const GRID_FILE: &str = "priors_grid.nc";
+/// Colour of a land cell without a value.
+const NO_VALUE: RGBColor = RGBColor(150, 150, 150);
+/// Colour of a cell outside the land mask (not run).
+const NOT_RUN: RGBColor = RGBColor(228, 232, 236);
+/// Colour steps of the map and its bar: adjacent cells of one step are drawn as one rectangle.
+const MAP_STEPS: usize = 64;
+/// Viridis anchors (matplotlib's viridis at 0, 0.25, 0.5, 0.75, 1; from memory): sequential,
+/// lightness rising monotonically, readable in greyscale and by colour-blind readers.
+const VIRIDIS: [(u8, u8, u8); 5] = [
+    (68, 1, 84),
+    (59, 82, 139),
+    (33, 145, 140),
+    (94, 201, 98),
+    (253, 231, 37),
+];
+/// Diverging anchors for variables of both signs, centred on 0: ColorBrewer's RdYlBu reversed
+/// (from memory), blue below 0 and red above, a pale yellow middle that stays apart from the
+/// pale grey-blue of cells not run.
+const DIVERGING: [(u8, u8, u8); 5] = [
+    (69, 117, 180),
+    (145, 191, 219),
+    (255, 255, 191),
+    (252, 141, 89),
+    (215, 48, 39),
+];
+
+/// Colour at `t` in 0–1 along piecewise-linear `anchors`.
+fn ramp(anchors: &[(u8, u8, u8)], t: f64) -> RGBColor {
+    let t = t.clamp(0.0, 1.0) * (anchors.len() - 1) as f64;
+    let i = (t.floor() as usize).min(anchors.len() - 2);
+    let f = t - i as f64;
+    let mix = |a: u8, b: u8| (a as f64 + (b as f64 - a as f64) * f).round() as u8;
+    let (a, b) = (anchors[i], anchors[i + 1]);
+    RGBColor(mix(a.0, b.0), mix(a.1, b.1), mix(a.2, b.2))
+}
+
+/// A field's values for display: factor and unit label. Fluxes (kg C m⁻² s⁻¹) are shown in
+/// g C m⁻² d⁻¹ (× 1000 × 86,400), which reads without exponents.
+fn map_units(units: &str) -> (f64, &'static str) {
+    match units {
+        "kg m-2 s-1" => (86_400e3, "g C m⁻² d⁻¹"),
+        "1e-3 kg m-2 s-1" => (86_400e3, "‰ g C m⁻² d⁻¹"),
+        "1e-3" => (1.0, "‰"),
+        _ => (1.0, ""),
+    }
+}
+
+/// Ticks between `lo` and `hi` degrees at a step of 0.5, 1, 2, 5, 10, 15, 30, 60 or 90 degrees
+/// giving about five of them (30° steps of latitude and 60° of longitude on a global map).
+fn degree_ticks(lo: f64, hi: f64) -> Vec<f64> {
+    let raw = (hi - lo) / 5.0;
+    let step = [0.5, 1.0, 2.0, 5.0, 10.0, 15.0, 30.0, 60.0, 90.0]
+        .into_iter()
+        .min_by(|a, b| (a / raw).ln().abs().total_cmp(&(b / raw).ln().abs()))
+        .unwrap_or(1.0);
+    let (first, last) = ((lo / step).ceil() as i64, (hi / step).floor() as i64);
+    (first..=last).map(|k| k as f64 * step).collect()
+}
+
+/// A latitude or longitude tick label: 30°N, 0°, 120°W.
+fn degrees_label(v: f64, pos: char, neg: char) -> String {
+    let a = v.abs();
+    let s = if (a - a.round()).abs() < 1e-9 {
+        format!("{a:.0}°")
+    } else {
+        format!("{a:.1}°")
+    };
+    match v {
+        v if v > 1e-9 => format!("{s}{pos}"),
+        v if v < -1e-9 => format!("{s}{neg}"),
+        _ => s,
+    }
+}
+
+/// The map of `variable` in `month` (YYYY-MM) of gridded priors, as SVG text: each cell its colour
+/// (grey where a land cell has no value, pale where the cell was not run), a colour bar, lat/lon
+/// axes.
+pub fn map_svg(
+    grid: &crate::priors_grid::GridPriors,
+    variable: &str,
+    month: &str,
+) -> Result<String> {
+    let field = grid.field(variable).ok_or_else(|| {
+        let names: Vec<&str> = grid.fields.iter().map(|f| f.name.as_str()).collect();
+        Error::msg(format!(
+            "--map {variable}: no such variable in {GRID_FILE}; it has {}",
+            names.join(", ")
+        ))
+    })?;
+    let t = crate::priors_grid::parse_month(month)
+        .and_then(|m| grid.month_starts.iter().position(|x| *x == m))
+        .ok_or_else(|| {
+            let (a, b) = (
+                grid.month_starts[0],
+                grid.month_starts[grid.month_starts.len() - 1],
+            );
+            Error::msg(format!(
+                "--month {month}: not a month of {GRID_FILE} ({:04}-{:02} to {:04}-{:02})",
+                a.0, a.1, b.0, b.1
+            ))
+        })?;
+    let (nx, nc) = (grid.lon.len(), grid.n_cells());
+    let (factor, unit) = map_units(&field.units);
+    let values: Vec<f64> = field.values[t * nc..(t + 1) * nc]
+        .iter()
+        .zip(&grid.land_mask)
+        .map(|(v, m)| if *m == 1 { v * factor } else { f64::NAN })
+        .collect();
+    let (lo, hi) = values
+        .iter()
+        .filter(|v| v.is_finite())
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| {
+            (a.min(*v), b.max(*v))
+        });
+    let diverging = lo < 0.0 && hi > 0.0;
+    let (lo, hi) = match (lo.is_finite(), diverging) {
+        (false, _) => (0.0, 1.0),
+        (true, true) => (-lo.abs().max(hi), lo.abs().max(hi)),
+        (true, false) if hi > lo => (lo, hi),
+        (true, false) => (lo - 0.5, hi + 0.5),
+    };
+    let anchors: &[(u8, u8, u8)] = if diverging { &DIVERGING } else { &VIRIDIS };
+    let step_of = |v: f64| {
+        (((v - lo) / (hi - lo)) * MAP_STEPS as f64).clamp(0.0, MAP_STEPS as f64 - 1.0) as usize
+    };
+    let step_colour = |k: usize| ramp(anchors, (k as f64 + 0.5) / MAP_STEPS as f64);
+    // Rectangles: runs of adjacent cells of one colour along each latitude row.
+    let mut rects: Vec<([f64; 2], [f64; 2], RGBColor)> = Vec::new();
+    for (i, lat_b) in grid.lat_bnds.iter().enumerate() {
+        let mut j = 0;
+        while j < nx {
+            let colour_of = |j: usize| {
+                let c = i * nx + j;
+                match (grid.land_mask[c], values[c]) {
+                    (0, _) => NOT_RUN,
+                    (_, v) if v.is_finite() => step_colour(step_of(v)),
+                    _ => NO_VALUE,
+                }
+            };
+            let colour = colour_of(j);
+            let mut k = j + 1;
+            while k < nx && colour_of(k) == colour && grid.lon_bnds[k][0] == grid.lon_bnds[k - 1][1]
+            {
+                k += 1;
+            }
+            rects.push((
+                [grid.lon_bnds[j][0], grid.lon_bnds[k - 1][1]],
+                *lat_b,
+                colour,
+            ));
+            j = k;
+        }
+    }
+    let fold = |b: &[[f64; 2]]| {
+        b.iter()
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, z), [x, y]| {
+                (a.min(*x), z.max(*y))
+            })
+    };
+    let (x0, x1) = fold(&grid.lon_bnds);
+    let (y0, y1) = fold(&grid.lat_bnds);
+
+    let title = format!("{variable}, {month}");
+    let mut svg = String::new();
+    {
+        let err = plot_err(&title);
+        let root = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
+        root.fill(&WHITE).map_err(&err)?;
+        let area = root.titled(&title, font(FONT_TITLE)).map_err(&err)?;
+        let (subtitle, area) = area.split_vertically(FONT_NOTE as i32 + 14);
+        subtitle
+            .draw(&Text::new(
+                field.long_name.clone(),
+                (SIZE.0 as i32 / 2, 4),
+                font(FONT_NOTE)
+                    .into_font()
+                    .color(&RGBColor(60, 60, 60))
+                    .pos(plotters::style::text_anchor::Pos::new(
+                        plotters::style::text_anchor::HPos::Center,
+                        plotters::style::text_anchor::VPos::Top,
+                    )),
+            ))
+            .map_err(&err)?;
+        let (map_area, bar_area) = area.split_horizontally(SIZE.0 - 230);
+        // Equal degrees per pixel along both axes (plate carrée): the spare room becomes margin.
+        let (label_x, label_y, pad) = (110, 60, 16);
+        let (w, h) = map_area.dim_in_pixel();
+        let (avail_w, avail_h) = (
+            (w as i32 - label_x - 2 * pad) as f64,
+            (h as i32 - label_y - 2 * pad) as f64,
+        );
+        let scale = (avail_w / (x1 - x0)).min(avail_h / (y1 - y0));
+        let spare_w = ((avail_w - scale * (x1 - x0)) / 2.0) as i32;
+        let spare_h = ((avail_h - scale * (y1 - y0)) / 2.0) as i32;
+        let map_area = map_area.margin(spare_h, spare_h, spare_w, spare_w);
+        let mut chart = ChartBuilder::on(&map_area)
+            .margin(pad)
+            .x_label_area_size(label_y)
+            .y_label_area_size(label_x)
+            .build_cartesian_2d(
+                Ticked {
+                    lo: x0,
+                    hi: x1,
+                    keys: degree_ticks(x0, x1),
+                },
+                Ticked {
+                    lo: y0,
+                    hi: y1,
+                    keys: degree_ticks(y0, y1),
+                },
+            )
+            .map_err(&err)?;
+        chart
+            .configure_mesh()
+            .disable_mesh()
+            .x_label_formatter(&|v| degrees_label(*v, 'E', 'W'))
+            .y_label_formatter(&|v| degrees_label(*v, 'N', 'S'))
+            .label_style(font(FONT_TICK))
+            .axis_style(ShapeStyle::from(&BLACK).stroke_width(2))
+            .draw()
+            .map_err(&err)?;
+        chart
+            .draw_series(
+                rects
+                    .iter()
+                    .map(|([w, e], [s, n], c)| Rectangle::new([(*w, *n), (*e, *s)], c.filled())),
+            )
+            .map_err(&err)?;
+        // The colour bar, with the unit above it and a key to the two greys below.
+        let (bar_top, bar_rest) = bar_area.split_vertically(60);
+        bar_top
+            .draw(&Text::new(
+                unit.to_string(),
+                (10, 30),
+                font(FONT_AXIS).into_font(),
+            ))
+            .map_err(&err)?;
+        let (bar_main, key) = bar_rest.split_vertically(SIZE.1 as i32 - 260);
+        let mut bar = ChartBuilder::on(&bar_main)
+            .margin(16)
+            .y_label_area_size(0)
+            .right_y_label_area_size(120)
+            .build_cartesian_2d(0.0..1.0, lo..hi)
+            .map_err(&err)?;
+        let ticks = nice_ticks(lo, hi);
+        let tick_step = if ticks.len() > 1 {
+            ticks[1] - ticks[0]
+        } else {
+            hi - lo
+        };
+        bar.configure_mesh()
+            .disable_mesh()
+            .disable_x_axis()
+            .y_labels(ticks.len().max(2))
+            .y_label_formatter(&|v| tick_label(*v, tick_step))
+            .label_style(font(FONT_TICK))
+            .draw()
+            .map_err(&err)?;
+        let dv = (hi - lo) / MAP_STEPS as f64;
+        bar.draw_series((0..MAP_STEPS).map(|k| {
+            let a = lo + k as f64 * dv;
+            Rectangle::new([(0.0, a + dv), (1.0, a)], step_colour(k).filled())
+        }))
+        .map_err(&err)?;
+        for (row, (colour, label)) in [(NO_VALUE, "no value"), (NOT_RUN, "not run")]
+            .into_iter()
+            .enumerate()
+        {
+            let y = 20 + row as i32 * 40;
+            key.draw(&Rectangle::new([(16, y), (46, y + 26)], colour.filled()))
+                .map_err(&err)?;
+            key.draw(&Text::new(label, (56, y), font(FONT_NOTE).into_font()))
+                .map_err(&err)?;
+        }
+        root.present().map_err(&err)?;
+    }
+    Ok(svg)
 }

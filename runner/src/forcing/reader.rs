@@ -1368,26 +1368,8 @@ impl ForcingReader {
                 filled |= bit(Variable::Pressure);
             }
         }
-        let humidity = get(plan.humidity);
-        // The FAO-56 helpers clamp at 0 with f64::max, which would turn NaN into 0.
-        let vpd_kpa = if t_air_c.is_nan() || humidity.is_nan() {
-            f64::NAN
-        } else {
-            match plan.humidity {
-                Variable::Rh => vpd_from_rh_kpa(t_air_c, humidity),
-                Variable::DewPoint => vpd_from_dew_point_kpa(t_air_c, humidity),
-                Variable::VapourPressure => {
-                    (saturation_vapour_pressure_kpa(t_air_c) - humidity).max(0.0)
-                }
-                Variable::SpecificHumidity => {
-                    // e = q·p / (ε + (1 − ε)·q) with ε = 0.622, the ratio of the molar masses of
-                    // water and dry air (common practice in meteorology).
-                    let e = humidity * pressure_kpa / (0.622 + 0.378 * humidity);
-                    (saturation_vapour_pressure_kpa(t_air_c) - e).max(0.0)
-                }
-                _ => humidity,
-            }
-        };
+        let vpd_kpa =
+            vpd_from_humidity_kpa(plan.humidity, t_air_c, get(plan.humidity), pressure_kpa);
         let k = plan.ppfd_per_sw;
         let mut sw_w_m2 = get(Variable::Sw);
         let mut ppfd_umol_m2_s = get(Variable::Ppfd);
@@ -1508,6 +1490,33 @@ impl ForcingReader {
                 report.steps
             ));
         }
+    }
+}
+
+/// VPD (kPa) from the humidity variable in use (`humidity`, in the project's unit), air
+/// temperature (°C) and pressure (kPa); NaN when either input is NaN. Shared by the CSV reader and
+/// the NetCDF grid reader so both derive VPD alike.
+pub(crate) fn vpd_from_humidity_kpa(
+    humidity: Variable,
+    t_air_c: f64,
+    value: f64,
+    pressure_kpa: f64,
+) -> f64 {
+    // The FAO-56 helpers clamp at 0 with f64::max, which would turn NaN into 0.
+    if t_air_c.is_nan() || value.is_nan() {
+        return f64::NAN;
+    }
+    match humidity {
+        Variable::Rh => vpd_from_rh_kpa(t_air_c, value),
+        Variable::DewPoint => vpd_from_dew_point_kpa(t_air_c, value),
+        Variable::VapourPressure => (saturation_vapour_pressure_kpa(t_air_c) - value).max(0.0),
+        Variable::SpecificHumidity => {
+            // e = q·p / (ε + (1 − ε)·q) with ε = 0.622, the ratio of the molar masses of
+            // water and dry air (common practice in meteorology).
+            let e = value * pressure_kpa / (0.622 + 0.378 * value);
+            (saturation_vapour_pressure_kpa(t_air_c) - e).max(0.0)
+        }
+        _ => value,
     }
 }
 

@@ -391,6 +391,7 @@ fn shards_merge_to_the_one_shot_batch_and_resume() {
     for (a, b) in [
         (&nc.lat, &csv.lat),
         (&nc.lon, &csv.lon),
+        (&nc.utc_offset_h, &csv.utc_offset_h),
         (&nc.weight, &csv.weight),
     ] {
         assert_eq!(bits(a), bits(b));
