@@ -8,6 +8,7 @@ pub mod commands;
 pub mod ensemble;
 pub mod error;
 pub mod forcing;
+pub mod numfmt;
 pub mod output;
 pub mod priors;
 pub mod simulate;

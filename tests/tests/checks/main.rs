@@ -7,6 +7,7 @@ mod docs;
 mod ensemble;
 mod golden;
 mod isotopes_leaf;
+mod numbers_text;
 mod observations;
 mod phenology_cold;
 mod plots;
