@@ -17,6 +17,7 @@ use crate::cli::{
 };
 use crate::commands::leaf_input::{self, InputColumn};
 use crate::error::{Context, Error, Result};
+use crate::numfmt::push_num;
 use crate::output::{AtomicFile, fmt_num, json_num};
 use rayon::prelude::*;
 
@@ -229,7 +230,7 @@ impl LeafPlan {
         // error in input order stops the run after the rows before it are written.
         let mut record = csv::StringRecord::new();
         let mut batch = read_batch(&mut rdr, &mut record, path);
-        let mut done: Vec<(String, Option<Error>)> = Vec::new();
+        let mut done: Vec<(Vec<u8>, Option<Error>)> = Vec::new();
         loop {
             let (results, written, next) = std::thread::scope(|s| {
                 let worker = s.spawn(|| {
@@ -262,8 +263,8 @@ impl LeafPlan {
 
     /// Solves and formats one block of rows: the text of the rows up to the first bad one, and
     /// that row's error.
-    fn solve_block(&self, file: &InputFile<'_>, block: &Block) -> (String, Option<Error>) {
-        let mut text = String::with_capacity(block.lines.len() * 160);
+    fn solve_block(&self, file: &InputFile<'_>, block: &Block) -> (Vec<u8>, Option<Error>) {
+        let mut text = Vec::with_capacity(block.lines.len() * 160);
         let mut model = self.model.clone();
         let mut params = Vec::with_capacity(file.param_cols.len());
         let mut pass: Vec<&str> = Vec::with_capacity(file.pass_cols.len());
@@ -432,9 +433,9 @@ fn read_batch<R: std::io::Read>(
 }
 
 /// Writes each block's text in order; the first block that stopped at a bad row ends the run.
-fn write_results(w: &mut dyn Write, results: Vec<(String, Option<Error>)>) -> Result<()> {
+fn write_results(w: &mut dyn Write, results: Vec<(Vec<u8>, Option<Error>)>) -> Result<()> {
     for (text, err) in results {
-        w.write_all(text.as_bytes())?;
+        w.write_all(&text)?;
         if let Some(e) = err {
             return Err(e);
         }
@@ -569,9 +570,9 @@ fn write_single(
         Format::Csv | Format::Json => {
             let out = RowWriter::new(format, &[], &[]);
             out.header(w)?;
-            let mut text = String::new();
+            let mut text = Vec::new();
             out.row(&mut text, c, &[], s, &[])?;
-            w.write_all(text.as_bytes())?;
+            w.write_all(&text)?;
             out.finish(w)?;
         }
     }
@@ -604,12 +605,13 @@ impl RowWriter {
     fn header(&self, w: &mut dyn Write) -> Result<()> {
         match self.format {
             Format::Csv => {
-                let mut line = String::new();
+                let mut line = Vec::new();
                 for n in &self.pass_names {
                     leaf_input::push_csv_cell(&mut line, n);
-                    line.push(',');
+                    line.push(b',');
                 }
-                writeln!(w, "{line}{}", self.names.join(","))?
+                w.write_all(&line)?;
+                writeln!(w, "{}", self.names.join(","))?
             }
             Format::Table => {
                 // A space before every cell keeps long names and numbers apart.
@@ -626,7 +628,7 @@ impl RowWriter {
     /// Appends one row's text to `out`.
     fn row(
         &self,
-        out: &mut String,
+        out: &mut Vec<u8>,
         c: &LeafConditions,
         params: &[f64],
         s: &LeafState,
@@ -641,34 +643,34 @@ impl RowWriter {
                 let table = self.format == Format::Table;
                 for cell in pass {
                     if table {
-                        out.push_str(&format!(" {cell:>15}"));
+                        out.extend_from_slice(format!(" {cell:>15}").as_bytes());
                     } else {
                         leaf_input::push_csv_cell(out, cell);
-                        out.push(',');
+                        out.push(b',');
                     }
                 }
                 for (i, v) in nums.enumerate() {
                     if i > 0 && !table {
-                        out.push(',');
+                        out.push(b',');
                     }
                     let start = out.len();
-                    fmt_num(out, v);
+                    push_num(out, v);
                     if table {
                         let width = out.len() - start;
                         if width == 0 {
-                            out.push('-');
+                            out.push(b'-');
                         }
                         let pad = 1 + 15usize.saturating_sub(width.max(1));
-                        out.insert_str(start, &" ".repeat(pad));
+                        out.splice(start..start, std::iter::repeat_n(b' ', pad));
                     }
                 }
                 if table {
-                    out.push_str(&format!(" {:>15}", s.limitation.as_str()));
+                    out.extend_from_slice(format!(" {:>15}", s.limitation.as_str()).as_bytes());
                 } else {
-                    out.push(',');
-                    out.push_str(s.limitation.as_str());
+                    out.push(b',');
+                    out.extend_from_slice(s.limitation.as_str().as_bytes());
                 }
-                out.push('\n');
+                out.push(b'\n');
             }
             Format::Json => {
                 let mut obj = serde_json::Map::new();
@@ -679,8 +681,8 @@ impl RowWriter {
                     obj.insert(name.clone(), json_num(v));
                 }
                 obj.insert("limitation".into(), s.limitation.as_str().into());
-                out.push_str(&serde_json::to_string(&obj)?);
-                out.push('\n');
+                serde_json::to_writer(&mut *out, &obj)?;
+                out.push(b'\n');
             }
         }
         Ok(())
