@@ -2,7 +2,7 @@
 //! of their time turning numbers into text. Every function here writes exactly the bytes that the
 //! `format!`-based spelling it replaces wrote (the checks compare them over random values).
 
-use crate::forcing::time::LocalTime;
+use crate::forcing::time::{LocalDate, LocalTime};
 
 /// "00", "01", …, "99": two digits per table lookup.
 const PAIRS: &[u8; 200] = b"\
@@ -169,30 +169,37 @@ pub fn push_u64(out: &mut Vec<u8>, n: u64) {
     out.extend_from_slice(&digits[..len]);
 }
 
+/// Two digits of `n` < 100.
+fn push_two(out: &mut Vec<u8>, n: u32) {
+    let i = n as usize * 2;
+    out.extend_from_slice(&PAIRS[i..i + 2]);
+}
+
+/// Appends `date` as its `Display` spells it (`YYYY-MM-DD`).
+pub fn push_date(out: &mut Vec<u8>, date: LocalDate) {
+    let year = date.year();
+    if !(0..=9999).contains(&year) {
+        out.extend_from_slice(date.to_string().as_bytes());
+        return;
+    }
+    let year = year as u32;
+    push_two(out, year / 100);
+    push_two(out, year % 100);
+    out.push(b'-');
+    push_two(out, date.month());
+    out.push(b'-');
+    push_two(out, date.day());
+}
+
 /// Appends `time` as its `Display` spells it (`YYYY-MM-DDTHH:MM`).
 pub fn push_time(out: &mut Vec<u8>, time: LocalTime) {
     let date = time.date();
-    let year = date.year();
-    if !(0..=9999).contains(&year) {
-        out.extend_from_slice(time.to_string().as_bytes());
-        return;
-    }
     let of_day = time.minutes() - date.start().minutes();
-    let two = |out: &mut Vec<u8>, n: u32| {
-        let i = n as usize * 2;
-        out.extend_from_slice(&PAIRS[i..i + 2]);
-    };
-    let year = year as u32;
-    two(out, year / 100);
-    two(out, year % 100);
-    out.push(b'-');
-    two(out, date.month());
-    out.push(b'-');
-    two(out, date.day());
+    push_date(out, date);
     out.push(b'T');
-    two(out, (of_day / 60) as u32);
+    push_two(out, (of_day / 60) as u32);
     out.push(b':');
-    two(out, (of_day % 60) as u32);
+    push_two(out, (of_day % 60) as u32);
 }
 
 #[cfg(test)]
@@ -207,6 +214,9 @@ mod tests {
             let mut out = Vec::new();
             push_time(&mut out, t);
             assert_eq!(String::from_utf8(out).unwrap(), t.to_string(), "{minutes}");
+            let mut out = Vec::new();
+            push_date(&mut out, t.date());
+            assert_eq!(String::from_utf8(out).unwrap(), t.date().to_string(), "{minutes}");
         }
     }
 
