@@ -216,7 +216,11 @@ mod tests {
             assert_eq!(String::from_utf8(out).unwrap(), t.to_string(), "{minutes}");
             let mut out = Vec::new();
             push_date(&mut out, t.date());
-            assert_eq!(String::from_utf8(out).unwrap(), t.date().to_string(), "{minutes}");
+            assert_eq!(
+                String::from_utf8(out).unwrap(),
+                t.date().to_string(),
+                "{minutes}"
+            );
         }
     }
 

@@ -649,7 +649,8 @@ impl SampleReader {
         let file = File::open(path).with_context(|| format!("cannot open {}", path.display()))?;
         // Cells are trimmed (ASCII white space, as `csv::Trim::All` trims byte records) as they
         // are copied out of the reader; the header as `csv::Trim::All` trims string headers.
-        let mut rdr = csv::ReaderBuilder::new().from_reader(BufReader::with_capacity(1 << 17, file));
+        let mut rdr =
+            csv::ReaderBuilder::new().from_reader(BufReader::with_capacity(1 << 17, file));
         let header: Vec<String> = rdr
             .headers()
             .with_context(|| format!("cannot read the header of {}", path.display()))?
@@ -730,7 +731,11 @@ impl SampleReader {
                 };
                 let next = (consumed.is_ok() && batch.end.is_none())
                     .then(|| read_raw_batch(rdr, &mut rec, &cols.path));
-                (worker.join().expect("a block of samples panicked"), consumed, next)
+                (
+                    worker.join().expect("a block of samples panicked"),
+                    consumed,
+                    next,
+                )
             });
             consumed?;
             match next {

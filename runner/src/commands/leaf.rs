@@ -179,7 +179,8 @@ impl LeafPlan {
         let file = File::open(path).with_context(|| format!("cannot open {}", path.display()))?;
         // Cells are trimmed here (`str::trim`, as `csv::Trim::All` trims string records) rather
         // than by the reader, which would trim every record twice.
-        let mut rdr = csv::ReaderBuilder::new().from_reader(BufReader::with_capacity(1 << 16, file));
+        let mut rdr =
+            csv::ReaderBuilder::new().from_reader(BufReader::with_capacity(1 << 16, file));
         let header: csv::StringRecord = rdr
             .headers()
             .with_context(|| format!("cannot read the header of {}", path.display()))?
@@ -243,7 +244,11 @@ impl LeafPlan {
                 let written = write_results(w, std::mem::take(&mut done));
                 let next = (written.is_ok() && batch.end.is_none())
                     .then(|| read_batch(&mut rdr, &mut record, path));
-                (worker.join().expect("a block of leaf rows panicked"), written, next)
+                (
+                    worker.join().expect("a block of leaf rows panicked"),
+                    written,
+                    next,
+                )
             });
             written?;
             done = results;

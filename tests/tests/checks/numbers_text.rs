@@ -85,7 +85,12 @@ fn edge_values_spell_as_the_reference() {
         assert_eq!(b, reference(v), "push_num({v:e})");
     }
     // The documented spellings (docs: empty for a missing value, six decimals, no trailing zeros).
-    for (v, want) in [(f64::NAN, ""), (25.0, "25"), (-8.5, "-8.5"), (15.2635449, "15.263545")] {
+    for (v, want) in [
+        (f64::NAN, ""),
+        (25.0, "25"),
+        (-8.5, "-8.5"),
+        (15.2635449, "15.263545"),
+    ] {
         assert_eq!(spelled(v).0, want);
     }
 }
