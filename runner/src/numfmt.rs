@@ -68,7 +68,8 @@ fn round_half_away(x: f64) -> i64 {
 fn write_micro(b: &mut [u8; CAP], value: f64) -> Option<usize> {
     let scaled = value * 1e6;
     // Past 2⁵² every double is a whole number, so the rounding cannot move a value across 9·10¹⁵.
-    if !(scaled.abs() < 9.0e15) {
+    // NaN, infinities and values beyond 9·10⁹ take the `Display` path (or none).
+    if scaled.is_nan() || scaled.abs() >= 9.0e15 {
         return None;
     }
     let micro = round_half_away(scaled);
