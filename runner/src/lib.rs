@@ -11,6 +11,7 @@ pub mod fit;
 pub mod forcing;
 pub mod grid;
 pub mod netcdf_in;
+pub mod numfmt;
 pub mod output;
 pub mod priors;
 pub mod priors_grid;

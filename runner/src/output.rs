@@ -153,37 +153,16 @@ pub fn inputs_json(files: &[(&str, PathBuf)]) -> Result<serde_json::Value> {
 
 /// Formats a number for CSV: empty when NaN (a missing value, never a made-up number), otherwise
 /// rounded to six decimals with trailing zeros dropped (finer than any input or output here needs:
-/// µmol, ‰, gC m⁻²). Written digit by digit because million-row outputs spend most of their time
-/// here.
+/// µmol, ‰, gC m⁻²). Written digit by digit ([`crate::numfmt`]) because million-row outputs spend
+/// most of their time here; values of 9·10⁹ and more are written in full by `Display`.
 pub fn fmt_num(buf: &mut String, value: f64) {
     use std::fmt::Write as _;
-    if value.is_nan() {
-        return;
-    }
-    if value.is_infinite() {
-        buf.push_str(if value > 0.0 { "inf" } else { "-inf" });
-        return;
-    }
-    let micro = (value * 1e6).round();
-    if micro.abs() >= 9.0e15 {
-        let _ = write!(buf, "{value}");
-        return;
-    }
-    let micro = micro as i64;
-    if micro < 0 {
-        buf.push('-');
-    }
-    let m = micro.unsigned_abs();
-    let _ = write!(buf, "{}", m / 1_000_000);
-    let mut frac = m % 1_000_000;
-    if frac != 0 {
-        buf.push('.');
-        let mut digits = 6;
-        while frac.is_multiple_of(10) {
-            frac /= 10;
-            digits -= 1;
+    match crate::numfmt::micro_text(value) {
+        Some(t) => buf.push_str(t.as_str()),
+        None if value.is_nan() => {}
+        None => {
+            let _ = write!(buf, "{value}");
         }
-        let _ = write!(buf, "{frac:0digits$}");
     }
 }
 

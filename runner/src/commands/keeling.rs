@@ -492,16 +492,27 @@ fn collect_groups(reader: SampleReader, grouping: Grouping) -> Result<(Vec<Group
         _ => None,
     };
     let mut skipped = 0usize;
+    let (mut last_name, mut last_group): (Vec<u8>, Option<usize>) = (Vec::new(), None);
     reader.for_each(|s| {
         let key = match grouping {
             Grouping::Column => {
-                let i = match by_name.get(s.group) {
-                    Some(&i) => i,
-                    None => {
-                        let label = String::from_utf8_lossy(s.group).into_owned();
-                        groups.push(Group::new(label));
-                        by_name.insert(s.group.to_vec(), groups.len() - 1);
-                        groups.len() - 1
+                // Samples of a group usually come together: the last group is checked first.
+                let i = match last_group {
+                    Some(i) if s.group == last_name.as_slice() => i,
+                    _ => {
+                        let i = match by_name.get(s.group) {
+                            Some(&i) => i,
+                            None => {
+                                let label = String::from_utf8_lossy(s.group).into_owned();
+                                groups.push(Group::new(label));
+                                by_name.insert(s.group.to_vec(), groups.len() - 1);
+                                groups.len() - 1
+                            }
+                        };
+                        last_name.clear();
+                        last_name.extend_from_slice(s.group);
+                        last_group = Some(i);
+                        i
                     }
                 };
                 groups[i].push(s);
@@ -579,8 +590,13 @@ pub(crate) struct Sample<'r> {
 /// A streaming reader of a samples file: checks the header, then parses each row with positions
 /// for the error messages.
 pub(crate) struct SampleReader {
-    path: PathBuf,
     rdr: csv::Reader<BufReader<File>>,
+    cols: SampleColumns,
+}
+
+/// Where a samples file keeps each quantity.
+struct SampleColumns {
+    path: PathBuf,
     header: Vec<String>,
     time: usize,
     co2: usize,
@@ -590,19 +606,56 @@ pub(crate) struct SampleReader {
     bg: Option<(usize, usize)>,
 }
 
+/// Rows per block (one task for a thread) and blocks per batch read in one go.
+const BLOCK_ROWS: usize = 4096;
+const BATCH_BLOCKS: usize = 16;
+
+/// Rows as read: the trimmed cells one after another, where each ends, and each row's line.
+#[derive(Default)]
+struct RawBlock {
+    bytes: Vec<u8>,
+    ends: Vec<usize>,
+    lines: Vec<u64>,
+}
+
+/// Blocks read in one go, and how the reading ended: `None` while rows remain, `Some(None)` at
+/// the end of the file, `Some(Some(error))` at an unreadable row.
+#[derive(Default)]
+struct RawBatch {
+    blocks: Vec<RawBlock>,
+    end: Option<Option<Error>>,
+}
+
+/// One row's numbers; the group is a range of its block's bytes.
+struct ParsedSample {
+    time: LocalTime,
+    co2: f64,
+    d13c: f64,
+    group: std::ops::Range<usize>,
+    sd: Option<(f64, f64)>,
+    bg: Option<(f64, f64)>,
+}
+
+/// A block's samples up to its first bad row, and that row's error.
+struct ParsedBlock {
+    samples: Vec<ParsedSample>,
+    error: Option<Error>,
+}
+
 impl SampleReader {
     /// Opens `path` and finds its columns; `time`, `co2` and `d13c` are required, the SD and
     /// background columns come in pairs.
     pub(crate) fn open(path: &Path) -> Result<Self> {
         let file = File::open(path).with_context(|| format!("cannot open {}", path.display()))?;
-        let mut rdr = csv::ReaderBuilder::new()
-            .trim(csv::Trim::All)
-            .from_reader(BufReader::with_capacity(1 << 17, file));
+        // Cells are trimmed (ASCII white space, as `csv::Trim::All` trims byte records) as they
+        // are copied out of the reader; the header as `csv::Trim::All` trims string headers.
+        let mut rdr =
+            csv::ReaderBuilder::new().from_reader(BufReader::with_capacity(1 << 17, file));
         let header: Vec<String> = rdr
             .headers()
             .with_context(|| format!("cannot read the header of {}", path.display()))?
             .iter()
-            .map(String::from)
+            .map(|h| h.trim().to_string())
             .collect();
         let find = |name: &str| header.iter().position(|h| h == name);
         let known = header.join(", ");
@@ -624,7 +677,7 @@ impl SampleReader {
                 ))),
             }
         };
-        Ok(Self {
+        let cols = SampleColumns {
             time: need("time")?,
             co2: need("co2")?,
             d13c: need("d13c")?,
@@ -633,98 +686,221 @@ impl SampleReader {
             bg: pair("co2_bg", "d13c_bg")?,
             path: path.to_path_buf(),
             header,
-            rdr,
-        })
+        };
+        Ok(Self { rdr, cols })
     }
 
     pub(crate) fn has_group(&self) -> bool {
-        self.group.is_some()
+        self.cols.group.is_some()
     }
 
     pub(crate) fn has_sd(&self) -> bool {
-        self.sd.is_some()
+        self.cols.sd.is_some()
     }
 
     pub(crate) fn has_background(&self) -> bool {
-        self.bg.is_some()
+        self.cols.bg.is_some()
     }
 
     pub(crate) fn known_columns(&self) -> String {
-        self.header.join(", ")
+        self.cols.header.join(", ")
     }
 
-    /// Calls `f` on each row; the first bad cell or an error from `f` stops the reading.
+    /// Calls `f` on each row in file order; the first bad cell or an error from `f` stops the
+    /// reading. Blocks of rows are parsed on all threads while this thread reads the next batch
+    /// and hands the previous one to `f`.
     pub(crate) fn for_each(mut self, mut f: impl FnMut(&Sample) -> Result<()>) -> Result<()> {
         let mut rec = csv::ByteRecord::new();
-        while self
-            .rdr
-            .read_byte_record(&mut rec)
-            .with_context(|| format!("cannot read {}", self.path.display()))?
-        {
-            let line = rec.position().map_or(0, |p| p.line());
-            let cell = |i: usize| rec.get(i).unwrap_or(b"");
-            let bad = |i: usize, why: &str| {
-                Error::msg(format!(
-                    "{}: line {line}, column {} ({}): `{}` {why}",
-                    self.path.display(),
-                    i + 1,
-                    self.header[i],
-                    String::from_utf8_lossy(cell(i))
-                ))
-            };
-            let num = |i: usize| -> Result<f64> {
-                std::str::from_utf8(cell(i))
-                    .ok()
-                    .and_then(|s| s.parse::<f64>().ok())
-                    .filter(|v| v.is_finite())
-                    .ok_or_else(|| bad(i, "is not a number"))
-            };
-            let positive = |i: usize| -> Result<f64> {
-                let v = num(i)?;
-                if v > 0.0 {
-                    Ok(v)
-                } else {
-                    Err(bad(i, "must be > 0"))
+        let mut batch = read_raw_batch(&mut self.rdr, &mut rec, &self.cols.path);
+        let mut prev: Option<(RawBatch, Vec<ParsedBlock>)> = None;
+        loop {
+            let cols = &self.cols;
+            let rdr = &mut self.rdr;
+            let previous = prev.take();
+            let (parsed, consumed, next) = std::thread::scope(|s| {
+                let worker = s.spawn(|| {
+                    batch
+                        .blocks
+                        .par_iter()
+                        .map(|b| cols.parse_block(b))
+                        .collect::<Vec<_>>()
+                });
+                let consumed = match previous {
+                    Some((raw, parsed)) => hand_over(&raw, parsed, &mut f),
+                    None => Ok(()),
+                };
+                let next = (consumed.is_ok() && batch.end.is_none())
+                    .then(|| read_raw_batch(rdr, &mut rec, &cols.path));
+                (
+                    worker.join().expect("a block of samples panicked"),
+                    consumed,
+                    next,
+                )
+            });
+            consumed?;
+            match next {
+                Some(n) => prev = Some((std::mem::replace(&mut batch, n), parsed)),
+                None => {
+                    hand_over(&batch, parsed, &mut f)?;
+                    return match batch.end {
+                        Some(Some(e)) => Err(e),
+                        _ => Ok(()),
+                    };
                 }
-            };
-            // Physical ranges (docs/observations.md): CO2 above 0 and at most 100 000 µmol mol⁻¹
-            // (10 %, far above any canopy air); δ13C from −100‰ to +50‰ (beyond any natural CO2).
-            let co2 = |i: usize| -> Result<f64> {
-                let v = positive(i)?;
-                if v <= CO2_MAX_UMOL_MOL {
-                    Ok(v)
-                } else {
-                    Err(bad(i, "is outside the CO2 range (0, 100000] µmol mol⁻¹"))
-                }
-            };
-            let delta = |i: usize| -> Result<f64> {
-                let v = num(i)?;
-                if (D13C_RANGE_PERMIL.0..=D13C_RANGE_PERMIL.1).contains(&v) {
-                    Ok(v)
-                } else {
-                    Err(bad(i, "is outside the δ13C range [-100, 50] ‰"))
-                }
-            };
-            let time = std::str::from_utf8(cell(self.time))
-                .ok()
-                .and_then(|s| LocalTime::parse_iso(s).ok())
-                .ok_or_else(|| bad(self.time, "is not a time YYYY-MM-DDTHH:MM[:SS]"))?;
-            let sample = Sample {
-                time,
-                co2: co2(self.co2)?,
-                d13c: delta(self.d13c)?,
-                group: self.group.map_or(&b""[..], cell),
-                sd: self
-                    .sd
-                    .map(|(a, b)| Ok::<_, Error>((positive(a)?, positive(b)?)))
-                    .transpose()?,
-                bg: self
-                    .bg
-                    .map(|(a, b)| Ok::<_, Error>((co2(a)?, delta(b)?)))
-                    .transpose()?,
-            };
-            f(&sample)?;
+            }
         }
-        Ok(())
+    }
+}
+
+/// Gives `f` the samples of parsed blocks in order; the first bad row's error stops it.
+fn hand_over(
+    raw: &RawBatch,
+    parsed: Vec<ParsedBlock>,
+    f: &mut impl FnMut(&Sample) -> Result<()>,
+) -> Result<()> {
+    for (block, p) in raw.blocks.iter().zip(parsed) {
+        for s in &p.samples {
+            f(&Sample {
+                time: s.time,
+                co2: s.co2,
+                d13c: s.d13c,
+                group: &block.bytes[s.group.clone()],
+                sd: s.sd,
+                bg: s.bg,
+            })?;
+        }
+        if let Some(e) = p.error {
+            return Err(e);
+        }
+    }
+    Ok(())
+}
+
+fn read_raw_batch(
+    rdr: &mut csv::Reader<BufReader<File>>,
+    rec: &mut csv::ByteRecord,
+    path: &Path,
+) -> RawBatch {
+    let mut blocks: Vec<RawBlock> = Vec::with_capacity(BATCH_BLOCKS);
+    let mut block = RawBlock::default();
+    let end = loop {
+        match rdr.read_byte_record(rec) {
+            Ok(true) => {
+                block.lines.push(rec.position().map_or(0, |p| p.line()));
+                for cell in rec.iter() {
+                    block.bytes.extend_from_slice(cell.trim_ascii());
+                    block.ends.push(block.bytes.len());
+                }
+                if block.lines.len() == BLOCK_ROWS {
+                    blocks.push(std::mem::take(&mut block));
+                    if blocks.len() == BATCH_BLOCKS {
+                        break None;
+                    }
+                }
+            }
+            Ok(false) => break Some(None),
+            Err(e) => {
+                let e = Err::<(), _>(e).with_context(|| format!("cannot read {}", path.display()));
+                break Some(e.err());
+            }
+        }
+    };
+    if !block.lines.is_empty() {
+        blocks.push(block);
+    }
+    RawBatch { blocks, end }
+}
+
+impl SampleColumns {
+    fn parse_block(&self, block: &RawBlock) -> ParsedBlock {
+        let n = self.header.len();
+        let mut samples = Vec::with_capacity(block.lines.len());
+        for (r, &line) in block.lines.iter().enumerate() {
+            let first = if r == 0 { 0 } else { block.ends[r * n - 1] };
+            let ends = &block.ends[r * n..(r + 1) * n];
+            let range = |i: usize| (if i == 0 { first } else { ends[i - 1] })..ends[i];
+            match self.parse_row(line, &block.bytes, &range) {
+                Ok(s) => samples.push(s),
+                Err(e) => {
+                    return ParsedBlock {
+                        samples,
+                        error: Some(e),
+                    };
+                }
+            }
+        }
+        ParsedBlock {
+            samples,
+            error: None,
+        }
+    }
+
+    fn parse_row(
+        &self,
+        line: u64,
+        bytes: &[u8],
+        range: &dyn Fn(usize) -> std::ops::Range<usize>,
+    ) -> Result<ParsedSample> {
+        let cell = |i: usize| &bytes[range(i)];
+        let bad = |i: usize, why: &str| {
+            Error::msg(format!(
+                "{}: line {line}, column {} ({}): `{}` {why}",
+                self.path.display(),
+                i + 1,
+                self.header[i],
+                String::from_utf8_lossy(cell(i))
+            ))
+        };
+        let num = |i: usize| -> Result<f64> {
+            std::str::from_utf8(cell(i))
+                .ok()
+                .and_then(|s| s.parse::<f64>().ok())
+                .filter(|v| v.is_finite())
+                .ok_or_else(|| bad(i, "is not a number"))
+        };
+        let positive = |i: usize| -> Result<f64> {
+            let v = num(i)?;
+            if v > 0.0 {
+                Ok(v)
+            } else {
+                Err(bad(i, "must be > 0"))
+            }
+        };
+        // Physical ranges (docs/observations.md): CO2 above 0 and at most 100 000 µmol mol⁻¹
+        // (10 %, far above any canopy air); δ13C from −100‰ to +50‰ (beyond any natural CO2).
+        let co2 = |i: usize| -> Result<f64> {
+            let v = positive(i)?;
+            if v <= CO2_MAX_UMOL_MOL {
+                Ok(v)
+            } else {
+                Err(bad(i, "is outside the CO2 range (0, 100000] µmol mol⁻¹"))
+            }
+        };
+        let delta = |i: usize| -> Result<f64> {
+            let v = num(i)?;
+            if (D13C_RANGE_PERMIL.0..=D13C_RANGE_PERMIL.1).contains(&v) {
+                Ok(v)
+            } else {
+                Err(bad(i, "is outside the δ13C range [-100, 50] ‰"))
+            }
+        };
+        let time = std::str::from_utf8(cell(self.time))
+            .ok()
+            .and_then(|s| LocalTime::parse_iso(s).ok())
+            .ok_or_else(|| bad(self.time, "is not a time YYYY-MM-DDTHH:MM[:SS]"))?;
+        Ok(ParsedSample {
+            time,
+            co2: co2(self.co2)?,
+            d13c: delta(self.d13c)?,
+            group: self.group.map_or(0..0, range),
+            sd: self
+                .sd
+                .map(|(a, b)| Ok::<_, Error>((positive(a)?, positive(b)?)))
+                .transpose()?,
+            bg: self
+                .bg
+                .map(|(a, b)| Ok::<_, Error>((co2(a)?, delta(b)?)))
+                .transpose()?,
+        })
     }
 }

@@ -17,7 +17,9 @@ use crate::cli::{
 };
 use crate::commands::leaf_input::{self, InputColumn};
 use crate::error::{Context, Error, Result};
+use crate::numfmt::push_num;
 use crate::output::{AtomicFile, fmt_num, json_num};
+use rayon::prelude::*;
 
 /// Valid RH range (%): a little above 100 is sensor overshoot and means saturated air.
 const RH_RANGE: (f64, f64) = (0.0, 105.0);
@@ -175,13 +177,16 @@ impl LeafPlan {
 
     fn run_file(&self, path: &Path, w: &mut dyn Write) -> Result<()> {
         let file = File::open(path).with_context(|| format!("cannot open {}", path.display()))?;
-        let mut rdr = csv::ReaderBuilder::new()
-            .trim(csv::Trim::All)
-            .from_reader(BufReader::with_capacity(1 << 16, file));
-        let header = rdr
+        // Cells are trimmed here (`str::trim`, as `csv::Trim::All` trims string records) rather
+        // than by the reader, which would trim every record twice.
+        let mut rdr =
+            csv::ReaderBuilder::new().from_reader(BufReader::with_capacity(1 << 16, file));
+        let header: csv::StringRecord = rdr
             .headers()
             .with_context(|| format!("cannot read the header of {}", path.display()))?
-            .clone();
+            .iter()
+            .map(str::trim)
+            .collect();
         if header.is_empty() {
             return Err(Error::msg(format!(
                 "{}: the file is empty; expected a header row naming the columns (t_leaf, ppfd, \
@@ -211,85 +216,236 @@ impl LeafPlan {
             .filter(|i| columns[*i] == InputColumn::Pass)
             .collect();
         let pass_names: Vec<&str> = pass_cols.iter().map(|i| &header[*i]).collect();
-        let mut pass: Vec<String> = Vec::with_capacity(pass_cols.len());
-        let mut out = RowWriter::new(self.format, &param_cols, &pass_names);
+        let out = RowWriter::new(self.format, &param_cols, &pass_names);
         out.header(w)?;
+        let file = InputFile {
+            path,
+            header: &header,
+            columns: &columns,
+            param_cols: &param_cols,
+            pass_cols: &pass_cols,
+            out: &out,
+        };
+        // Blocks of rows are solved and formatted on all threads while this thread writes the
+        // previous batch and reads the next; the text goes out in input order, and the first
+        // error in input order stops the run after the rows before it are written.
         let mut record = csv::StringRecord::new();
-        let mut model = self.model.clone();
-        let mut params = Vec::with_capacity(param_cols.len());
-        while rdr
-            .read_record(&mut record)
-            .with_context(|| format!("cannot read {}", path.display()))?
-        {
-            let line = record.position().map_or(0, |p| p.line());
-            let mut vals = values(&self.base);
-            let mut rh = self.base_rh;
-            for (i, (field, col)) in record.iter().zip(&columns).enumerate() {
-                if field.is_empty() || *col == InputColumn::Pass {
-                    continue;
-                }
-                let v: f64 = field.parse().map_err(|_| {
-                    Error::msg(format!(
-                        "{}: line {line}, column {} (`{}`): `{field}` is not a number",
-                        path.display(),
-                        i + 1,
-                        &header[i]
-                    ))
-                })?;
-                match col {
-                    InputColumn::Condition(k) => {
-                        vals[*k] = v;
-                        if *k == 2 {
-                            rh = None;
-                        }
+        let mut batch = read_batch(&mut rdr, &mut record, path);
+        let mut done: Vec<(Vec<u8>, Option<Error>)> = Vec::new();
+        loop {
+            let (results, written, next) = std::thread::scope(|s| {
+                let worker = s.spawn(|| {
+                    batch
+                        .blocks
+                        .par_iter()
+                        .map(|b| self.solve_block(&file, b))
+                        .collect::<Vec<_>>()
+                });
+                let written = write_results(w, std::mem::take(&mut done));
+                let next = (written.is_ok() && batch.end.is_none())
+                    .then(|| read_batch(&mut rdr, &mut record, path));
+                (
+                    worker.join().expect("a block of leaf rows panicked"),
+                    written,
+                    next,
+                )
+            });
+            written?;
+            done = results;
+            match next {
+                Some(n) => batch = n,
+                None => {
+                    write_results(w, done)?;
+                    if let Some(Some(e)) = batch.end {
+                        return Err(e);
                     }
-                    InputColumn::Rh => {
-                        check_cell(path, line, i, &header[i], v, RH_RANGE.0, RH_RANGE.1, "%")?;
-                        rh = Some(v);
-                    }
-                    InputColumn::Param(name) => {
-                        model
-                            .set(name, v)
-                            .map_err(|e| cell_error(path, line, i, &header[i], e))?;
-                    }
-                    InputColumn::Pass => {}
+                    break;
                 }
             }
-            pass.clear();
-            pass.extend(
-                pass_cols
-                    .iter()
-                    .map(|i| record.get(*i).unwrap_or_default().to_string()),
-            );
-            params.clear();
-            params.extend(
-                param_cols
-                    .iter()
-                    .map(|(_, n)| model.get(n).unwrap_or(f64::NAN)),
-            );
-            let mut c = from_values(vals, self.base.d13c_substrate_permil);
-            if let Some(rh) = rh {
-                c.vpd_kpa = vpd_from_rh_kpa(c.t_leaf_c, rh);
-            }
-            let state = model.solve(&self.options, &c).map_err(|e| {
-                let col = match &e {
-                    ModelError::InvalidInput { name, .. } => header
-                        .iter()
-                        .position(|h| h == name || (name == "vpd" && h == "rh")),
-                    _ => None,
-                };
-                match col {
-                    Some(i) => cell_error(path, line, i, &header[i], e),
-                    None => Error::msg(format!("{}: line {line}: {e}", path.display())),
-                }
-            })?;
-            if !param_cols.is_empty() {
-                model = self.model.clone();
-            }
-            out.row(w, &c, &params, &state, &pass)?;
         }
         out.finish(w)
     }
+
+    /// Solves and formats one block of rows: the text of the rows up to the first bad one, and
+    /// that row's error.
+    fn solve_block(&self, file: &InputFile<'_>, block: &Block) -> (Vec<u8>, Option<Error>) {
+        let mut text = Vec::with_capacity(block.lines.len() * 160);
+        let mut model = self.model.clone();
+        let mut params = Vec::with_capacity(file.param_cols.len());
+        let mut pass: Vec<&str> = Vec::with_capacity(file.pass_cols.len());
+        let n = file.columns.len();
+        for (r, &line) in block.lines.iter().enumerate() {
+            let ends = &block.ends[r * n..(r + 1) * n];
+            let field = |i: usize| {
+                let start = if i == 0 {
+                    if r == 0 { 0 } else { block.ends[r * n - 1] }
+                } else {
+                    ends[i - 1]
+                };
+                &block.text[start..ends[i]]
+            };
+            let row = self.solve_row(file, &mut model, &mut params, line, &field);
+            match row {
+                Ok((c, state)) => {
+                    pass.clear();
+                    pass.extend(file.pass_cols.iter().map(|i| field(*i)));
+                    if let Err(e) = file.out.row(&mut text, &c, &params, &state, &pass) {
+                        return (text, Some(e));
+                    }
+                }
+                Err(e) => return (text, Some(e)),
+            }
+        }
+        (text, None)
+    }
+
+    /// One input row: its conditions and the solved leaf, or an error naming the line and column.
+    fn solve_row<'a>(
+        &self,
+        file: &InputFile<'_>,
+        model: &mut LeafModel,
+        params: &mut Vec<f64>,
+        line: u64,
+        field: &dyn Fn(usize) -> &'a str,
+    ) -> Result<(LeafConditions, LeafState)> {
+        let (path, header) = (file.path, file.header);
+        let mut vals = values(&self.base);
+        let mut rh = self.base_rh;
+        for (i, col) in file.columns.iter().enumerate() {
+            let field = field(i);
+            if field.is_empty() || *col == InputColumn::Pass {
+                continue;
+            }
+            let v: f64 = field.parse().map_err(|_| {
+                Error::msg(format!(
+                    "{}: line {line}, column {} (`{}`): `{field}` is not a number",
+                    path.display(),
+                    i + 1,
+                    &header[i]
+                ))
+            })?;
+            match col {
+                InputColumn::Condition(k) => {
+                    vals[*k] = v;
+                    if *k == 2 {
+                        rh = None;
+                    }
+                }
+                InputColumn::Rh => {
+                    check_cell(path, line, i, &header[i], v, RH_RANGE.0, RH_RANGE.1, "%")?;
+                    rh = Some(v);
+                }
+                InputColumn::Param(name) => {
+                    model
+                        .set(name, v)
+                        .map_err(|e| cell_error(path, line, i, &header[i], e))?;
+                }
+                InputColumn::Pass => {}
+            }
+        }
+        params.clear();
+        params.extend(
+            file.param_cols
+                .iter()
+                .map(|(_, n)| model.get(n).unwrap_or(f64::NAN)),
+        );
+        let mut c = from_values(vals, self.base.d13c_substrate_permil);
+        if let Some(rh) = rh {
+            c.vpd_kpa = vpd_from_rh_kpa(c.t_leaf_c, rh);
+        }
+        let state = model.solve(&self.options, &c).map_err(|e| {
+            let col = match &e {
+                ModelError::InvalidInput { name, .. } => header
+                    .iter()
+                    .position(|h| h == name || (name == "vpd" && h == "rh")),
+                _ => None,
+            };
+            match col {
+                Some(i) => cell_error(path, line, i, &header[i], e),
+                None => Error::msg(format!("{}: line {line}: {e}", path.display())),
+            }
+        })?;
+        if !file.param_cols.is_empty() {
+            *model = self.model.clone();
+        }
+        Ok((c, state))
+    }
+}
+
+/// What the rows of one `leaf --input` file share: its header and what each column does.
+struct InputFile<'a> {
+    path: &'a Path,
+    header: &'a csv::StringRecord,
+    columns: &'a [InputColumn],
+    param_cols: &'a [(usize, &'a str)],
+    pass_cols: &'a [usize],
+    out: &'a RowWriter,
+}
+
+/// Rows of input per block (one task for a thread), and blocks read per batch.
+const BLOCK_ROWS: usize = 2048;
+const BATCH_BLOCKS: usize = 32;
+
+/// Rows of input as read: the trimmed cells one after another, where each ends, and the line
+/// each row starts on.
+#[derive(Default)]
+struct Block {
+    text: String,
+    ends: Vec<usize>,
+    lines: Vec<u64>,
+}
+
+/// Blocks of rows read in one go, and how the reading ended: `None` while rows remain,
+/// `Some(None)` at the end of the file, `Some(Some(error))` at an unreadable row.
+struct Batch {
+    blocks: Vec<Block>,
+    end: Option<Option<Error>>,
+}
+
+fn read_batch<R: std::io::Read>(
+    rdr: &mut csv::Reader<R>,
+    record: &mut csv::StringRecord,
+    path: &Path,
+) -> Batch {
+    let mut blocks: Vec<Block> = Vec::with_capacity(BATCH_BLOCKS);
+    let mut block = Block::default();
+    let end = loop {
+        match rdr.read_record(record) {
+            Ok(true) => {
+                block.lines.push(record.position().map_or(0, |p| p.line()));
+                for f in record.iter() {
+                    block.text.push_str(f.trim());
+                    block.ends.push(block.text.len());
+                }
+                if block.lines.len() == BLOCK_ROWS {
+                    blocks.push(std::mem::take(&mut block));
+                    if blocks.len() == BATCH_BLOCKS {
+                        break None;
+                    }
+                }
+            }
+            Ok(false) => break Some(None),
+            Err(e) => {
+                let e = Err::<(), _>(e).with_context(|| format!("cannot read {}", path.display()));
+                break Some(e.err());
+            }
+        }
+    };
+    if !block.lines.is_empty() {
+        blocks.push(block);
+    }
+    Batch { blocks, end }
+}
+
+/// Writes each block's text in order; the first block that stopped at a bad row ends the run.
+fn write_results(w: &mut dyn Write, results: Vec<(Vec<u8>, Option<Error>)>) -> Result<()> {
+    for (text, err) in results {
+        w.write_all(&text)?;
+        if let Some(e) = err {
+            return Err(e);
+        }
+    }
+    Ok(())
 }
 
 /// The conditions in the order of `LeafConditions::RANGES`.
@@ -417,9 +573,11 @@ fn write_single(
             writeln!(w, "{:<16} {:>12}", "limitation", s.limitation.as_str())?;
         }
         Format::Csv | Format::Json => {
-            let mut out = RowWriter::new(format, &[], &[]);
+            let out = RowWriter::new(format, &[], &[]);
             out.header(w)?;
-            out.row(w, c, &[], s, &[])?;
+            let mut text = Vec::new();
+            out.row(&mut text, c, &[], s, &[])?;
+            w.write_all(&text)?;
             out.finish(w)?;
         }
     }
@@ -432,7 +590,6 @@ struct RowWriter {
     /// Pass-through columns, written first.
     pass_names: Vec<String>,
     names: Vec<String>,
-    buf: String,
 }
 
 impl RowWriter {
@@ -447,19 +604,19 @@ impl RowWriter {
             format,
             pass_names: pass.iter().map(|p| p.to_string()).collect(),
             names,
-            buf: String::with_capacity(256),
         }
     }
 
-    fn header(&mut self, w: &mut dyn Write) -> Result<()> {
+    fn header(&self, w: &mut dyn Write) -> Result<()> {
         match self.format {
             Format::Csv => {
-                let mut line = String::new();
+                let mut line = Vec::new();
                 for n in &self.pass_names {
                     leaf_input::push_csv_cell(&mut line, n);
-                    line.push(',');
+                    line.push(b',');
                 }
-                writeln!(w, "{line}{}", self.names.join(","))?
+                w.write_all(&line)?;
+                writeln!(w, "{}", self.names.join(","))?
             }
             Format::Table => {
                 // A space before every cell keeps long names and numbers apart.
@@ -473,72 +630,70 @@ impl RowWriter {
         Ok(())
     }
 
+    /// Appends one row's text to `out`.
     fn row(
-        &mut self,
-        w: &mut dyn Write,
+        &self,
+        out: &mut Vec<u8>,
         c: &LeafConditions,
         params: &[f64],
         s: &LeafState,
-        pass: &[String],
+        pass: &[&str],
     ) -> Result<()> {
         let nums = values(c)
             .into_iter()
             .chain(params.iter().copied())
             .chain(result_values(s));
-        self.buf.clear();
         match self.format {
             Format::Csv | Format::Table => {
                 let table = self.format == Format::Table;
                 for cell in pass {
                     if table {
-                        self.buf.push_str(&format!(" {cell:>15}"));
+                        out.extend_from_slice(format!(" {cell:>15}").as_bytes());
                     } else {
-                        leaf_input::push_csv_cell(&mut self.buf, cell);
-                        self.buf.push(',');
+                        leaf_input::push_csv_cell(out, cell);
+                        out.push(b',');
                     }
                 }
                 for (i, v) in nums.enumerate() {
                     if i > 0 && !table {
-                        self.buf.push(',');
+                        out.push(b',');
                     }
-                    let start = self.buf.len();
-                    fmt_num(&mut self.buf, v);
+                    let start = out.len();
+                    push_num(out, v);
                     if table {
-                        let width = self.buf.len() - start;
+                        let width = out.len() - start;
                         if width == 0 {
-                            self.buf.push('-');
+                            out.push(b'-');
                         }
                         let pad = 1 + 15usize.saturating_sub(width.max(1));
-                        self.buf.insert_str(start, &" ".repeat(pad));
+                        out.splice(start..start, std::iter::repeat_n(b' ', pad));
                     }
                 }
                 if table {
-                    self.buf
-                        .push_str(&format!(" {:>15}", s.limitation.as_str()));
+                    out.extend_from_slice(format!(" {:>15}", s.limitation.as_str()).as_bytes());
                 } else {
-                    self.buf.push(',');
-                    self.buf.push_str(s.limitation.as_str());
+                    out.push(b',');
+                    out.extend_from_slice(s.limitation.as_str().as_bytes());
                 }
-                self.buf.push('\n');
+                out.push(b'\n');
             }
             Format::Json => {
                 let mut obj = serde_json::Map::new();
                 for (name, cell) in self.pass_names.iter().zip(pass) {
-                    obj.insert(name.clone(), cell.as_str().into());
+                    obj.insert(name.clone(), (*cell).into());
                 }
                 for (name, v) in self.names.iter().zip(nums) {
                     obj.insert(name.clone(), json_num(v));
                 }
                 obj.insert("limitation".into(), s.limitation.as_str().into());
-                self.buf = serde_json::to_string(&obj)?;
-                self.buf.push('\n');
+                serde_json::to_writer(&mut *out, &obj)?;
+                out.push(b'\n');
             }
         }
-        w.write_all(self.buf.as_bytes())?;
         Ok(())
     }
 
-    fn finish(&mut self, w: &mut dyn Write) -> Result<()> {
+    fn finish(&self, w: &mut dyn Write) -> Result<()> {
         w.flush()?;
         Ok(())
     }

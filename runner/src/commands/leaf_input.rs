@@ -125,12 +125,12 @@ pub fn map_columns(
 }
 
 /// A cell written into a CSV row: quoted when it holds a comma, a quote or a line break.
-pub fn push_csv_cell(buf: &mut String, cell: &str) {
+pub fn push_csv_cell(buf: &mut Vec<u8>, cell: &str) {
     if cell.contains([',', '"', '\n', '\r']) {
-        buf.push('"');
-        buf.push_str(&cell.replace('"', "\"\""));
-        buf.push('"');
+        buf.push(b'"');
+        buf.extend_from_slice(cell.replace('"', "\"\"").as_bytes());
+        buf.push(b'"');
     } else {
-        buf.push_str(cell);
+        buf.extend_from_slice(cell.as_bytes());
     }
 }

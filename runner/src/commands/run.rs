@@ -11,6 +11,7 @@ use crate::cli::RunArgs;
 use crate::commands::parse_period;
 use crate::error::{Context, Error, Result};
 use crate::forcing::{ForcingReader, ForcingReport, LocalDate, LocalTime, Variable};
+use crate::numfmt::{push_date, push_num, push_time};
 use crate::output::{
     AtomicFile, check_out_dir, fmt_num, inputs_json, json_num, plural, write_folder, write_json,
 };
@@ -434,7 +435,7 @@ struct FileSink {
     pools_header_written: bool,
     pool_names: Vec<String>,
     step_s: f64,
-    line: String,
+    line: Vec<u8>,
 }
 
 impl FileSink {
@@ -449,7 +450,7 @@ impl FileSink {
             pools_header_written: false,
             pool_names: network.pools().iter().map(|p| p.name.clone()).collect(),
             step_s: f64::from(step_minutes) * 60.0,
-            line: String::with_capacity(512),
+            line: Vec::with_capacity(512),
         })
     }
 
@@ -465,7 +466,7 @@ impl StepSink for FileSink {
         let (f, d, s, r) = (v.forcing, v.drivers, v.site, v.respiration);
         let line = &mut self.line;
         line.clear();
-        let _ = write!(line, "{}", f.time);
+        push_time(line, f.time);
         let co2 = d.map_or(f.co2_umol_mol.unwrap_or(nan), |d| d.co2_umol_mol);
         let d13c = d.map_or(f.d13c_co2_permil.unwrap_or(nan), |d| d.d13c_co2_permil);
         let part = |i: Option<usize>, g: fn(&isodisc_model::site::PathwayStep) -> f64| match (i, s)
@@ -514,11 +515,12 @@ impl StepSink for FileSink {
             sv(|s| s.soil_water_mm),
         ];
         for x in values {
-            line.push(',');
-            fmt_num(line, x);
+            line.push(b',');
+            push_num(line, x);
         }
-        let _ = writeln!(line, ",{},{}", u8::from(f.filled), u8::from(s.is_none()));
-        self.steps.writer().write_all(line.as_bytes())?;
+        line.extend_from_slice(if f.filled { b",1" } else { b",0" });
+        line.extend_from_slice(if s.is_none() { b",1\n" } else { b",0\n" });
+        self.steps.writer().write_all(line)?;
         Ok(())
     }
 
@@ -526,22 +528,22 @@ impl StepSink for FileSink {
         let line = &mut self.line;
         line.clear();
         if !self.pools_header_written {
-            line.push_str("date");
+            line.extend_from_slice(b"date");
             for n in &self.pool_names {
-                let _ = write!(line, ",c_{n},d13c_{n}");
+                line.extend_from_slice(format!(",c_{n},d13c_{n}").as_bytes());
             }
-            line.push('\n');
+            line.push(b'\n');
             self.pools_header_written = true;
         }
-        let _ = write!(line, "{date}");
+        push_date(line, date);
         for (c, d) in c_g_m2.iter().zip(d13c) {
-            line.push(',');
-            fmt_num(line, *c);
-            line.push(',');
-            fmt_num(line, *d);
+            line.push(b',');
+            push_num(line, *c);
+            line.push(b',');
+            push_num(line, *d);
         }
-        line.push('\n');
-        self.pools.writer().write_all(line.as_bytes())?;
+        line.push(b'\n');
+        self.pools.writer().write_all(line)?;
         Ok(())
     }
 }

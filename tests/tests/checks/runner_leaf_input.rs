@@ -116,3 +116,69 @@ fn bad_maps_are_named() {
         "{err}"
     );
 }
+
+/// Rows are solved in blocks on several threads: a long file gives the same rows as each row run
+/// alone, in input order, and the first bad row (past the first blocks) is reported by its own
+/// line (common practice: a streamed result equals the row-by-row one).
+#[test]
+fn long_inputs_keep_row_order_and_report_the_first_bad_line() {
+    let dir = tempfile::tempdir().unwrap();
+    let input = dir.path().join("long.csv");
+    let mut text = String::from("sample,t_leaf,ppfd\n");
+    for i in 0..9_000 {
+        text.push_str(&format!("r{i},{},{}\n", 5 + i % 30, (i * 37) % 2000));
+    }
+    std::fs::write(&input, &text).unwrap();
+    let out = dir.path().join("out.csv");
+    let p = |x: &std::path::Path| x.to_str().unwrap().to_string();
+    crate::common::run(&[
+        "leaf",
+        "--input",
+        &p(&input),
+        "--output",
+        &p(&out),
+        "--format",
+        "csv",
+    ])
+    .unwrap();
+    let got = std::fs::read_to_string(&out).unwrap();
+    let rows: Vec<&str> = got.lines().skip(1).collect();
+    assert_eq!(rows.len(), 9_000);
+    for i in [0usize, 2_047, 2_048, 4_097, 8_999] {
+        assert!(
+            rows[i].starts_with(&format!("r{i},")),
+            "row {i}: {}",
+            rows[i]
+        );
+        let single = dir.path().join("one.csv");
+        std::fs::write(
+            &single,
+            format!("sample,t_leaf,ppfd\n{}", text.lines().nth(i + 1).unwrap()),
+        )
+        .unwrap();
+        let one_out = dir.path().join("one_out.csv");
+        crate::common::run(&[
+            "leaf",
+            "--input",
+            &p(&single),
+            "--output",
+            &p(&one_out),
+            "--format",
+            "csv",
+        ])
+        .unwrap();
+        let one = std::fs::read_to_string(&one_out).unwrap();
+        assert_eq!(one.lines().nth(1).unwrap(), rows[i], "row {i}");
+    }
+    // A bad cell on line 7,001 and another later: the first is named.
+    let mut lines: Vec<String> = text.lines().map(String::from).collect();
+    lines[7_000] = "r6999,warm,100".into();
+    lines[8_500] = "r8499,x,100".into();
+    std::fs::write(&input, lines.join("\n")).unwrap();
+    let err =
+        crate::common::run(&["leaf", "--input", &p(&input), "--output", &p(&out)]).unwrap_err();
+    assert!(
+        err.contains("line 7001, column 2 (`t_leaf`): `warm` is not a number"),
+        "{err}"
+    );
+}
