@@ -91,33 +91,7 @@ pub struct GridField {
     pub sd: Option<Vec<f64>>,
 }
 
-/// Days from 1970-01-01 to a date of the proleptic Gregorian calendar (the days-from-civil
-/// algorithm of H. Hinnant, "chrono-compatible low-level date algorithms").
-pub fn days_from_civil(year: i64, month: u32, day: u32) -> i64 {
-    let (m, d) = (i64::from(month), i64::from(day));
-    let y = if m <= 2 { year - 1 } else { year };
-    let era = y.div_euclid(400);
-    let yoe = y - era * 400;
-    let mp = (m + 9) % 12;
-    let doy = (153 * mp + 2) / 5 + d - 1;
-    let doe = yoe * 365 + yoe / 4 - yoe / 100 + doy;
-    era * 146_097 + doe - 719_468
-}
-
-/// The date (year, month, day) `days` after 1970-01-01 (Hinnant's civil-from-days, the inverse of
-/// [`days_from_civil`]).
-pub fn civil_from_days(days: i64) -> (i64, u32, u32) {
-    let z = days + 719_468;
-    let era = z.div_euclid(146_097);
-    let doe = z - era * 146_097;
-    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
-    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
-    let mp = (5 * doy + 2) / 153;
-    let d = (doy - (153 * mp + 2) / 5 + 1) as u32;
-    let m = if mp < 10 { mp + 3 } else { mp - 9 } as u32;
-    let y = yoe + era * 400 + i64::from(m <= 2);
-    (y, m, d)
-}
+use crate::forcing::time::{civil_from_days, days_from_civil};
 
 /// The month after (year, month).
 fn next_month((y, m): (i32, u32)) -> (i32, u32) {

@@ -53,7 +53,7 @@ fn days_in_month(year: i64, month: u32) -> u32 {
 }
 
 /// Days since 1970-01-01 of a valid calendar date.
-fn days_from_civil(year: i64, month: u32, day: u32) -> i64 {
+pub(crate) fn days_from_civil(year: i64, month: u32, day: u32) -> i64 {
     // January and February count as months 10 and 11 of the previous March-based year.
     let y = if month <= 2 { year - 1 } else { year };
     let era = y.div_euclid(400);
@@ -66,7 +66,7 @@ fn days_from_civil(year: i64, month: u32, day: u32) -> i64 {
 }
 
 /// Calendar date (year, month, day) of a day count since 1970-01-01; inverse of `days_from_civil`.
-fn civil_from_days(days: i64) -> (i64, u32, u32) {
+pub(crate) fn civil_from_days(days: i64) -> (i64, u32, u32) {
     let z = days + EPOCH_SHIFT_DAYS;
     let era = z.div_euclid(DAYS_PER_ERA);
     let day_of_era = z.rem_euclid(DAYS_PER_ERA);
