@@ -216,15 +216,20 @@ impl EnsemblePlan {
                 self.seed,
                 &progress,
             ),
-            Some(draws) => run_posterior_members(
+            Some(draws) => crate::ensemble::run_members_drawn(
                 &self.site,
                 &steps,
                 report.step_minutes,
                 &self.spec,
-                draws,
                 self.members,
-                self.seed,
                 &progress,
+                |i| {
+                    use rand::Rng;
+                    // Member i takes the posterior row chosen by its own stream (seed, i).
+                    let mut rng =
+                        crate::ensemble::sample::stream(self.seed, TAG_POSTERIOR, i as u64);
+                    draws[(rng.next_u64() % draws.len() as u64) as usize].clone()
+                },
             ),
         });
         progress.finish_and_clear();
@@ -346,44 +351,3 @@ fn read_posterior(dir: &Path) -> Result<(EnsembleSpec, Vec<Vec<f64>>)> {
 
 /// Stream tag of the posterior draws' choice.
 const TAG_POSTERIOR: u64 = 0x706f_7374; // "post"
-
-/// Runs `members` members, member i with the posterior draw chosen by the stream (seed, i), in
-/// the current rayon pool; results in member order whatever the thread count.
-#[allow(clippy::too_many_arguments)]
-fn run_posterior_members(
-    site: &Site,
-    steps: &[ForcingStep],
-    step_minutes: u32,
-    spec: &EnsembleSpec,
-    draws: &[Vec<f64>],
-    members: usize,
-    seed: u64,
-    progress: &ProgressBar,
-) -> Vec<Member> {
-    use indicatif::ParallelProgressIterator;
-    use rand::Rng;
-    use rayon::prelude::*;
-    (0..members)
-        .into_par_iter()
-        .progress_with(progress.clone())
-        .map(|i| {
-            let mut rng = crate::ensemble::sample::stream(seed, TAG_POSTERIOR, i as u64);
-            let params = draws[(rng.next_u64() % draws.len() as u64) as usize].clone();
-            let status = match crate::ensemble::member_site(site, spec, &params) {
-                Err(e) => MemberStatus::Invalid(e.chain()),
-                Ok(s) => match crate::simulate::simulate(
-                    &s,
-                    steps.iter().cloned().map(Ok),
-                    step_minutes,
-                    &mut crate::simulate::NoSink,
-                ) {
-                    Ok(sim) => {
-                        MemberStatus::Ok(crate::ensemble::MemberPeriods::from_simulated(&sim))
-                    }
-                    Err(e) => MemberStatus::Failed(e.chain()),
-                },
-            };
-            Member { params, status }
-        })
-        .collect()
-}

@@ -130,6 +130,22 @@ pub fn run_members(
     progress: &ProgressBar,
 ) -> Vec<Member> {
     let design = Design::new(spec, members, seed);
+    run_members_drawn(site, steps, step_minutes, spec, members, progress, |i| {
+        design.draw(spec, i)
+    })
+}
+
+/// As [`run_members`], with member i's parameter values (in the order of `spec.params`) given by
+/// `draw(i)`: a sampling design's row, or a draw from a fit's posterior.
+pub fn run_members_drawn(
+    site: &Site,
+    steps: &[ForcingStep],
+    step_minutes: u32,
+    spec: &EnsembleSpec,
+    members: usize,
+    progress: &ProgressBar,
+    draw: impl Fn(usize) -> Vec<f64> + Sync,
+) -> Vec<Member> {
     let lights = if shares_light(spec) {
         step_lights(site, steps, step_minutes)
     } else {
@@ -139,7 +155,7 @@ pub fn run_members(
         .into_par_iter()
         .progress_with(progress.clone())
         .map(|i| {
-            let params = design.draw(spec, i);
+            let params = draw(i);
             let status = match member_site(site, spec, &params) {
                 Err(e) => MemberStatus::Invalid(e.chain()),
                 Ok(s) => {
