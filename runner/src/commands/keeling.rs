@@ -610,21 +610,8 @@ struct SampleColumns {
 const BLOCK_ROWS: usize = 4096;
 const BATCH_BLOCKS: usize = 16;
 
-/// Rows as read: the trimmed cells one after another, where each ends, and each row's line.
-#[derive(Default)]
-struct RawBlock {
-    bytes: Vec<u8>,
-    ends: Vec<usize>,
-    lines: Vec<u64>,
-}
-
-/// Blocks read in one go, and how the reading ended: `None` while rows remain, `Some(None)` at
-/// the end of the file, `Some(Some(error))` at an unreadable row.
-#[derive(Default)]
-struct RawBatch {
-    blocks: Vec<RawBlock>,
-    end: Option<Option<Error>>,
-}
+type RawBlock = super::blocks::Block<Vec<u8>>;
+type RawBatch = super::blocks::Batch<Vec<u8>>;
 
 /// One row's numbers; the group is a range of its block's bytes.
 struct ParsedSample {
@@ -764,7 +751,7 @@ fn hand_over(
                 time: s.time,
                 co2: s.co2,
                 d13c: s.d13c,
-                group: &block.bytes[s.group.clone()],
+                group: &block.text[s.group.clone()],
                 sd: s.sd,
                 bg: s.bg,
             })?;
@@ -781,34 +768,7 @@ fn read_raw_batch(
     rec: &mut csv::ByteRecord,
     path: &Path,
 ) -> RawBatch {
-    let mut blocks: Vec<RawBlock> = Vec::with_capacity(BATCH_BLOCKS);
-    let mut block = RawBlock::default();
-    let end = loop {
-        match rdr.read_byte_record(rec) {
-            Ok(true) => {
-                block.lines.push(rec.position().map_or(0, |p| p.line()));
-                for cell in rec.iter() {
-                    block.bytes.extend_from_slice(cell.trim_ascii());
-                    block.ends.push(block.bytes.len());
-                }
-                if block.lines.len() == BLOCK_ROWS {
-                    blocks.push(std::mem::take(&mut block));
-                    if blocks.len() == BATCH_BLOCKS {
-                        break None;
-                    }
-                }
-            }
-            Ok(false) => break Some(None),
-            Err(e) => {
-                let e = Err::<(), _>(e).with_context(|| format!("cannot read {}", path.display()));
-                break Some(e.err());
-            }
-        }
-    };
-    if !block.lines.is_empty() {
-        blocks.push(block);
-    }
-    RawBatch { blocks, end }
+    super::blocks::read_batch(rdr, rec, path, BLOCK_ROWS, BATCH_BLOCKS)
 }
 
 impl SampleColumns {
@@ -819,7 +779,7 @@ impl SampleColumns {
             let first = if r == 0 { 0 } else { block.ends[r * n - 1] };
             let ends = &block.ends[r * n..(r + 1) * n];
             let range = |i: usize| (if i == 0 { first } else { ends[i - 1] })..ends[i];
-            match self.parse_row(line, &block.bytes, &range) {
+            match self.parse_row(line, &block.text, &range) {
                 Ok(s) => samples.push(s),
                 Err(e) => {
                     return ParsedBlock {

@@ -386,55 +386,15 @@ struct InputFile<'a> {
 const BLOCK_ROWS: usize = 2048;
 const BATCH_BLOCKS: usize = 32;
 
-/// Rows of input as read: the trimmed cells one after another, where each ends, and the line
-/// each row starts on.
-#[derive(Default)]
-struct Block {
-    text: String,
-    ends: Vec<usize>,
-    lines: Vec<u64>,
-}
-
-/// Blocks of rows read in one go, and how the reading ended: `None` while rows remain,
-/// `Some(None)` at the end of the file, `Some(Some(error))` at an unreadable row.
-struct Batch {
-    blocks: Vec<Block>,
-    end: Option<Option<Error>>,
-}
+type Block = super::blocks::Block<String>;
+type Batch = super::blocks::Batch<String>;
 
 fn read_batch<R: std::io::Read>(
     rdr: &mut csv::Reader<R>,
     record: &mut csv::StringRecord,
     path: &Path,
 ) -> Batch {
-    let mut blocks: Vec<Block> = Vec::with_capacity(BATCH_BLOCKS);
-    let mut block = Block::default();
-    let end = loop {
-        match rdr.read_record(record) {
-            Ok(true) => {
-                block.lines.push(record.position().map_or(0, |p| p.line()));
-                for f in record.iter() {
-                    block.text.push_str(f.trim());
-                    block.ends.push(block.text.len());
-                }
-                if block.lines.len() == BLOCK_ROWS {
-                    blocks.push(std::mem::take(&mut block));
-                    if blocks.len() == BATCH_BLOCKS {
-                        break None;
-                    }
-                }
-            }
-            Ok(false) => break Some(None),
-            Err(e) => {
-                let e = Err::<(), _>(e).with_context(|| format!("cannot read {}", path.display()));
-                break Some(e.err());
-            }
-        }
-    };
-    if !block.lines.is_empty() {
-        blocks.push(block);
-    }
-    Batch { blocks, end }
+    super::blocks::read_batch(rdr, record, path, BLOCK_ROWS, BATCH_BLOCKS)
 }
 
 /// Writes each block's text in order; the first block that stopped at a bad row ends the run.

@@ -1,6 +1,7 @@
 //! One module per subcommand: each turns its arguments into a validated plan, then runs it.
 
 pub mod batch;
+mod blocks;
 pub mod cluster;
 pub mod compare;
 pub mod ensemble;
