@@ -20,8 +20,8 @@ use crate::ensemble::Member;
 use crate::error::{Context, Error, Result};
 use crate::output::{AtomicFile, fmt_num};
 use crate::priors_grid::{
-    MonthAggregate, STANDARD_FIELDS, filled, member_stats, months_of_time_bnds, parse_month,
-    time_axis, write_nc_atomic,
+    MonthAggregate, STANDARD_FIELDS, define_month_time, filled, member_stats, months_of_time_bnds,
+    nc_err, parse_month, time_axis, write_nc_atomic,
 };
 
 /// One site-month of priors.
@@ -248,11 +248,6 @@ fn fixed_bytes(s: &str, len: usize) -> Vec<u8> {
     b
 }
 
-fn nc_err(path: &Path, what: &str, e: impl std::fmt::Debug) -> Error {
-    // netcdf3's errors have no Display: show their Debug form.
-    Error::msg(format!("{}: NetCDF {what}: {e:?}", path.display()))
-}
-
 /// Writes `priors.nc` (NetCDF classic, CF-1.8) with global `title` and `history`.
 pub fn write_priors_nc(path: &Path, rows: &[PriorRow], title: &str, history: &str) -> Result<()> {
     let g = PriorsGrid::from_rows(rows);
@@ -317,28 +312,11 @@ pub fn write_priors_nc(path: &Path, rows: &[PriorRow], title: &str, history: &st
             attrs(&mut ds, name, &[("standard_name", s)])?;
         }
     }
-    let time_units = format!("days since {y0:04}-01-01 00:00:00");
-    ds.add_var_f64("time", &["time"]).map_err(def)?;
-    attrs(
+    define_month_time(
         &mut ds,
-        "time",
-        &[
-            ("standard_name", "time"),
-            (
-                "long_name",
-                "middle of the month, on each site's clock (see utc_offset)",
-            ),
-            ("units", &time_units),
-            ("calendar", "standard"),
-            ("axis", "T"),
-            ("bounds", "time_bnds"),
-        ],
-    )?;
-    ds.add_var_f64("time_bnds", &["time", "nv"]).map_err(def)?;
-    attrs(
-        &mut ds,
-        "time_bnds",
-        &[("long_name", "start and end of the month")],
+        path,
+        y0,
+        "middle of the month, on each site's clock (see utc_offset)",
     )?;
     for (k, (_, units, std, long)) in STANDARD_FIELDS.iter().enumerate() {
         let mean_name = g.values[2 * k].0.as_str();

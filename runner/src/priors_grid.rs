@@ -262,7 +262,35 @@ impl GridPriors {
     }
 }
 
-fn nc_err(path: &Path, what: &str, e: impl std::fmt::Debug) -> Error {
+/// Defines the monthly `time` coordinate (mid-month, in days since 1 January of `y0`, standard
+/// calendar; `long_name` says on whose clock) and its `time_bnds` (the month's start and end).
+pub(crate) fn define_month_time(
+    ds: &mut DataSet,
+    path: &Path,
+    y0: i32,
+    long_name: &str,
+) -> Result<()> {
+    let def = |e| nc_err(path, "definition", e);
+    let time_units = format!("days since {y0:04}-01-01 00:00:00");
+    ds.add_var_f64("time", &["time"]).map_err(def)?;
+    for (k, v) in [
+        ("standard_name", "time"),
+        ("long_name", long_name),
+        ("units", time_units.as_str()),
+        ("calendar", "standard"),
+        ("axis", "T"),
+        ("bounds", "time_bnds"),
+    ] {
+        ds.add_var_attr_string("time", k, v).map_err(def)?;
+    }
+    ds.add_var_f64("time_bnds", &["time", "nv"]).map_err(def)?;
+    ds.add_var_attr_string("time_bnds", "long_name", "start and end of the month")
+        .map_err(def)?;
+    Ok(())
+}
+
+/// A netcdf3 error on `path` while doing `what`.
+pub(crate) fn nc_err(path: &Path, what: &str, e: impl std::fmt::Debug) -> Error {
     // netcdf3's errors have no Display: show their Debug form.
     Error::msg(format!("{}: NetCDF {what}: {e:?}", path.display()))
 }
@@ -359,26 +387,7 @@ pub fn write_priors_grid(path: &Path, p: &GridPriors) -> Result<()> {
         }
         Ok(())
     };
-    let time_units = format!("days since {y0:04}-01-01 00:00:00");
-    ds.add_var_f64("time", &["time"]).map_err(def)?;
-    attrs(
-        &mut ds,
-        "time",
-        &[
-            ("standard_name", "time"),
-            ("long_name", "middle of the month"),
-            ("units", &time_units),
-            ("calendar", "standard"),
-            ("axis", "T"),
-            ("bounds", "time_bnds"),
-        ],
-    )?;
-    ds.add_var_f64("time_bnds", &["time", "nv"]).map_err(def)?;
-    attrs(
-        &mut ds,
-        "time_bnds",
-        &[("long_name", "start and end of the month")],
-    )?;
+    define_month_time(&mut ds, path, y0, "middle of the month")?;
     for (v, n, units, std, axis, long) in [
         (
             "lat",

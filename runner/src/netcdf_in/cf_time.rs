@@ -9,6 +9,8 @@
 
 use std::fmt;
 
+use crate::forcing::time::{civil_from_days as gregorian_date, days_from_civil as gregorian_days};
+
 /// A CF calendar.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Calendar {
@@ -55,8 +57,6 @@ impl fmt::Display for CfDateTime {
 fn gregorian_leap(y: i64) -> bool {
     (y % 4 == 0 && y % 100 != 0) || y % 400 == 0
 }
-
-use crate::forcing::time::{civil_from_days as gregorian_date, days_from_civil as gregorian_days};
 
 impl Calendar {
     /// The calendar named by a `calendar` attribute (case-insensitive); None (no attribute) is
