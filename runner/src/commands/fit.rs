@@ -26,7 +26,7 @@ use crate::ensemble::summary::stats;
 use crate::error::{Error, Result};
 use crate::fit::diagnostics::{RHAT_WARN, ess_bulk, split_rhat};
 use crate::fit::sampler::{Chain, Eval, SamplerSettings, Stop, sample};
-use crate::fit::streams::Stream;
+use crate::fit::streams::{Pairing, Stream};
 use crate::fit::{Likelihood, ln_prior};
 use crate::forcing::{ForcingReport, ForcingStep};
 use crate::output::{
@@ -441,7 +441,7 @@ impl FitPlan {
                 "fnv1a64": std::fs::read(&s.file).map(|b| fnv1a64(&b)).unwrap_or_default(),
                 "variable": s.variable, "column": s.column,
                 "sd": s.sd_column.clone().map_or_else(|| serde_json::json!(s.obs[0].sd), serde_json::Value::from),
-                "paired_with": if s.monthly { "monthly" } else { "daily" },
+                "paired_with": s.pairing.name(),
                 "observations": s.obs.len(), "outside_period": s.outside,
                 "model_error": s.error_param.map(|j| plan.sampled[j].path.clone()),
                 "predictive": file,
@@ -509,13 +509,21 @@ impl FitPlan {
             writeln!(
                 w,
                 "{},observed,sd,model_p05,model_p50,model_p95,draws",
-                if s.monthly { "month" } else { "date" }
+                match s.pairing {
+                    Pairing::Daily => "date",
+                    Pairing::Monthly => "month",
+                    Pairing::Window => "start,end",
+                }
             )?;
             let mut line = String::new();
             for (i, o) in s.obs.iter().enumerate() {
                 let st = stats(draws.iter().map(|d| d[offset + i]));
                 line.clear();
                 line.push_str(&o.key);
+                if let Some(end) = &o.end {
+                    line.push(',');
+                    line.push_str(end);
+                }
                 for v in [
                     o.value,
                     o.sd,

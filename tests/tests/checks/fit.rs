@@ -646,3 +646,165 @@ fn posterior_ensemble_members_are_posterior_draws() {
     .unwrap_err();
     assert!(e.contains("posterior.csv"), "{e}");
 }
+
+// ---- bulk-leaf δ13C over a window -----------------------------------------------------------
+
+use isodisc_runner::fit::streams::{BULK_LEAF, window_assimilate_d13c};
+use isodisc_runner::simulate::{PERIOD_COLUMNS, PeriodRow, period_col};
+
+/// A daily row with only `gpp` (gC m⁻²) and `d13c_assimilate` (‰) set.
+fn day_row(key: &str, gpp: f64, d13c: f64) -> PeriodRow {
+    let mut values = vec![f64::NAN; PERIOD_COLUMNS.len() - 1];
+    values[period_col("gpp")] = gpp;
+    values[period_col("d13c_assimilate")] = d13c;
+    PeriodRow {
+        key: key.to_string(),
+        values,
+    }
+}
+
+#[test]
+fn bulk_leaf_window_is_gpp_weighted_assimilate_by_hand() {
+    // Common practice: bulk leaf δ13C is compared with the GPP-weighted δ13C of the assimilate
+    // of the days the leaves were built from. By hand over 1–4 January (the day without GPP has
+    // no δ and no weight): (1·(−26) + 3·(−28) + 2·(−27)) / (1 + 3 + 2) = −164/6.
+    let days = [
+        day_row("2025-01-01", 1.0, -26.0),
+        day_row("2025-01-02", 0.0, f64::NAN),
+        day_row("2025-01-03", 3.0, -28.0),
+        day_row("2025-01-04", 2.0, -27.0),
+        day_row("2025-01-05", 4.0, -30.0),
+    ];
+    let hand = -164.0 / 6.0;
+    assert!((window_assimilate_d13c(&days[..4]) - hand).abs() < 1e-12);
+    let tmp = tempfile::tempdir().unwrap();
+    let f = tmp.path().join("leaf.csv");
+    fs::write(
+        &f,
+        "start,end,d13c_bulk_leaf,sd\n2025-01-01,2025-01-04,-27.0,0.5\n\
+         2025-01-05,2025-01-05,-29.0,0.5\n2024-11-01,2024-12-15,-27.5,0.5\n",
+    )
+    .unwrap();
+    let mut s = Stream::read(&f, BULK_LEAF, None, 1).unwrap();
+    s.pair(&days, &[]).unwrap();
+    assert_eq!(s.outside, 1, "the window wholly before the run is left out");
+    let mut m = Vec::new();
+    s.predictions(&days, &[], &mut m);
+    assert!((m[0] - hand).abs() < 1e-12 && m[1] == -30.0, "{m:?}");
+    // A window without GPP has no prediction: an error naming its line.
+    fs::write(
+        &f,
+        "start,end,d13c_bulk_leaf,sd\n2025-01-02,2025-01-02,-27,0.5\n",
+    )
+    .unwrap();
+    let e = Stream::read(&f, BULK_LEAF, None, 1)
+        .unwrap()
+        .pair(&days, &[])
+        .unwrap_err()
+        .chain();
+    assert!(e.contains("line 2") && e.contains("no GPP"), "{e}");
+}
+
+#[test]
+fn bulk_leaf_prediction_equals_the_daily_output_by_hand() {
+    // End to end: with only a model-error SD sampled, every evaluation runs the site as given,
+    // so the predictive median is the prediction itself; it must equal Σ gpp·d13c_assimilate /
+    // Σ gpp over the window's rows of `isodisc run`'s daily.csv (by hand; daily.csv is rounded to
+    // 6 decimals, hence the tolerance).
+    let tmp = tempfile::tempdir().unwrap();
+    let site = demo_site(tmp.path());
+    let run_dir = tmp.path().join("run");
+    run(&[
+        "run",
+        p(&site),
+        "--out",
+        p(&run_dir),
+        "--from",
+        FROM,
+        "--to",
+        TO,
+        "--quiet",
+    ])
+    .unwrap();
+    let (h, rows) = read_csv(&run_dir.join("daily.csv"));
+    let col = |n: &str| h.iter().position(|x| x == n).unwrap();
+    let (c_day, c_g, c_d) = (col("period"), col("gpp"), col("d13c_assimilate"));
+    let (mut sum_g, mut sum_gd) = (0.0, 0.0);
+    for r in rows
+        .iter()
+        .filter(|r| ("2025-01-10"..="2025-01-25").contains(&r[c_day].as_str()))
+    {
+        let (g, d): (f64, f64) = (r[c_g].parse().unwrap(), r[c_d].parse().unwrap());
+        sum_g += g;
+        sum_gd += g * d;
+    }
+    let hand = sum_gd / sum_g;
+    let spec = tmp.path().join("spec.toml");
+    fs::write(
+        &spec,
+        "[param.\"error.d13c_bulk_leaf\"]\ndistribution = \"uniform\"\nmin = 0\nmax = 1\n",
+    )
+    .unwrap();
+    let obs = tmp.path().join("leaf.csv");
+    fs::write(
+        &obs,
+        "start,end,d13c_bulk_leaf,d13c_bulk_leaf_sd\n2025-01-10,2025-01-25,-19.0,0.5\n",
+    )
+    .unwrap();
+    let out = tmp.path().join("fit");
+    let mut a = fit_args(p(&site), p(&spec), p(&obs), p(&out), "5");
+    a[7] = BULK_LEAF;
+    a[17] = "2";
+    a[19] = "120";
+    run(&a).unwrap();
+    let (h, pred) = read_csv(&out.join("predictive_d13c_bulk_leaf.csv"));
+    assert_eq!(h[..4], ["start", "end", "observed", "sd"]);
+    assert_eq!(pred[0][..4], ["2025-01-10", "2025-01-25", "-19", "0.5"]);
+    for c in 4..7 {
+        let m: f64 = pred[0][c].parse().unwrap();
+        assert!((m - hand).abs() < 2e-6, "{} {m} vs {hand}", h[c]);
+    }
+}
+
+#[test]
+fn bad_bulk_leaf_input_is_located() {
+    // Common practice: errors name the file, line, column and value.
+    let tmp = tempfile::tempdir().unwrap();
+    let site = demo_site(tmp.path());
+    let spec = tmp.path().join("spec.toml");
+    fs::write(&spec, LEAKINESS_PRIOR).unwrap();
+    let out = tmp.path().join("out");
+    let go = |body: &str| {
+        let obs = tmp.path().join("leaf.csv");
+        fs::write(&obs, format!("start,end,d13c_bulk_leaf,sd\n{body}")).unwrap();
+        let mut a = fit_args(p(&site), p(&spec), p(&obs), p(&out), "1");
+        a[7] = BULK_LEAF;
+        run(&a).unwrap_err()
+    };
+    // A window reaching past the period run (January).
+    let e = go("2025-01-05,2025-01-20,-19,0.4\n2025-01-20,2025-02-10,-19,0.4\n");
+    assert!(
+        e.contains("leaf.csv: line 3") && e.contains("2025-01-20 to 2025-02-10"),
+        "{e}"
+    );
+    assert!(
+        e.contains("reaches outside the days run (2025-01-01 to 2025-01-31)"),
+        "{e}"
+    );
+    // Every window outside the run.
+    let e = go("2025-06-01,2025-06-30,-19,0.4\n");
+    assert!(e.contains("falls within the period run"), "{e}");
+    // The end before the start.
+    let e = go("2025-01-05,2025-01-20,-19,0.4\n2025-01-20,2025-01-10,-19,0.4\n");
+    assert!(
+        e.contains("leaf.csv: line 3, column 2 (end): `2025-01-10` is before the window's start"),
+        "{e}"
+    );
+    // An SD <= 0.
+    let e = go("2025-01-05,2025-01-20,-19,-0.4\n");
+    assert!(e.contains("leaf.csv: line 2, column 4 (sd)"), "{e}");
+    // A start that is not a date.
+    let e = go("2025-01-5,2025-01-20,-19,0.4\n");
+    assert!(e.contains("line 2, column 1 (start)"), "{e}");
+    assert!(!out.exists());
+}
