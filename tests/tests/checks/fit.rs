@@ -808,3 +808,132 @@ fn bad_bulk_leaf_input_is_located() {
     assert!(e.contains("line 2, column 1 (start)"), "{e}");
     assert!(!out.exists());
 }
+
+// ---- `batch --posterior` --------------------------------------------------------------------
+
+#[test]
+fn batch_site_posterior_equals_its_ensemble() {
+    // `batch --posterior FITS` (docs/ensembles.md) draws a site's members as `ensemble SITE
+    // --posterior FITS/<id>` does with the same seed: the site's files are byte for byte the
+    // ensemble's (common practice: one computation, two entry points). A site without a fit
+    // takes --spec, and without --spec is an error naming the file looked for.
+    let tmp = tempfile::tempdir().unwrap();
+    let site = demo_site(tmp.path());
+    let spec = tmp.path().join("spec.toml");
+    fs::write(&spec, LEAKINESS_PRIOR).unwrap();
+    let obs = tmp.path().join("obs.csv");
+    fs::write(&obs, "date,discrimination,sd\n2025-01-05,9.1,0.5\n").unwrap();
+    let fits = tmp.path().join("fits");
+    fs::create_dir(&fits).unwrap();
+    run(&fit_args(
+        p(&site),
+        p(&spec),
+        p(&obs),
+        p(&fits.join("miombo")),
+        "2",
+    ))
+    .unwrap();
+    let manifest = tmp.path().join("manifest.toml");
+    fs::write(
+        &manifest,
+        "template = \"site.toml\"\n[[site]]\nid = \"miombo\"\n\
+         [[site]]\nid = \"grassy\"\nc4_cover = 0.5\n",
+    )
+    .unwrap();
+    let period = ["--from", FROM, "--to", TO, "--quiet"];
+    let batch = tmp.path().join("batch");
+    let mut a = vec![
+        "batch",
+        p(&manifest),
+        "--out",
+        p(&batch),
+        "--posterior",
+        p(&fits),
+        "--spec",
+        p(&spec),
+        "--members",
+        "6",
+        "--seed",
+        "3",
+    ];
+    a.extend(period);
+    run(&a).unwrap();
+    let ens = tmp.path().join("ens");
+    let miombo_fit = fits.join("miombo");
+    let mut e = vec![
+        "ensemble",
+        p(&site),
+        "--posterior",
+        p(&miombo_fit),
+        "--members",
+        "6",
+        "--seed",
+        "3",
+        "--out",
+        p(&ens),
+    ];
+    e.extend(period);
+    run(&e).unwrap();
+    for f in [
+        "members.csv",
+        "quantiles_monthly.csv",
+        "quantiles_annual.csv",
+        "sensitivity.csv",
+    ] {
+        assert_eq!(
+            fs::read(batch.join("sites/miombo").join(f)).unwrap(),
+            fs::read(ens.join(f)).unwrap(),
+            "{f}"
+        );
+    }
+    // The site without a fit drew from the spec (leakiness within its uniform prior).
+    let (h, rows) = read_csv(&batch.join("sites/grassy/members.csv"));
+    let c = h
+        .iter()
+        .position(|x| x == "vegetation.c4.leakiness")
+        .unwrap();
+    assert_eq!(rows.len(), 6);
+    assert!(
+        rows.iter()
+            .all(|r| (0.15..=0.45).contains(&r[c].parse::<f64>().unwrap()))
+    );
+    // Without --spec the site without a fit is refused, naming the file looked for.
+    let b2 = tmp.path().join("b2");
+    let mut a = vec![
+        "batch",
+        p(&manifest),
+        "--out",
+        p(&b2),
+        "--posterior",
+        p(&fits),
+        "--members",
+        "6",
+        "--seed",
+        "3",
+    ];
+    a.extend(period);
+    let err = run(&a).unwrap_err();
+    assert!(
+        err.contains("site `grassy`") && err.contains("grassy/posterior.csv"),
+        "{err}"
+    );
+    // A --posterior folder that does not exist, and --members without --spec or --posterior.
+    a[5] = "/nonexistent/fits";
+    let err = run(&a).unwrap_err();
+    assert!(
+        err.contains("--posterior /nonexistent/fits: not a folder"),
+        "{err}"
+    );
+    let err = run(&[
+        "batch",
+        p(&manifest),
+        "--out",
+        p(&tmp.path().join("b3")),
+        "--members",
+        "6",
+        "--seed",
+        "3",
+    ])
+    .unwrap_err();
+    assert!(err.contains("--spec or --posterior"), "{err}");
+}
