@@ -341,6 +341,22 @@ fn demo_site(dir: &Path) -> std::path::PathBuf {
     site
 }
 
+/// `isodisc run SITE --out OUT` over the month fitted.
+fn run_month(site: &Path, out: &Path) {
+    run(&[
+        "run",
+        p(site),
+        "--out",
+        p(out),
+        "--from",
+        FROM,
+        "--to",
+        TO,
+        "--quiet",
+    ])
+    .unwrap();
+}
+
 fn read_csv(path: &Path) -> (Vec<String>, Vec<Vec<String>>) {
     let mut r = csv::Reader::from_path(path).unwrap();
     let h = r.headers().unwrap().iter().map(String::from).collect();
@@ -401,18 +417,7 @@ fn planted_leakiness_is_recovered() {
     let planted_site = tmp.path().join("planted.toml");
     fs::write(&planted_site, planted).unwrap();
     let run_dir = tmp.path().join("truth");
-    run(&[
-        "run",
-        p(&planted_site),
-        "--out",
-        p(&run_dir),
-        "--from",
-        FROM,
-        "--to",
-        TO,
-        "--quiet",
-    ])
-    .unwrap();
+    run_month(&planted_site, &run_dir);
     let (h, rows) = read_csv(&run_dir.join("daily.csv"));
     let (c_period, c_d) = (
         h.iter().position(|x| x == "period").unwrap(),
@@ -580,18 +585,24 @@ fn bad_fit_input_is_located() {
     assert!(!out.exists());
 }
 
+/// A short fit of the leakiness (one observation of Δ) in `out`; returns the site and spec files.
+fn small_fit(dir: &Path, out: &Path) -> (std::path::PathBuf, std::path::PathBuf) {
+    let site = demo_site(dir);
+    let spec = dir.join("spec.toml");
+    fs::write(&spec, LEAKINESS_PRIOR).unwrap();
+    let obs = dir.join("obs.csv");
+    fs::write(&obs, "date,discrimination,sd\n2025-01-05,9.1,0.5\n").unwrap();
+    run(&fit_args(p(&site), p(&spec), p(&obs), p(out), "2")).unwrap();
+    (site, spec)
+}
+
 #[test]
 fn posterior_ensemble_members_are_posterior_draws() {
     // `ensemble --posterior` (docs/fit.md): every member's parameters are one row of posterior.csv;
     // a folder without a posterior is refused with its path (common practice).
     let tmp = tempfile::tempdir().unwrap();
-    let site = demo_site(tmp.path());
-    let spec = tmp.path().join("spec.toml");
-    fs::write(&spec, LEAKINESS_PRIOR).unwrap();
-    let obs = tmp.path().join("obs.csv");
-    fs::write(&obs, "date,discrimination,sd\n2025-01-05,9.1,0.5\n").unwrap();
     let fit = tmp.path().join("fit");
-    run(&fit_args(p(&site), p(&spec), p(&obs), p(&fit), "2")).unwrap();
+    let (site, _) = small_fit(tmp.path(), &fit);
     let ens = tmp.path().join("ens");
     run(&[
         "ensemble",
@@ -714,18 +725,7 @@ fn bulk_leaf_prediction_equals_the_daily_output_by_hand() {
     let tmp = tempfile::tempdir().unwrap();
     let site = demo_site(tmp.path());
     let run_dir = tmp.path().join("run");
-    run(&[
-        "run",
-        p(&site),
-        "--out",
-        p(&run_dir),
-        "--from",
-        FROM,
-        "--to",
-        TO,
-        "--quiet",
-    ])
-    .unwrap();
+    run_month(&site, &run_dir);
     let (h, rows) = read_csv(&run_dir.join("daily.csv"));
     let col = |n: &str| h.iter().position(|x| x == n).unwrap();
     let (c_day, c_g, c_d) = (col("period"), col("gpp"), col("d13c_assimilate"));
@@ -818,21 +818,9 @@ fn batch_site_posterior_equals_its_ensemble() {
     // ensemble's (common practice: one computation, two entry points). A site without a fit
     // takes --spec, and without --spec is an error naming the file looked for.
     let tmp = tempfile::tempdir().unwrap();
-    let site = demo_site(tmp.path());
-    let spec = tmp.path().join("spec.toml");
-    fs::write(&spec, LEAKINESS_PRIOR).unwrap();
-    let obs = tmp.path().join("obs.csv");
-    fs::write(&obs, "date,discrimination,sd\n2025-01-05,9.1,0.5\n").unwrap();
     let fits = tmp.path().join("fits");
     fs::create_dir(&fits).unwrap();
-    run(&fit_args(
-        p(&site),
-        p(&spec),
-        p(&obs),
-        p(&fits.join("miombo")),
-        "2",
-    ))
-    .unwrap();
+    let (site, spec) = small_fit(tmp.path(), &fits.join("miombo"));
     let manifest = tmp.path().join("manifest.toml");
     fs::write(
         &manifest,
