@@ -925,3 +925,63 @@ fn batch_site_posterior_equals_its_ensemble() {
     .unwrap_err();
     assert!(err.contains("--spec or --posterior"), "{err}");
 }
+
+// ---- per-site work shared across evaluations -------------------------------------------------
+
+#[test]
+fn shared_light_leaves_every_number_unchanged() {
+    // `isodisc fit` computes each step's light once, at the site as given, and every evaluation
+    // reuses it (docs/fit.md). A draw that changes the canopy (LAI, g1, cover) must give the very
+    // numbers of a run that computes its own light (common practice: a cache never changes a
+    // result), to the bit.
+    use isodisc_runner::forcing::ForcingReader;
+    use isodisc_runner::simulate::{NoSink, simulate, simulate_lit, step_lights};
+    use isodisc_runner::site::Site;
+    let site = Site::load(&demo_path("site.toml")).unwrap();
+    let mut reader = ForcingReader::open(
+        &site.file.forcing,
+        &site.dir(),
+        site.file.site.elevation_m,
+        None,
+        None,
+    )
+    .unwrap();
+    let steps: Vec<_> = reader
+        .by_ref()
+        .take(62 * 24)
+        .collect::<Result<_, _>>()
+        .unwrap();
+    let minutes = reader.report().step_minutes;
+    let lights = step_lights(&site, &steps, minutes);
+    assert_eq!(lights.len(), steps.len());
+    for draw in [
+        vec![("vegetation.c3.lai", 3.5), ("vegetation.c3.g1", 5.0)],
+        vec![
+            ("vegetation.c4.leakiness", 0.2),
+            ("vegetation.c4.cover", 0.4),
+        ],
+    ] {
+        let mut s = site.clone();
+        s.set_params(&draw).unwrap();
+        // The first draw's canopy has other light (its LAI): the shared light must be refused
+        // and recomputed; the second's is the site's own.
+        let differs = step_lights(&s, &steps, minutes) != lights;
+        assert_eq!(differs, draw[0].0 == "vegetation.c3.lai", "{draw:?}");
+        let own = simulate(&s, steps.iter().cloned().map(Ok), minutes, &mut NoSink).unwrap();
+        let shared = simulate_lit(
+            &s,
+            steps.iter().cloned().map(Ok),
+            minutes,
+            &mut NoSink,
+            &lights,
+        )
+        .unwrap();
+        for (a, b) in own.periods.iter().zip(&shared.periods) {
+            assert_eq!(a.len(), b.len());
+            for (ra, rb) in a.iter().zip(b) {
+                let bits = |r: &PeriodRow| r.values.iter().map(|v| v.to_bits()).collect::<Vec<_>>();
+                assert_eq!((&ra.key, bits(ra)), (&rb.key, bits(rb)), "{draw:?}");
+            }
+        }
+    }
+}
