@@ -16,8 +16,13 @@ It writes, into --out (default: this folder):
 * d13c_respiration_observed.csv -- daily "observed" d13C of ecosystem respiration: columns
   date, d13c_respiration (permil VPDB) = the prediction plus noise, with random and
   block gaps.
+* d13c_bulk_leaf_observed.csv -- bulk leaf organic matter sampled every 60 days: columns start,
+  end (the 45 days, both included, whose assimilate the leaves were built from), d13c_bulk_leaf
+  (permil VPDB) = the GPP-weighted d13c_assimilate of those days (gpp x d13c_assimilate summed
+  over the window / gpp summed, as `isodisc fit` predicts it) plus noise, and d13c_bulk_leaf_sd
+  (permil). Its generator is seeded apart from the other files' so they stay as they were.
 
-The run must have a d13c_respiration column in daily.csv. Usage:
+The run must have d13c_respiration, gpp and d13c_assimilate columns in daily.csv. Usage:
 
     isodisc run forcing-demo/site.toml --out results
     python3 forcing-demo/observations/make_observations.py --run results
@@ -83,6 +88,36 @@ def night_samples(rng, day, d13c_resp, cbg, dbg):
     return rows
 
 
+def read_daily_columns(run_dir, names):
+    """(date, {name: value or None}) per day of daily.csv."""
+    with open(os.path.join(run_dir, "daily.csv"), newline="") as f:
+        rows = list(csv.DictReader(f))
+    return [
+        (
+            dt.date.fromisoformat(r["period"]),
+            {n: float(r[n]) if r[n].strip() else None for n in names},
+        )
+        for r in rows
+    ]
+
+
+def bulk_leaf_samples(rng, days, noise, every=60, window=45):
+    """(start, end, value, sd) per bulk-leaf sample: the GPP-weighted d13C of the assimilate of
+    the `window` days ending on each collection day, every `every` days, plus noise."""
+    out = []
+    for end in range(window - 1, len(days), every):
+        sum_g = sum_gd = 0.0
+        for _, v in days[end - window + 1 : end + 1]:
+            g, d = v["gpp"], v["d13c_assimilate"]
+            if g is not None and d is not None and g > 0:
+                sum_g += g
+                sum_gd += g * d
+        if sum_g > 0:
+            value = sum_gd / sum_g + rng.gauss(0.0, noise)
+            out.append((days[end - window + 1][0], days[end][0], round(value, 2), noise))
+    return out
+
+
 def main():
     p = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     p.add_argument("--run", required=True, help="folder written by `isodisc run --out`")
@@ -91,6 +126,9 @@ def main():
     p.add_argument("--background-co2", type=float, default=425.0)
     p.add_argument("--background-d13c", type=float, default=-8.6)
     p.add_argument("--noise", type=float, default=0.3, help="SD of observed dR noise (permil)")
+    p.add_argument(
+        "--bulk-leaf-noise", type=float, default=0.4, help="SD of bulk-leaf noise (permil)"
+    )
     args = p.parse_args()
 
     daily = read_daily(args.run)
@@ -114,6 +152,14 @@ def main():
             if rng.random() < 0.25 or block <= i < block + 21:
                 continue
             w.writerow([day.isoformat(), round(d13c + rng.gauss(0.0, args.noise), 3)])
+
+    days = read_daily_columns(args.run, ["gpp", "d13c_assimilate"])
+    leaf_rng = random.Random(f"{args.seed}-bulk-leaf")
+    with open(os.path.join(args.out, "d13c_bulk_leaf_observed.csv"), "w", newline="") as f:
+        w = csv.writer(f, lineterminator="\n")
+        w.writerow(["start", "end", "d13c_bulk_leaf", "d13c_bulk_leaf_sd"])
+        for start, end, value, sd in bulk_leaf_samples(leaf_rng, days, args.bulk_leaf_noise):
+            w.writerow([start.isoformat(), end.isoformat(), value, sd])
 
 
 if __name__ == "__main__":

@@ -400,11 +400,15 @@ pub struct BatchArgs {
     /// Run every site as an ensemble of this spec (needs --members and --seed).
     #[arg(long, requires_all = ["members", "seed"])]
     pub spec: Option<PathBuf>,
-    /// Members per site.
-    #[arg(long, requires = "spec")]
+    /// Draw each site's members from the posterior of its fit, DIR/<site id>/posterior.csv
+    /// (`isodisc fit --out DIR/<site id>`); with --spec, sites without a fit take the spec.
+    #[arg(long, value_name = "DIR", requires_all = ["members", "seed"])]
+    pub posterior: Option<PathBuf>,
+    /// Members per site (with --spec or --posterior).
+    #[arg(long)]
     pub members: Option<usize>,
-    /// Seed of the sampling.
-    #[arg(long, requires = "spec")]
+    /// Seed of the sampling (with --spec or --posterior).
+    #[arg(long)]
     pub seed: Option<u64>,
     /// Worker threads [default: one per core].
     #[arg(long)]

@@ -1,5 +1,7 @@
-//! `isodisc batch MANIFEST.toml --out DIR [--shard K/N] [--spec SPEC --members N --seed S]`: many
-//! sites, in parallel, each a single run or an ensemble, and the monthly priors of them all.
+//! `isodisc batch MANIFEST.toml --out DIR [--shard K/N] [--spec SPEC] [--posterior FITS]
+//! [--members N --seed S]`: many sites, in parallel, each a single run or an ensemble — of a spec,
+//! or drawn from the posterior of the site's own fit (`FITS/<site id>/posterior.csv`) — and the
+//! monthly priors of them all.
 //!
 //! Layout of DIR (one shard's folder; shards on other machines write their own folders, which
 //! `isodisc merge` joins):
@@ -12,6 +14,7 @@
 //!   exists only when finished; on a re-run a site whose marker matches is skipped;
 //! - `priors.csv`, `priors.nc`: the shard's sites in manifest order; `run.json`: this invocation.
 
+use std::collections::BTreeMap;
 use std::fmt::Write as _;
 use std::fs;
 use std::path::{Path, PathBuf};
@@ -21,14 +24,15 @@ use indicatif::{ParallelProgressIterator, ProgressBar};
 use rayon::prelude::*;
 
 use super::ensemble::{
-    check_members, check_spec_paths, check_threads, read_steps, thread_pool, write_ensemble_files,
+    check_members, check_spec_paths, check_threads, posterior_draw, read_posterior, read_steps,
+    thread_pool, write_ensemble_files,
 };
 use crate::cli::BatchArgs;
 use crate::commands::run::write_periods;
 use crate::commands::{Period, parse_period};
 use crate::ensemble::manifest::{Manifest, ManifestSite};
 use crate::ensemble::spec::EnsembleSpec;
-use crate::ensemble::{Member, MemberPeriods, MemberStatus, run_members};
+use crate::ensemble::{Member, MemberPeriods, MemberStatus, run_members, run_members_drawn};
 use crate::error::{Context, Error, Result};
 use crate::output::{
     FolderLock, check_not_input, clean_stale, fnv1a64, plural, replace_dir, sibling, track_temp,
@@ -37,12 +41,111 @@ use crate::output::{
 use crate::priors::{PriorRow, prior_rows, read_priors_csv, write_priors, write_priors_csv};
 use crate::simulate::{NoSink, simulate};
 
-/// An ensemble applied to every site.
+/// The ensembles of the sites: each site's members drawn from its own fit's posterior where it
+/// has one, else from the spec.
 #[derive(Debug, Clone)]
 pub(crate) struct SiteEnsemble {
-    spec: EnsembleSpec,
+    /// `--spec`: for every site without a fit.
+    spec: Option<EnsembleSpec>,
+    /// `--posterior DIR`, the folder of the sites' fits.
+    posterior: Option<PathBuf>,
+    /// The fits found there, by site id.
+    fits: BTreeMap<String, SiteFit>,
     members: usize,
     seed: u64,
+}
+
+/// One site's fit: the posterior's parameters (as a spec, for the members' table) and its draws.
+#[derive(Debug, Clone)]
+struct SiteFit {
+    spec: EnsembleSpec,
+    draws: Vec<Vec<f64>>,
+}
+
+impl SiteEnsemble {
+    /// Reads the spec and the sites' posteriors and checks every site's parameter paths; a site
+    /// with neither a fit nor a spec is an error naming the file it looked for.
+    fn load(
+        manifest: &Manifest,
+        spec: Option<&Path>,
+        posterior: Option<&Path>,
+        members: usize,
+        seed: u64,
+    ) -> Result<Self> {
+        let spec = spec.map(EnsembleSpec::load).transpose()?;
+        if let Some(dir) = posterior
+            && !dir.is_dir()
+        {
+            return Err(Error::msg(format!(
+                "--posterior {}: not a folder (it holds one fit per site: <site id>/posterior.csv)",
+                dir.display()
+            )));
+        }
+        let mut fits = BTreeMap::new();
+        for s in &manifest.sites {
+            let fit_dir = posterior.map(|d| d.join(&s.id));
+            let site_spec = match fit_dir.filter(|d| d.join("posterior.csv").exists()) {
+                Some(d) => {
+                    let (spec, draws) =
+                        read_posterior(&d).with_context(|| format!("manifest site `{}`", s.id))?;
+                    &fits
+                        .entry(s.id.clone())
+                        .or_insert(SiteFit { spec, draws })
+                        .spec
+                }
+                None => spec.as_ref().ok_or_else(|| {
+                    Error::msg(format!(
+                        "manifest site `{}`: no fit {} (write it with `isodisc fit ... --out \
+                         {}`), and no --spec for sites without one",
+                        s.id,
+                        posterior
+                            .unwrap_or(Path::new(""))
+                            .join(&s.id)
+                            .join("posterior.csv")
+                            .display(),
+                        posterior.unwrap_or(Path::new("")).join(&s.id).display()
+                    ))
+                })?,
+            };
+            check_spec_paths(site_spec, &s.site)
+                .with_context(|| format!("manifest site `{}`", s.id))?;
+        }
+        if let Some(dir) = posterior
+            && fits.is_empty()
+        {
+            return Err(Error::msg(format!(
+                "--posterior {}: holds no fit of a manifest site (<site id>/posterior.csv, e.g. \
+                 {})",
+                dir.display(),
+                dir.join(&manifest.sites[0].id)
+                    .join("posterior.csv")
+                    .display()
+            )));
+        }
+        check_members(members)?;
+        Ok(Self {
+            spec,
+            posterior: posterior.map(Path::to_path_buf),
+            fits,
+            members,
+            seed,
+        })
+    }
+
+    /// The input files: the spec and every posterior.csv.
+    fn files(&self) -> Vec<PathBuf> {
+        let spec = self.spec.iter().map(|s| s.path.clone());
+        spec.chain(self.fits.values().map(|f| f.spec.path.clone()))
+            .collect()
+    }
+
+    /// Checksum of what shapes site `id`'s members: its posterior.csv, else the spec.
+    fn site_fnv1a64(&self, id: &str) -> Option<String> {
+        match self.fits.get(id) {
+            Some(f) => Some(fnv1a64(f.spec.text.as_bytes())),
+            None => self.spec.as_ref().map(|s| fnv1a64(s.text.as_bytes())),
+        }
+    }
 }
 
 /// A validated `isodisc batch`.
@@ -135,13 +238,13 @@ pub(crate) fn batch_identity(
         file(&manifest.path)
     );
     if let Some(e) = ensemble {
-        let _ = write!(
-            history,
-            " --spec {} --members {} --seed {}",
-            file(&e.spec.path),
-            e.members,
-            e.seed
-        );
+        if let Some(spec) = &e.spec {
+            let _ = write!(history, " --spec {}", file(&spec.path));
+        }
+        if let Some(dir) = &e.posterior {
+            let _ = write!(history, " --posterior {}", file(dir));
+        }
+        let _ = write!(history, " --members {} --seed {}", e.members, e.seed);
     }
     if let Some(f) = &from_to.0 {
         let _ = write!(history, " --from {f}");
@@ -154,9 +257,22 @@ pub(crate) fn batch_identity(
         "manifest": {"file": file(&manifest.path), "fnv1a64": fnv1a64(manifest.text.as_bytes())},
         "title": manifest.title.clone().unwrap_or_else(|| "isodisc land priors".into()),
         "history": history,
-        "ensemble": ensemble.map(|e| serde_json::json!({
-            "spec": file(&e.spec.path), "spec_fnv1a64": fnv1a64(e.spec.text.as_bytes()),
-            "members": e.members, "seed": e.seed})),
+        "ensemble": ensemble.map(|e| {
+            let mut j = serde_json::Map::new();
+            if let Some(spec) = &e.spec {
+                j.insert("spec".into(), file(&spec.path).into());
+                j.insert("spec_fnv1a64".into(), fnv1a64(spec.text.as_bytes()).into());
+            }
+            if let Some(dir) = &e.posterior {
+                j.insert("posterior".into(), file(dir).into());
+                j.insert("posterior_fnv1a64".into(), e.fits.iter()
+                    .map(|(id, f)| (id.clone(), fnv1a64(f.spec.text.as_bytes()).into()))
+                    .collect::<serde_json::Map<_, _>>().into());
+            }
+            j.insert("members".into(), e.members.into());
+            j.insert("seed".into(), e.seed.into());
+            j
+        }),
         "from": from_to.0, "to": from_to.1,
         "sites": manifest.sites.iter().map(|s| serde_json::json!({
             "id": s.id,
@@ -244,22 +360,24 @@ impl BatchPlan {
     pub fn from_args(args: &BatchArgs) -> Result<Self> {
         let manifest = Manifest::load(&args.manifest)?;
         let shard = args.shard.as_deref().map_or(Ok((1, 1)), parse_shard)?;
-        let ensemble = match (&args.spec, args.members, args.seed) {
-            (Some(spec), Some(members), Some(seed)) => {
-                let spec = EnsembleSpec::load(spec)?;
-                for s in &manifest.sites {
-                    check_spec_paths(&spec, &s.site)
-                        .with_context(|| format!("manifest site `{}`", s.id))?;
-                }
-                check_members(members)?;
-                Some(SiteEnsemble {
-                    spec,
+        let ensemble = match (&args.spec, &args.posterior, args.members, args.seed) {
+            (spec, posterior, Some(members), Some(seed))
+                if spec.is_some() || posterior.is_some() =>
+            {
+                Some(SiteEnsemble::load(
+                    &manifest,
+                    spec.as_deref(),
+                    posterior.as_deref(),
                     members,
                     seed,
-                })
+                )?)
             }
-            (None, None, None) => None,
-            _ => return Err(Error::msg("--spec, --members and --seed go together")),
+            (None, None, None, None) => None,
+            _ => {
+                return Err(Error::msg(
+                    "--members and --seed go with --spec or --posterior (or both)",
+                ));
+            }
         };
         check_threads(args.threads)?;
         if args.out.exists() && !args.out.is_dir() {
@@ -270,7 +388,7 @@ impl BatchPlan {
         }
         let mut inputs = vec![manifest.path.clone()];
         if let Some(e) = &ensemble {
-            inputs.push(e.spec.path.clone());
+            inputs.extend(e.files());
         }
         for s in &manifest.sites {
             inputs.extend(s.site.input_files().into_iter().map(|f| f.1));
@@ -321,7 +439,7 @@ impl BatchPlan {
                     .with_context(|| format!("site `{}`: cannot read {}", s.id, path.display()))
             }).collect::<Result<serde_json::Map<String, serde_json::Value>>>()?,
             "overrides_fnv1a64": fnv1a64(overrides.as_bytes()),
-            "spec_fnv1a64": self.ensemble.as_ref().map(|e| fnv1a64(e.spec.text.as_bytes())),
+            "spec_fnv1a64": self.ensemble.as_ref().and_then(|e| e.site_fnv1a64(&s.id)),
             "members": self.ensemble.as_ref().map(|e| e.members),
             "seed": self.ensemble.as_ref().map(|e| e.seed),
             "weight": s.weight,
@@ -348,16 +466,35 @@ impl BatchPlan {
             let (steps, report) = read_steps(&s.site, self.period)?;
             let members: Vec<Member> = match &self.ensemble {
                 Some(e) => {
-                    let m = run_members(
-                        &s.site,
-                        &steps,
-                        report.step_minutes,
-                        &e.spec,
-                        e.members,
-                        e.seed,
-                        &ProgressBar::hidden(),
-                    );
-                    write_ensemble_files(&tmp, &e.spec, &m)?;
+                    let (spec, m) = match (e.fits.get(&s.id), &e.spec) {
+                        // As `isodisc ensemble SITE --posterior FITS/<id>` draws its members.
+                        (Some(fit), _) => (
+                            &fit.spec,
+                            run_members_drawn(
+                                &s.site,
+                                &steps,
+                                report.step_minutes,
+                                &fit.spec,
+                                e.members,
+                                &ProgressBar::hidden(),
+                                |i| posterior_draw(&fit.draws, e.seed, i),
+                            ),
+                        ),
+                        (None, Some(spec)) => (
+                            spec,
+                            run_members(
+                                &s.site,
+                                &steps,
+                                report.step_minutes,
+                                spec,
+                                e.members,
+                                e.seed,
+                                &ProgressBar::hidden(),
+                            ),
+                        ),
+                        (None, None) => unreachable!("SiteEnsemble::load found a fit or a spec"),
+                    };
+                    write_ensemble_files(&tmp, spec, &m)?;
                     m
                 }
                 None => {

@@ -223,13 +223,7 @@ impl EnsemblePlan {
                 &self.spec,
                 self.members,
                 &progress,
-                |i| {
-                    use rand::Rng;
-                    // Member i takes the posterior row chosen by its own stream (seed, i).
-                    let mut rng =
-                        crate::ensemble::sample::stream(self.seed, TAG_POSTERIOR, i as u64);
-                    draws[(rng.next_u64() % draws.len() as u64) as usize].clone()
-                },
+                |i| posterior_draw(draws, self.seed, i),
             ),
         });
         progress.finish_and_clear();
@@ -282,7 +276,7 @@ impl EnsemblePlan {
 /// and `log_likelihood`, model-error SDs `error.*` left out) as a spec whose every parameter is
 /// uniform over the draws' range (only for the members' table and the sensitivities), and the
 /// draws.
-fn read_posterior(dir: &Path) -> Result<(EnsembleSpec, Vec<Vec<f64>>)> {
+pub(crate) fn read_posterior(dir: &Path) -> Result<(EnsembleSpec, Vec<Vec<f64>>)> {
     let path = dir.join("posterior.csv");
     let table = crate::table::CsvTable::read(&path)?;
     let text = std::fs::read_to_string(&path)?;
@@ -347,6 +341,14 @@ fn read_posterior(dir: &Path) -> Result<(EnsembleSpec, Vec<Vec<f64>>)> {
         params,
     };
     Ok((spec, draws))
+}
+
+/// Member i's values from a posterior's draws: the row chosen by its own stream (seed, i), so
+/// independent of the thread count (shared by `ensemble --posterior` and `batch --posterior`).
+pub(crate) fn posterior_draw(draws: &[Vec<f64>], seed: u64, i: usize) -> Vec<f64> {
+    use rand::Rng;
+    let mut rng = crate::ensemble::sample::stream(seed, TAG_POSTERIOR, i as u64);
+    draws[(rng.next_u64() % draws.len() as u64) as usize].clone()
 }
 
 /// Stream tag of the posterior draws' choice.

@@ -1,6 +1,7 @@
 //! `isodisc fit SITE.toml --spec SPEC.toml --observed FILE --variable NAME --seed S --out DIR`:
-//! calibrates a site's parameters to observations (docs/fit.md). The weather is read once; every
-//! evaluation of the posterior runs the site over it (no output kept but the model's values at
+//! calibrates a site's parameters to observations (docs/fit.md). The weather is read once, and
+//! the light of its steps computed once unless a sampled parameter moves the site; every
+//! evaluation of the posterior runs the site over them (no output kept but the model's values at
 //! the observations); the walkers of the Goodman & Weare sampler move in parallel on a local pool
 //! of `--threads` threads, with results identical for any thread count. `posterior.csv`,
 //! `summary.csv`, `predictive_<variable>.csv`, the maximum-a-posteriori run in `best/` and
@@ -19,18 +20,21 @@ use crate::commands::ensemble::{check_spec_paths, read_steps, spec_json, thread_
 use crate::commands::run::RunPlan;
 use crate::commands::{Period, parse_period};
 use crate::ensemble::sample::open_unit;
+use crate::ensemble::shares_light;
 use crate::ensemble::spec::{Dist, EnsembleSpec, ParamSpec};
 use crate::ensemble::summary::stats;
 use crate::error::{Error, Result};
 use crate::fit::diagnostics::{RHAT_WARN, ess_bulk, split_rhat};
 use crate::fit::sampler::{Chain, Eval, SamplerSettings, Stop, sample};
-use crate::fit::streams::Stream;
+use crate::fit::streams::{Pairing, Stream};
 use crate::fit::{Likelihood, ln_prior};
+use crate::forcing::{ForcingReport, ForcingStep};
 use crate::output::{
     AtomicFile, check_out_dir, fmt_num, fnv1a64, inputs_json, write_folder, write_json,
 };
-use crate::simulate::{NoSink, simulate};
+use crate::simulate::{NoSink, Simulated, simulate_lit, step_lights};
 use crate::site::Site;
+use isodisc_model::site::StepLight;
 
 /// Prefix of the spec paths that are model-error SDs of a variable's streams, not site parameters.
 pub const ERROR_PREFIX: &str = "error.";
@@ -57,6 +61,57 @@ pub struct FitPlan {
     overwrite: bool,
     quiet: bool,
     command: String,
+}
+
+/// The per-site work shared by every evaluation: the weather read once and, unless a sampled
+/// parameter moves the site (`site.latitude`, `site.longitude`: [`shares_light`]), the light of
+/// each step (solar geometry, diffuse fraction, two-leaf partition) computed once. The site model
+/// recomputes any shared light that does not fit its site and step (a sampled LAI, say), so the
+/// numbers are those of a run without sharing.
+struct Weather {
+    steps: Vec<ForcingStep>,
+    step_minutes: u32,
+    lights: Vec<Option<StepLight>>,
+}
+
+impl Weather {
+    fn new(
+        site: &Site,
+        sampled: &[ParamSpec],
+        spec: &EnsembleSpec,
+        steps: Vec<ForcingStep>,
+        report: &ForcingReport,
+    ) -> Self {
+        let sampled_spec = EnsembleSpec {
+            params: sampled.to_vec(),
+            ..spec.clone()
+        };
+        let lights = if shares_light(&sampled_spec) {
+            step_lights(site, &steps, report.step_minutes)
+        } else {
+            Vec::new()
+        };
+        Self {
+            steps,
+            step_minutes: report.step_minutes,
+            lights,
+        }
+    }
+
+    fn shares_light(&self) -> bool {
+        !self.lights.is_empty()
+    }
+
+    /// One run of `site` over the weather, keeping nothing but its period rows.
+    fn simulate(&self, site: &Site) -> Result<Simulated> {
+        simulate_lit(
+            site,
+            self.steps.iter().cloned().map(Ok),
+            self.step_minutes,
+            &mut NoSink,
+            &self.lights,
+        )
+    }
 }
 
 /// The sampled parameters' values split into the site's and the streams' model-error SDs.
@@ -259,12 +314,7 @@ impl FitPlan {
     /// ln prior, ln likelihood and the model's values at the observations (all streams, in
     /// order) of the sampled values `x`; the model is not run outside the prior's support, and
     /// a value the site refuses or a failed run gives −∞.
-    fn evaluate(
-        &self,
-        x: &[f64],
-        steps: &[crate::forcing::ForcingStep],
-        step_minutes: u32,
-    ) -> Eval<Vec<f64>> {
+    fn evaluate(&self, x: &[f64], weather: &Weather) -> Eval<Vec<f64>> {
         let refused = |lp| Eval {
             log_likelihood: f64::NEG_INFINITY,
             log_prior: lp,
@@ -287,12 +337,7 @@ impl FitPlan {
         if site.set_params(&point.site).is_err() {
             return refused(log_prior);
         }
-        let Ok(sim) = simulate(
-            &site,
-            steps.iter().cloned().map(Ok),
-            step_minutes,
-            &mut NoSink,
-        ) else {
+        let Ok(sim) = weather.simulate(&site) else {
             return refused(log_prior);
         };
         let mut payload = Vec::new();
@@ -311,14 +356,9 @@ impl FitPlan {
 
     fn run_into(&self, dir: &Path, started: Instant) -> Result<(String, Vec<String>)> {
         let (steps, report) = read_steps(&self.site, self.period)?;
-        let step_minutes = report.step_minutes;
+        let weather = Weather::new(&self.site, &self.sampled, &self.spec, steps, &report);
         // A reference run of the site as given pairs the observations with the model's periods.
-        let reference = simulate(
-            &self.site,
-            steps.iter().cloned().map(Ok),
-            step_minutes,
-            &mut NoSink,
-        )?;
+        let reference = weather.simulate(&self.site)?;
         let mut streams = self.streams.clone();
         for s in &mut streams {
             s.pair(&reference.periods[0], &reference.periods[1])?;
@@ -351,13 +391,14 @@ impl FitPlan {
                         .map(|p| p.dist.quantile(open_unit(rng)))
                         .collect()
                 },
-                |x: &[f64]| plan.evaluate(x, &steps, step_minutes),
+                |x: &[f64]| plan.evaluate(x, &weather),
                 &progress,
             )
         });
         progress.finish_and_clear();
         let chain = chain?;
-        drop(steps);
+        let light_shared = weather.shares_light();
+        drop(weather);
         let names: Vec<&str> = plan.sampled.iter().map(|p| p.path.as_str()).collect();
         write_posterior(&dir.join("posterior.csv"), &names, &chain)?;
         let diag = write_summary(&dir.join("summary.csv"), &names, &chain)?;
@@ -400,7 +441,7 @@ impl FitPlan {
                 "fnv1a64": std::fs::read(&s.file).map(|b| fnv1a64(&b)).unwrap_or_default(),
                 "variable": s.variable, "column": s.column,
                 "sd": s.sd_column.clone().map_or_else(|| serde_json::json!(s.obs[0].sd), serde_json::Value::from),
-                "paired_with": if s.monthly { "monthly" } else { "daily" },
+                "paired_with": s.pairing.name(),
                 "observations": s.obs.len(), "outside_period": s.outside,
                 "model_error": s.error_param.map(|j| plan.sampled[j].path.clone()),
                 "predictive": file,
@@ -413,7 +454,8 @@ impl FitPlan {
                 "target_ess": self.settings.target_ess, "max_evaluations": self.settings.max_evaluations,
                 "stopped_by": match chain.stop { Stop::TargetEss => "target ESS reached", Stop::MaxEvaluations => "evaluation budget" },
                 "acceptance_rate": chain.acceptance_rate(), "seed": self.settings.seed,
-                "threads": pool.current_num_threads()},
+                "threads": pool.current_num_threads(),
+                "light_shared": light_shared},
             "diagnostics": "split R-hat (the larger of bulk and folded) and bulk ESS on rank-normalised draws, walkers as chains (Vehtari et al. 2021)",
             "quantiles": "R type 8 (Hyndman & Fan 1996), statrs Data::quantile; sd with n - 1",
             "map": {"params": names.iter().zip(&chain.best.0).map(|(n, v)| ((*n).to_string(), serde_json::json!(v)))
@@ -467,13 +509,21 @@ impl FitPlan {
             writeln!(
                 w,
                 "{},observed,sd,model_p05,model_p50,model_p95,draws",
-                if s.monthly { "month" } else { "date" }
+                match s.pairing {
+                    Pairing::Daily => "date",
+                    Pairing::Monthly => "month",
+                    Pairing::Window => "start,end",
+                }
             )?;
             let mut line = String::new();
             for (i, o) in s.obs.iter().enumerate() {
                 let st = stats(draws.iter().map(|d| d[offset + i]));
                 line.clear();
                 line.push_str(&o.key);
+                if let Some(end) = &o.end {
+                    line.push(',');
+                    line.push_str(end);
+                }
                 for v in [
                     o.value,
                     o.sd,

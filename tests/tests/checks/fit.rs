@@ -341,6 +341,22 @@ fn demo_site(dir: &Path) -> std::path::PathBuf {
     site
 }
 
+/// `isodisc run SITE --out OUT` over the month fitted.
+fn run_month(site: &Path, out: &Path) {
+    run(&[
+        "run",
+        p(site),
+        "--out",
+        p(out),
+        "--from",
+        FROM,
+        "--to",
+        TO,
+        "--quiet",
+    ])
+    .unwrap();
+}
+
 fn read_csv(path: &Path) -> (Vec<String>, Vec<Vec<String>>) {
     let mut r = csv::Reader::from_path(path).unwrap();
     let h = r.headers().unwrap().iter().map(String::from).collect();
@@ -401,18 +417,7 @@ fn planted_leakiness_is_recovered() {
     let planted_site = tmp.path().join("planted.toml");
     fs::write(&planted_site, planted).unwrap();
     let run_dir = tmp.path().join("truth");
-    run(&[
-        "run",
-        p(&planted_site),
-        "--out",
-        p(&run_dir),
-        "--from",
-        FROM,
-        "--to",
-        TO,
-        "--quiet",
-    ])
-    .unwrap();
+    run_month(&planted_site, &run_dir);
     let (h, rows) = read_csv(&run_dir.join("daily.csv"));
     let (c_period, c_d) = (
         h.iter().position(|x| x == "period").unwrap(),
@@ -580,18 +585,24 @@ fn bad_fit_input_is_located() {
     assert!(!out.exists());
 }
 
+/// A short fit of the leakiness (one observation of Δ) in `out`; returns the site and spec files.
+fn small_fit(dir: &Path, out: &Path) -> (std::path::PathBuf, std::path::PathBuf) {
+    let site = demo_site(dir);
+    let spec = dir.join("spec.toml");
+    fs::write(&spec, LEAKINESS_PRIOR).unwrap();
+    let obs = dir.join("obs.csv");
+    fs::write(&obs, "date,discrimination,sd\n2025-01-05,9.1,0.5\n").unwrap();
+    run(&fit_args(p(&site), p(&spec), p(&obs), p(out), "2")).unwrap();
+    (site, spec)
+}
+
 #[test]
 fn posterior_ensemble_members_are_posterior_draws() {
     // `ensemble --posterior` (docs/fit.md): every member's parameters are one row of posterior.csv;
     // a folder without a posterior is refused with its path (common practice).
     let tmp = tempfile::tempdir().unwrap();
-    let site = demo_site(tmp.path());
-    let spec = tmp.path().join("spec.toml");
-    fs::write(&spec, LEAKINESS_PRIOR).unwrap();
-    let obs = tmp.path().join("obs.csv");
-    fs::write(&obs, "date,discrimination,sd\n2025-01-05,9.1,0.5\n").unwrap();
     let fit = tmp.path().join("fit");
-    run(&fit_args(p(&site), p(&spec), p(&obs), p(&fit), "2")).unwrap();
+    let (site, _) = small_fit(tmp.path(), &fit);
     let ens = tmp.path().join("ens");
     run(&[
         "ensemble",
@@ -645,4 +656,332 @@ fn posterior_ensemble_members_are_posterior_draws() {
     ])
     .unwrap_err();
     assert!(e.contains("posterior.csv"), "{e}");
+}
+
+// ---- bulk-leaf δ13C over a window -----------------------------------------------------------
+
+use isodisc_runner::fit::streams::{BULK_LEAF, window_assimilate_d13c};
+use isodisc_runner::simulate::{PERIOD_COLUMNS, PeriodRow, period_col};
+
+/// A daily row with only `gpp` (gC m⁻²) and `d13c_assimilate` (‰) set.
+fn day_row(key: &str, gpp: f64, d13c: f64) -> PeriodRow {
+    let mut values = vec![f64::NAN; PERIOD_COLUMNS.len() - 1];
+    values[period_col("gpp")] = gpp;
+    values[period_col("d13c_assimilate")] = d13c;
+    PeriodRow {
+        key: key.to_string(),
+        values,
+    }
+}
+
+#[test]
+fn bulk_leaf_window_is_gpp_weighted_assimilate_by_hand() {
+    // Common practice: bulk leaf δ13C is compared with the GPP-weighted δ13C of the assimilate
+    // of the days the leaves were built from. By hand over 1–4 January (the day without GPP has
+    // no δ and no weight): (1·(−26) + 3·(−28) + 2·(−27)) / (1 + 3 + 2) = −164/6.
+    let days = [
+        day_row("2025-01-01", 1.0, -26.0),
+        day_row("2025-01-02", 0.0, f64::NAN),
+        day_row("2025-01-03", 3.0, -28.0),
+        day_row("2025-01-04", 2.0, -27.0),
+        day_row("2025-01-05", 4.0, -30.0),
+    ];
+    let hand = -164.0 / 6.0;
+    assert!((window_assimilate_d13c(&days[..4]) - hand).abs() < 1e-12);
+    let tmp = tempfile::tempdir().unwrap();
+    let f = tmp.path().join("leaf.csv");
+    fs::write(
+        &f,
+        "start,end,d13c_bulk_leaf,sd\n2025-01-01,2025-01-04,-27.0,0.5\n\
+         2025-01-05,2025-01-05,-29.0,0.5\n2024-11-01,2024-12-15,-27.5,0.5\n",
+    )
+    .unwrap();
+    let mut s = Stream::read(&f, BULK_LEAF, None, 1).unwrap();
+    s.pair(&days, &[]).unwrap();
+    assert_eq!(s.outside, 1, "the window wholly before the run is left out");
+    let mut m = Vec::new();
+    s.predictions(&days, &[], &mut m);
+    assert!((m[0] - hand).abs() < 1e-12 && m[1] == -30.0, "{m:?}");
+    // A window without GPP has no prediction: an error naming its line.
+    fs::write(
+        &f,
+        "start,end,d13c_bulk_leaf,sd\n2025-01-02,2025-01-02,-27,0.5\n",
+    )
+    .unwrap();
+    let e = Stream::read(&f, BULK_LEAF, None, 1)
+        .unwrap()
+        .pair(&days, &[])
+        .unwrap_err()
+        .chain();
+    assert!(e.contains("line 2") && e.contains("no GPP"), "{e}");
+}
+
+#[test]
+fn bulk_leaf_prediction_equals_the_daily_output_by_hand() {
+    // End to end: with only a model-error SD sampled, every evaluation runs the site as given,
+    // so the predictive median is the prediction itself; it must equal Σ gpp·d13c_assimilate /
+    // Σ gpp over the window's rows of `isodisc run`'s daily.csv (by hand; daily.csv is rounded to
+    // 6 decimals, hence the tolerance).
+    let tmp = tempfile::tempdir().unwrap();
+    let site = demo_site(tmp.path());
+    let run_dir = tmp.path().join("run");
+    run_month(&site, &run_dir);
+    let (h, rows) = read_csv(&run_dir.join("daily.csv"));
+    let col = |n: &str| h.iter().position(|x| x == n).unwrap();
+    let (c_day, c_g, c_d) = (col("period"), col("gpp"), col("d13c_assimilate"));
+    let (mut sum_g, mut sum_gd) = (0.0, 0.0);
+    for r in rows
+        .iter()
+        .filter(|r| ("2025-01-10"..="2025-01-25").contains(&r[c_day].as_str()))
+    {
+        let (g, d): (f64, f64) = (r[c_g].parse().unwrap(), r[c_d].parse().unwrap());
+        sum_g += g;
+        sum_gd += g * d;
+    }
+    let hand = sum_gd / sum_g;
+    let spec = tmp.path().join("spec.toml");
+    fs::write(
+        &spec,
+        "[param.\"error.d13c_bulk_leaf\"]\ndistribution = \"uniform\"\nmin = 0\nmax = 1\n",
+    )
+    .unwrap();
+    let obs = tmp.path().join("leaf.csv");
+    fs::write(
+        &obs,
+        "start,end,d13c_bulk_leaf,d13c_bulk_leaf_sd\n2025-01-10,2025-01-25,-19.0,0.5\n",
+    )
+    .unwrap();
+    let out = tmp.path().join("fit");
+    let mut a = fit_args(p(&site), p(&spec), p(&obs), p(&out), "5");
+    a[7] = BULK_LEAF;
+    a[17] = "2";
+    a[19] = "120";
+    run(&a).unwrap();
+    let (h, pred) = read_csv(&out.join("predictive_d13c_bulk_leaf.csv"));
+    assert_eq!(h[..4], ["start", "end", "observed", "sd"]);
+    assert_eq!(pred[0][..4], ["2025-01-10", "2025-01-25", "-19", "0.5"]);
+    for c in 4..7 {
+        let m: f64 = pred[0][c].parse().unwrap();
+        assert!((m - hand).abs() < 2e-6, "{} {m} vs {hand}", h[c]);
+    }
+}
+
+#[test]
+fn bad_bulk_leaf_input_is_located() {
+    // Common practice: errors name the file, line, column and value.
+    let tmp = tempfile::tempdir().unwrap();
+    let site = demo_site(tmp.path());
+    let spec = tmp.path().join("spec.toml");
+    fs::write(&spec, LEAKINESS_PRIOR).unwrap();
+    let out = tmp.path().join("out");
+    let go = |body: &str| {
+        let obs = tmp.path().join("leaf.csv");
+        fs::write(&obs, format!("start,end,d13c_bulk_leaf,sd\n{body}")).unwrap();
+        let mut a = fit_args(p(&site), p(&spec), p(&obs), p(&out), "1");
+        a[7] = BULK_LEAF;
+        run(&a).unwrap_err()
+    };
+    // A window reaching past the period run (January).
+    let e = go("2025-01-05,2025-01-20,-19,0.4\n2025-01-20,2025-02-10,-19,0.4\n");
+    assert!(
+        e.contains("leaf.csv: line 3") && e.contains("2025-01-20 to 2025-02-10"),
+        "{e}"
+    );
+    assert!(
+        e.contains("reaches outside the days run (2025-01-01 to 2025-01-31)"),
+        "{e}"
+    );
+    // Every window outside the run.
+    let e = go("2025-06-01,2025-06-30,-19,0.4\n");
+    assert!(e.contains("falls within the period run"), "{e}");
+    // The end before the start.
+    let e = go("2025-01-05,2025-01-20,-19,0.4\n2025-01-20,2025-01-10,-19,0.4\n");
+    assert!(
+        e.contains("leaf.csv: line 3, column 2 (end): `2025-01-10` is before the window's start"),
+        "{e}"
+    );
+    // An SD <= 0.
+    let e = go("2025-01-05,2025-01-20,-19,-0.4\n");
+    assert!(e.contains("leaf.csv: line 2, column 4 (sd)"), "{e}");
+    // A start that is not a date.
+    let e = go("2025-01-5,2025-01-20,-19,0.4\n");
+    assert!(e.contains("line 2, column 1 (start)"), "{e}");
+    assert!(!out.exists());
+}
+
+// ---- `batch --posterior` --------------------------------------------------------------------
+
+#[test]
+fn batch_site_posterior_equals_its_ensemble() {
+    // `batch --posterior FITS` (docs/ensembles.md) draws a site's members as `ensemble SITE
+    // --posterior FITS/<id>` does with the same seed: the site's files are byte for byte the
+    // ensemble's (common practice: one computation, two entry points). A site without a fit
+    // takes --spec, and without --spec is an error naming the file looked for.
+    let tmp = tempfile::tempdir().unwrap();
+    let fits = tmp.path().join("fits");
+    fs::create_dir(&fits).unwrap();
+    let (site, spec) = small_fit(tmp.path(), &fits.join("miombo"));
+    let manifest = tmp.path().join("manifest.toml");
+    fs::write(
+        &manifest,
+        "template = \"site.toml\"\n[[site]]\nid = \"miombo\"\n\
+         [[site]]\nid = \"grassy\"\nc4_cover = 0.5\n",
+    )
+    .unwrap();
+    let period = ["--from", FROM, "--to", TO, "--quiet"];
+    let batch = tmp.path().join("batch");
+    let mut a = vec![
+        "batch",
+        p(&manifest),
+        "--out",
+        p(&batch),
+        "--posterior",
+        p(&fits),
+        "--spec",
+        p(&spec),
+        "--members",
+        "6",
+        "--seed",
+        "3",
+    ];
+    a.extend(period);
+    run(&a).unwrap();
+    let ens = tmp.path().join("ens");
+    let miombo_fit = fits.join("miombo");
+    let mut e = vec![
+        "ensemble",
+        p(&site),
+        "--posterior",
+        p(&miombo_fit),
+        "--members",
+        "6",
+        "--seed",
+        "3",
+        "--out",
+        p(&ens),
+    ];
+    e.extend(period);
+    run(&e).unwrap();
+    for f in [
+        "members.csv",
+        "quantiles_monthly.csv",
+        "quantiles_annual.csv",
+        "sensitivity.csv",
+    ] {
+        assert_eq!(
+            fs::read(batch.join("sites/miombo").join(f)).unwrap(),
+            fs::read(ens.join(f)).unwrap(),
+            "{f}"
+        );
+    }
+    // The site without a fit drew from the spec (leakiness within its uniform prior).
+    let (h, rows) = read_csv(&batch.join("sites/grassy/members.csv"));
+    let c = h
+        .iter()
+        .position(|x| x == "vegetation.c4.leakiness")
+        .unwrap();
+    assert_eq!(rows.len(), 6);
+    assert!(
+        rows.iter()
+            .all(|r| (0.15..=0.45).contains(&r[c].parse::<f64>().unwrap()))
+    );
+    // Without --spec the site without a fit is refused, naming the file looked for.
+    let b2 = tmp.path().join("b2");
+    let mut a = vec![
+        "batch",
+        p(&manifest),
+        "--out",
+        p(&b2),
+        "--posterior",
+        p(&fits),
+        "--members",
+        "6",
+        "--seed",
+        "3",
+    ];
+    a.extend(period);
+    let err = run(&a).unwrap_err();
+    assert!(
+        err.contains("site `grassy`") && err.contains("grassy/posterior.csv"),
+        "{err}"
+    );
+    // A --posterior folder that does not exist, and --members without --spec or --posterior.
+    a[5] = "/nonexistent/fits";
+    let err = run(&a).unwrap_err();
+    assert!(
+        err.contains("--posterior /nonexistent/fits: not a folder"),
+        "{err}"
+    );
+    let err = run(&[
+        "batch",
+        p(&manifest),
+        "--out",
+        p(&tmp.path().join("b3")),
+        "--members",
+        "6",
+        "--seed",
+        "3",
+    ])
+    .unwrap_err();
+    assert!(err.contains("--spec or --posterior"), "{err}");
+}
+
+// ---- per-site work shared across evaluations -------------------------------------------------
+
+#[test]
+fn shared_light_leaves_every_number_unchanged() {
+    // `isodisc fit` computes each step's light once, at the site as given, and every evaluation
+    // reuses it (docs/fit.md). A draw that changes the canopy (LAI, g1, cover) must give the very
+    // numbers of a run that computes its own light (common practice: a cache never changes a
+    // result), to the bit.
+    use isodisc_runner::forcing::ForcingReader;
+    use isodisc_runner::simulate::{NoSink, simulate, simulate_lit, step_lights};
+    use isodisc_runner::site::Site;
+    let site = Site::load(&demo_path("site.toml")).unwrap();
+    let mut reader = ForcingReader::open(
+        &site.file.forcing,
+        &site.dir(),
+        site.file.site.elevation_m,
+        None,
+        None,
+    )
+    .unwrap();
+    let steps: Vec<_> = reader
+        .by_ref()
+        .take(62 * 24)
+        .collect::<Result<_, _>>()
+        .unwrap();
+    let minutes = reader.report().step_minutes;
+    let lights = step_lights(&site, &steps, minutes);
+    assert_eq!(lights.len(), steps.len());
+    for draw in [
+        vec![("vegetation.c3.lai", 3.5), ("vegetation.c3.g1", 5.0)],
+        vec![
+            ("vegetation.c4.leakiness", 0.2),
+            ("vegetation.c4.cover", 0.4),
+        ],
+    ] {
+        let mut s = site.clone();
+        s.set_params(&draw).unwrap();
+        // The first draw's canopy has other light (its LAI): the shared light must be refused
+        // and recomputed; the second's is the site's own.
+        let differs = step_lights(&s, &steps, minutes) != lights;
+        assert_eq!(differs, draw[0].0 == "vegetation.c3.lai", "{draw:?}");
+        let own = simulate(&s, steps.iter().cloned().map(Ok), minutes, &mut NoSink).unwrap();
+        let shared = simulate_lit(
+            &s,
+            steps.iter().cloned().map(Ok),
+            minutes,
+            &mut NoSink,
+            &lights,
+        )
+        .unwrap();
+        for (a, b) in own.periods.iter().zip(&shared.periods) {
+            assert_eq!(a.len(), b.len());
+            for (ra, rb) in a.iter().zip(b) {
+                let bits = |r: &PeriodRow| r.values.iter().map(|v| v.to_bits()).collect::<Vec<_>>();
+                assert_eq!((&ra.key, bits(ra)), (&rb.key, bits(rb)), "{draw:?}");
+            }
+        }
+    }
 }
