@@ -357,6 +357,7 @@ fn axis_title(column: &str, per: &str) -> String {
         "reco" => format!("Ecosystem respiration (g C m⁻² {per}⁻¹)"),
         "d13c_respiration" => "δ¹³C of respiration (‰ VPDB)".to_string(),
         "d13c_assimilate" => "δ¹³C of the assimilate (‰ VPDB)".to_string(),
+        "d13c_bulk_leaf" => "δ¹³C of bulk leaf (‰ VPDB)".to_string(),
         "disequilibrium" => "Disequilibrium δR − δA (‰)".to_string(),
         "beta" => "Soil-water factor β (–)".to_string(),
         other => other.replace('_', " "),
@@ -1467,6 +1468,21 @@ fn fit_pages(dir: &Path) -> Result<Vec<(String, Page)>> {
                 (0..labels.len()).map(|i| i as f64).collect::<Vec<_>>(),
                 XAxis::Categories(labels),
             )
+        } else if t.has("start") && t.has("end") {
+            // A window's sample (bulk leaf) is drawn at the middle of its window.
+            let day = |c: &str| -> Result<Vec<f64>> {
+                Ok(t.times(t.column(c)?)?
+                    .iter()
+                    .map(|d| d.date().days() as f64)
+                    .collect())
+            };
+            let (starts, ends) = (day("start")?, day("end")?);
+            let mid = starts
+                .iter()
+                .zip(&ends)
+                .map(|(a, b)| 0.5 * (a + b))
+                .collect();
+            (mid, XAxis::Days)
         } else {
             let days: Vec<f64> = t
                 .time_column()?
