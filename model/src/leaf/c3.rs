@@ -177,40 +177,48 @@ impl C3Kinetics {
         }
     }
 
-    /// Net assimilation (µmol m⁻² s⁻¹) if rate `r` limits, at intercellular CO2 `ci`.
-    fn net_rate(&self, r: &Rate, ci: f64) -> f64 {
+    /// Net assimilation (µmol m⁻² s⁻¹) if rate `r` limits, at intercellular CO2 `ci`, and its
+    /// derivative dA/dci (µmol m⁻² s⁻¹ per µmol mol⁻¹).
+    fn net_rate(&self, r: &Rate, ci: f64) -> (f64, f64) {
         if r.constant {
-            r.v - self.rd
+            (r.v - self.rd, 0.0)
         } else if self.gm.is_infinite() {
-            r.v * (ci - self.gamma_star) / (ci + r.k) - self.rd
+            let d = ci + r.k;
+            (
+                r.v * (ci - self.gamma_star) / d - self.rd,
+                r.v * (r.k + self.gamma_star) / (d * d),
+            )
         } else {
             // (A + Rd)(cc + k) = v(cc − Γ*) with cc = ci − A/gm: a quadratic in A,
-            // A² − A(gm(ci + k) − Rd + v) + gm(v(ci − Γ*) − Rd(ci + k)) = 0, smaller root.
+            // A² − A·B + C = 0 with B = gm(ci + k) − Rd + v and C = gm(v(ci − Γ*) − Rd(ci + k)),
+            // smaller root. Differentiating it in ci: dA/dci = gm(A − v + Rd)/(2A − B).
             let gm = self.gm;
-            smaller_root(
+            let b = gm * (ci + r.k) - self.rd + r.v;
+            let a = smaller_root(
                 1.0,
-                -(gm * (ci + r.k) - self.rd + r.v),
+                -b,
                 gm * (r.v * (ci - self.gamma_star) - self.rd * (ci + r.k)),
-            )
+            );
+            (a, gm * (a - r.v + self.rd) / (2.0 * a - b))
         }
     }
 
-    /// Net assimilation (µmol m⁻² s⁻¹), cc (µmol mol⁻¹) and the limiting rate at intercellular CO2
-    /// `ci` (µmol mol⁻¹).
-    pub fn demand(&self, ci: f64) -> (f64, f64, Limitation) {
+    /// Net assimilation (µmol m⁻² s⁻¹), its derivative dA/dci (µmol m⁻² s⁻¹ per µmol mol⁻¹),
+    /// cc (µmol mol⁻¹) and the limiting rate at intercellular CO2 `ci` (µmol mol⁻¹).
+    pub fn demand(&self, ci: f64) -> (f64, f64, f64, Limitation) {
         // Every rate's net curve passes through (cc = Γ*, A = −Rd), so all rates agree on the side
         // of Γ* on which cc lies; the Rubisco rate tells which.
-        let a_rubisco = self.net_rate(&self.rates[0], ci);
+        let (a_rubisco, slope) = self.net_rate(&self.rates[0], ci);
         let below = a_rubisco + self.rd < 0.0;
-        let mut best = (a_rubisco, self.rates[0].limitation);
+        let mut best = (a_rubisco, slope, self.rates[0].limitation);
         for r in &self.rates[1..self.n_rates] {
             if below && r.constant {
                 continue; // TPU caps gross assimilation, of which there is none below Γ*.
             }
-            let a = self.net_rate(r, ci);
+            let (a, slope) = self.net_rate(r, ci);
             // Below Γ*, (1 − Γ*/cc) < 0: the smaller carboxylation rate gives the larger A.
             if (below && a > best.0) || (!below && a < best.0) {
-                best = (a, r.limitation);
+                best = (a, slope, r.limitation);
             }
         }
         let cc = if self.gm.is_infinite() {
@@ -218,7 +226,7 @@ impl C3Kinetics {
         } else {
             ci - best.0 / self.gm
         };
-        (best.0, cc, best.1)
+        (best.0, best.1, cc, best.2)
     }
 }
 

@@ -80,10 +80,18 @@ impl C4Kinetics {
         }
     }
 
-    /// Net assimilation (µmol m⁻² s⁻¹) and the limiting rate at intercellular CO2 `ci` (µmol mol⁻¹).
-    pub fn demand(&self, ci: f64) -> (f64, Limitation) {
+    /// Net assimilation (µmol m⁻² s⁻¹), its derivative dA/dci (µmol m⁻² s⁻¹ per µmol mol⁻¹)
+    /// and the limiting rate at intercellular CO2 `ci` (µmol mol⁻¹).
+    pub fn demand(&self, ci: f64) -> (f64, f64, Limitation) {
         let kc = self.k * ci.max(0.0);
-        let gross = smaller_root(self.beta_c, -(self.m + kc), self.m * kc);
+        let b = self.m + kc;
+        let gross = smaller_root(self.beta_c, -b, self.m * kc);
+        // Differentiating βA² − A(M + kc) + M·kc = 0 in kc: dA/dkc = (A − M)/(2βA − (M + kc)).
+        let slope = if ci > 0.0 {
+            self.k * (gross - self.m) / (2.0 * self.beta_c * gross - b)
+        } else {
+            0.0
+        };
         let lim = if self.light <= 0.0 {
             Limitation::Dark
         } else if kc <= self.light.min(self.vmax) {
@@ -93,6 +101,6 @@ impl C4Kinetics {
         } else {
             Limitation::Rubisco
         };
-        (gross - self.rd, lim)
+        (gross - self.rd, slope, lim)
     }
 }

@@ -25,6 +25,7 @@ use crate::discrimination::{
 use crate::error::{Result, check_input};
 use crate::isotopes::product_delta_permil;
 pub use params::{C3Params, C4Params, Kinetics25, ParamSpec, PeakedResponse};
+pub use solve::{CI_TOL_UMOL_MOL, RootSearch};
 use stomata::Medlyn;
 
 /// Photosynthetic pathway.
@@ -290,8 +291,24 @@ fn g1_and_capacity(g1: f64, beta: f64, target: BetaTarget) -> (f64, f64) {
 /// Solves a C3 leaf: FvCB photosynthesis, Medlyn stomata, optional boundary-layer and mesophyll
 /// conductances, and the discrimination form chosen in `options`.
 pub fn solve_c3(p: &C3Params, options: &LeafOptions, c: &LeafConditions) -> Result<LeafState> {
+    solve_c3_with(p, options, c, RootSearch::Newton)
+}
+
+/// [`solve_c3`] with the root search `search` (the reference [`RootSearch::Brent`] for checks).
+pub fn solve_c3_with(
+    p: &C3Params,
+    options: &LeafOptions,
+    c: &LeafConditions,
+    search: RootSearch,
+) -> Result<LeafState> {
     c.validate()?;
-    solve_c3_at(p, options, c, &c3::C3Temperature::new(p, options, c))
+    solve_c3_at(
+        p,
+        options,
+        c,
+        &c3::C3Temperature::new(p, options, c),
+        search,
+    )
 }
 
 /// [`solve_c3`] with conditions already validated and their temperature terms `tt`.
@@ -300,11 +317,12 @@ fn solve_c3_at(
     options: &LeafOptions,
     c: &LeafConditions,
     tt: &c3::C3Temperature,
+    search: RootSearch,
 ) -> Result<LeafState> {
     let (g1, capacity) = g1_and_capacity(p.g1(), c.soil_beta, options.beta_target);
     let kin = c3::C3Kinetics::new(p, options, c, capacity, tt);
     let stomata = Medlyn::new(p.g0(), g1, c.vpd_kpa);
-    let s = solve::solve(|ci| kin.demand(ci), &stomata, c.ca_umol_mol, p.gb())?;
+    let s = solve::solve(|ci| kin.demand(ci), &stomata, c.ca_umol_mol, p.gb(), search)?;
     let ca = c.ca_umol_mol;
     let discrimination = if s.a_net <= 0.0 {
         f64::NAN
@@ -345,8 +363,24 @@ fn solve_c3_at(
 /// Solves a C4 leaf: Collatz photosynthesis, Medlyn stomata, optional boundary layer, and the
 /// Farquhar (1983) discrimination with leakiness.
 pub fn solve_c4(p: &C4Params, options: &LeafOptions, c: &LeafConditions) -> Result<LeafState> {
+    solve_c4_with(p, options, c, RootSearch::Newton)
+}
+
+/// [`solve_c4`] with the root search `search` (the reference [`RootSearch::Brent`] for checks).
+pub fn solve_c4_with(
+    p: &C4Params,
+    options: &LeafOptions,
+    c: &LeafConditions,
+    search: RootSearch,
+) -> Result<LeafState> {
     c.validate()?;
-    solve_c4_at(p, options, c, &c4::C4Temperature::new(p, c.t_leaf_c))
+    solve_c4_at(
+        p,
+        options,
+        c,
+        &c4::C4Temperature::new(p, c.t_leaf_c),
+        search,
+    )
 }
 
 /// [`solve_c4`] with conditions already validated and their temperature terms `tt`.
@@ -355,18 +389,20 @@ fn solve_c4_at(
     options: &LeafOptions,
     c: &LeafConditions,
     tt: &c4::C4Temperature,
+    search: RootSearch,
 ) -> Result<LeafState> {
     let (g1, capacity) = g1_and_capacity(p.g1(), c.soil_beta, options.beta_target);
     let kin = c4::C4Kinetics::new(p, c.ppfd_umol_m2_s, capacity, tt);
     let stomata = Medlyn::new(p.g0(), g1, c.vpd_kpa);
     let s = solve::solve(
         |ci| {
-            let (a, lim) = kin.demand(ci);
-            (a, ci, lim)
+            let (a, da, lim) = kin.demand(ci);
+            (a, da, ci, lim)
         },
         &stomata,
         c.ca_umol_mol,
         p.gb(),
+        search,
     )?;
     let ca = c.ca_umol_mol;
     let discrimination = if s.a_net <= 0.0 {
@@ -503,8 +539,12 @@ impl LeafModel {
         tt: &LeafTemperature,
     ) -> Result<LeafState> {
         match (self, tt) {
-            (LeafModel::C3(p), LeafTemperature::C3(t)) => solve_c3_at(p, options, c, t),
-            (LeafModel::C4(p), LeafTemperature::C4(t)) => solve_c4_at(p, options, c, t),
+            (LeafModel::C3(p), LeafTemperature::C3(t)) => {
+                solve_c3_at(p, options, c, t, RootSearch::Newton)
+            }
+            (LeafModel::C4(p), LeafTemperature::C4(t)) => {
+                solve_c4_at(p, options, c, t, RootSearch::Newton)
+            }
             _ => self.solve(options, c),
         }
     }
@@ -536,7 +576,7 @@ impl LeafModel {
             (LeafModel::C3(p), LeafTemperature::C3(t)) if p.g0() <= 0.0 => {
                 let (_, capacity) = g1_and_capacity(p.g1(), c.soil_beta, options.beta_target);
                 let kin = c3::C3Kinetics::new(p, options, c, capacity, t);
-                let (a, _, _) = kin.demand(c.ca_umol_mol);
+                let (a, _, _, _) = kin.demand(c.ca_umol_mol);
                 (a <= 0.0).then_some((a, kin.rd, 0.0))
             }
             _ => None,
