@@ -13,7 +13,9 @@
 
 use crate::canopy::radiation::{TwoLeafCanopy, TwoLeafLight};
 use crate::error::{Result, check_input, check_range};
-use crate::leaf::{LeafConditions, LeafModel, LeafOptions, LeafState, LeafTemperature};
+use crate::leaf::{
+    LeafConditions, LeafModel, LeafOptions, LeafState, LeafTemperature, SharedTemperature,
+};
 
 /// Settings of the canopy of one pathway.
 #[derive(Debug, Clone, PartialEq)]
@@ -176,6 +178,21 @@ pub fn canopy_step_lit(
     d: &CanopyDrivers,
     light: Option<&CanopyLight>,
 ) -> Result<CanopyFlux> {
+    canopy_step_shared(leaf, options, settings, d, light, None)
+}
+
+/// [`canopy_step_lit`] with the leaf's temperature terms computed beforehand
+/// ([`LeafModel::shared_temperature`], e.g. once for many runs of a site): `temperature` is used
+/// when it was computed from the same inputs as this leaf's at these drivers, bit for bit, and the
+/// terms are computed afresh otherwise, so the result is the same either way.
+pub fn canopy_step_shared(
+    leaf: &LeafModel,
+    options: &LeafOptions,
+    settings: &CanopySettings,
+    d: &CanopyDrivers,
+    light: Option<&CanopyLight>,
+    temperature: Option<&SharedTemperature>,
+) -> Result<CanopyFlux> {
     if d.lai_m2_m2 <= 0.0 {
         return Ok(CanopyFlux::empty());
     }
@@ -220,7 +237,12 @@ pub fn canopy_step_lit(
         };
         if terms.is_none() {
             c.validate()?;
-            terms = Some(leaf.temperature_terms(options, &c));
+            let inputs = leaf.temperature_inputs(options, &c);
+            terms = Some(
+                temperature
+                    .and_then(|t| t.terms_for(&inputs))
+                    .unwrap_or_else(|| inputs.terms()),
+            );
         } else {
             let (name, _, lo, hi) = LeafConditions::RANGES[1];
             check_input(name, c.ppfd_umol_m2_s, lo, hi)?;
@@ -299,7 +321,7 @@ mod tests {
                     };
                     for scale in [1.0, 0.37] {
                         let scaled = leaf.with_capacity_scaled(scale);
-                        let tt = leaf.temperature_terms(&options, &c);
+                        let tt = leaf.temperature_inputs(&options, &c).terms();
                         let s = scaled.solve(&options, &c).unwrap();
                         if let Some((a, rd, gs)) = scaled.dark(&options, &c, &tt) {
                             closed += 1;

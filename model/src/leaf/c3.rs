@@ -86,20 +86,101 @@ pub(crate) struct C3Temperature {
     gm: f64,
 }
 
+/// What [`C3Temperature`] is computed from: leaf temperature (°C), pressure (kPa), O2
+/// (mmol mol⁻¹) and the constants of the leaf's temperature responses, resolved for its options
+/// and growth temperature. Two leaves with the same inputs, bit for bit, have the same terms.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct C3TemperatureInputs {
+    t_leaf_c: f64,
+    pressure_kpa: f64,
+    o2_mmol_mol: f64,
+    k25: super::Kinetics25,
+    ea_rd: f64,
+    vcmax: super::PeakedResponse,
+    jmax: super::PeakedResponse,
+    gm: f64,
+    gm_response: super::PeakedResponse,
+}
+
+impl C3TemperatureInputs {
+    fn values(&self) -> [f64; 20] {
+        let (k, v, j, g) = (&self.k25, &self.vcmax, &self.jmax, &self.gm_response);
+        [
+            self.t_leaf_c,
+            self.pressure_kpa,
+            self.o2_mmol_mol,
+            k.kc25,
+            k.ko25,
+            k.gamma_star25,
+            k.ea_kc,
+            k.ea_ko,
+            k.ea_gamma_star,
+            self.ea_rd,
+            v.ha_j_mol,
+            v.hd_j_mol,
+            v.ds_j_mol_k,
+            j.ha_j_mol,
+            j.hd_j_mol,
+            j.ds_j_mol_k,
+            self.gm,
+            g.ha_j_mol,
+            g.hd_j_mol,
+            g.ds_j_mol_k,
+        ]
+    }
+
+    /// Whether `other` holds the same inputs, bit for bit.
+    pub fn same_as(&self, other: &Self) -> bool {
+        self.values()
+            .iter()
+            .zip(other.values())
+            .all(|(a, b)| a.to_bits() == b.to_bits())
+    }
+}
+
 impl C3Temperature {
-    pub fn new(p: &C3Params, options: &LeafOptions, c: &LeafConditions) -> Self {
-        let t = c.t_leaf_c;
-        let k25 = p.kinetics_25();
+    /// The inputs of the temperature terms of `p` under `options` at the conditions `c`.
+    pub fn inputs(p: &C3Params, options: &LeafOptions, c: &LeafConditions) -> C3TemperatureInputs {
         let set = options.temperature_set;
-        Self {
-            kc: michaelis_at(k25.kc25, k25.ea_kc, t, c.pressure_kpa),
-            ko: michaelis_at(k25.ko25, k25.ea_ko, t, c.pressure_kpa),
-            gamma_star: gamma_star_at(k25.gamma_star25, k25.ea_gamma_star, t, c.o2_mmol_mol),
-            rd_factor: arrhenius_factor(p.ea_rd(), t),
-            vcmax_factor: p.vcmax_response(set, c.t_growth_c).factor(t),
-            jmax_factor: p.jmax_response(set, c.t_growth_c).factor(t),
-            gm: p.gm() * peaked_arrhenius_factor(p.ha_gm(), p.hd_gm(), p.ds_gm(), t),
+        C3TemperatureInputs {
+            t_leaf_c: c.t_leaf_c,
+            pressure_kpa: c.pressure_kpa,
+            o2_mmol_mol: c.o2_mmol_mol,
+            k25: p.kinetics_25(),
+            ea_rd: p.ea_rd(),
+            vcmax: p.vcmax_response(set, c.t_growth_c),
+            jmax: p.jmax_response(set, c.t_growth_c),
+            gm: p.gm(),
+            gm_response: super::PeakedResponse {
+                ha_j_mol: p.ha_gm(),
+                hd_j_mol: p.hd_gm(),
+                ds_j_mol_k: p.ds_gm(),
+            },
         }
+    }
+
+    /// The temperature terms from their inputs.
+    pub fn from_inputs(x: &C3TemperatureInputs) -> Self {
+        let (t, k25) = (x.t_leaf_c, &x.k25);
+        Self {
+            kc: michaelis_at(k25.kc25, k25.ea_kc, t, x.pressure_kpa),
+            ko: michaelis_at(k25.ko25, k25.ea_ko, t, x.pressure_kpa),
+            gamma_star: gamma_star_at(k25.gamma_star25, k25.ea_gamma_star, t, x.o2_mmol_mol),
+            rd_factor: arrhenius_factor(x.ea_rd, t),
+            vcmax_factor: x.vcmax.factor(t),
+            jmax_factor: x.jmax.factor(t),
+            gm: x.gm
+                * peaked_arrhenius_factor(
+                    x.gm_response.ha_j_mol,
+                    x.gm_response.hd_j_mol,
+                    x.gm_response.ds_j_mol_k,
+                    t,
+                ),
+        }
+    }
+
+    pub fn new(p: &C3Params, options: &LeafOptions, c: &LeafConditions) -> Self {
+        Self::from_inputs(&Self::inputs(p, options, c))
     }
 
     /// Day respiration (µmol m⁻² s⁻¹) of `p` in the dark (no light inhibition).

@@ -517,16 +517,28 @@ impl LeafModel {
         }
     }
 
-    /// The terms of this leaf at the temperatures, pressure and O2 of `c` (its light aside), which
-    /// every capacity scaling of the leaf ([`LeafModel::with_capacity_scaled`]) shares.
-    pub(crate) fn temperature_terms(
+    /// What the temperature terms of this leaf at the temperatures, pressure and O2 of `c` (its
+    /// light aside) are computed from; every capacity scaling of the leaf
+    /// ([`LeafModel::with_capacity_scaled`]) and its boundary layer leave them alone.
+    pub(crate) fn temperature_inputs(
         &self,
         options: &LeafOptions,
         c: &LeafConditions,
-    ) -> LeafTemperature {
+    ) -> TemperatureInputs {
         match self {
-            LeafModel::C3(p) => LeafTemperature::C3(c3::C3Temperature::new(p, options, c)),
-            LeafModel::C4(p) => LeafTemperature::C4(c4::C4Temperature::new(p, c.t_leaf_c)),
+            LeafModel::C3(p) => TemperatureInputs::C3(c3::C3Temperature::inputs(p, options, c)),
+            LeafModel::C4(p) => TemperatureInputs::C4(c4::C4Temperature::inputs(p, c.t_leaf_c)),
+        }
+    }
+
+    /// The leaf's temperature terms at the conditions `c` (their light aside) with what they were
+    /// computed from, so that other runs can use them where their own leaf and conditions give the
+    /// same inputs bit for bit (see [`crate::canopy::assimilation::canopy_step_shared`]).
+    pub fn shared_temperature(&self, options: &LeafOptions, c: &LeafConditions) -> SharedTemperature {
+        let inputs = self.temperature_inputs(options, c);
+        SharedTemperature {
+            inputs,
+            terms: inputs.terms(),
         }
     }
 
@@ -584,9 +596,57 @@ impl LeafModel {
     }
 }
 
-/// A leaf's temperature terms (see [`LeafModel::temperature_terms`]).
+/// A leaf's temperature terms (from [`TemperatureInputs::terms`]).
 #[derive(Debug, Clone, Copy)]
 pub(crate) enum LeafTemperature {
     C3(c3::C3Temperature),
     C4(c4::C4Temperature),
+}
+
+/// What a leaf's temperature terms are computed from (see [`LeafModel::temperature_inputs`]).
+#[derive(Debug, Clone, Copy)]
+pub(crate) enum TemperatureInputs {
+    C3(c3::C3TemperatureInputs),
+    C4(c4::C4TemperatureInputs),
+}
+
+impl TemperatureInputs {
+    /// The terms these inputs give.
+    pub fn terms(&self) -> LeafTemperature {
+        match self {
+            TemperatureInputs::C3(x) => LeafTemperature::C3(c3::C3Temperature::from_inputs(x)),
+            TemperatureInputs::C4(x) => LeafTemperature::C4(c4::C4Temperature::from_inputs(x)),
+        }
+    }
+
+    /// Whether `other` holds the same inputs, bit for bit.
+    pub fn same_as(&self, other: &Self) -> bool {
+        match (self, other) {
+            (TemperatureInputs::C3(a), TemperatureInputs::C3(b)) => a.same_as(b),
+            (TemperatureInputs::C4(a), TemperatureInputs::C4(b)) => a.same_as(b),
+            _ => false,
+        }
+    }
+}
+
+/// A leaf's temperature terms (Arrhenius and peaked Arrhenius factors, Kc, Ko, Γ*, gm at leaf
+/// temperature) with the inputs they came from ([`LeafModel::shared_temperature`]).
+#[derive(Debug, Clone, Copy)]
+pub struct SharedTemperature {
+    inputs: TemperatureInputs,
+    terms: LeafTemperature,
+}
+
+/// Equal when computed from the same inputs, bit for bit (the terms follow from them).
+impl PartialEq for SharedTemperature {
+    fn eq(&self, other: &Self) -> bool {
+        self.inputs.same_as(&other.inputs)
+    }
+}
+
+impl SharedTemperature {
+    /// These terms if they were computed from `inputs`, bit for bit.
+    pub(crate) fn terms_for(&self, inputs: &TemperatureInputs) -> Option<LeafTemperature> {
+        self.inputs.same_as(inputs).then_some(self.terms)
+    }
 }
