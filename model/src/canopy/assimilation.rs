@@ -380,4 +380,63 @@ mod tests {
             }
         }
     }
+
+    /// Temperature terms computed for another leaf or other conditions are not used, and those of
+    /// the same leaf are: the result equals `canopy_step`'s either way (common practice).
+    #[test]
+    fn shared_temperature_terms_are_used_only_where_they_fit() {
+        let options = LeafOptions::default();
+        let settings = CanopySettings::new(TwoLeafCanopy::default(), 0.3, 0.85).unwrap();
+        let leaf_at = |t: f64| LeafConditions {
+            t_leaf_c: t,
+            t_growth_c: t - 2.0,
+            ..LeafConditions::default()
+        };
+        let d = CanopyDrivers {
+            leaf: leaf_at(27.0),
+            ppfd_beam_umol_m2_s: 700.0,
+            ppfd_diffuse_umol_m2_s: 300.0,
+            cos_zenith: 0.6,
+            lai_m2_m2: 2.2,
+        };
+        for leaf in leaves() {
+            let expected = canopy_step(&leaf, &options, &settings, &d).unwrap();
+            let other_leaf = match &leaf {
+                LeafModel::C3(p) => {
+                    let mut p = p.clone();
+                    p.set("ea_rd", 50_000.0).unwrap();
+                    LeafModel::C3(p)
+                }
+                LeafModel::C4(p) => {
+                    let mut p = p.clone();
+                    p.set("q10_k", 1.8).unwrap();
+                    LeafModel::C4(p)
+                }
+            };
+            let other_pathway = LeafModel::default_for(match leaf.pathway() {
+                Pathway::C3 => Pathway::C4,
+                Pathway::C4 => Pathway::C3,
+            });
+            let own = leaf.shared_temperature(&options, &d.leaf);
+            let inputs = leaf.temperature_inputs(&options, &d.leaf);
+            assert!(own.terms_for(&inputs).is_some());
+            for (shared, fits) in [
+                (own, true),
+                (leaf.shared_temperature(&options, &leaf_at(27.5)), false),
+                (other_leaf.shared_temperature(&options, &d.leaf), false),
+                (other_pathway.shared_temperature(&options, &d.leaf), false),
+                // A capacity scaling of the leaf shares its terms.
+                (
+                    leaf.with_capacity_scaled(0.4)
+                        .shared_temperature(&options, &d.leaf),
+                    true,
+                ),
+            ] {
+                assert_eq!(shared.terms_for(&inputs).is_some(), fits, "{leaf:?}");
+                let got = canopy_step_shared(&leaf, &options, &settings, &d, None, Some(&shared))
+                    .unwrap();
+                assert_eq!(format!("{got:?}"), format!("{expected:?}"));
+            }
+        }
+    }
 }

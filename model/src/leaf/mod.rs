@@ -534,7 +534,11 @@ impl LeafModel {
     /// The leaf's temperature terms at the conditions `c` (their light aside) with what they were
     /// computed from, so that other runs can use them where their own leaf and conditions give the
     /// same inputs bit for bit (see [`crate::canopy::assimilation::canopy_step_shared`]).
-    pub fn shared_temperature(&self, options: &LeafOptions, c: &LeafConditions) -> SharedTemperature {
+    pub fn shared_temperature(
+        &self,
+        options: &LeafOptions,
+        c: &LeafConditions,
+    ) -> SharedTemperature {
         let inputs = self.temperature_inputs(options, c);
         SharedTemperature {
             inputs,
