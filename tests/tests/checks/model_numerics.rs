@@ -18,6 +18,7 @@ const REFERENCE: RootSearch = RootSearch::Brent {
 /// tighter than the tolerance it promises), and A, gs and cs to 1e-10 relative.
 const CI_AGREEMENT: f64 = 1e-10;
 const RELATIVE_AGREEMENT: f64 = 1e-10;
+const _: () = assert!(CI_AGREEMENT < CI_TOL_UMOL_MOL);
 
 fn conditions(rng: &mut StdRng) -> LeafConditions {
     let t = rng.random_range(-2.0..45.0);
@@ -66,7 +67,6 @@ fn agree(what: &str, newton: &LeafState, reference: &LeafState) {
 /// conditions and parameter sets (boundary layer, g0, infinite gm, TPU, the ATP form).
 #[test]
 fn newton_search_agrees_with_a_tight_brent_search() {
-    assert!(CI_AGREEMENT < CI_TOL_UMOL_MOL);
     let mut rng = StdRng::seed_from_u64(20261202);
     let c3 = |o: &[(&str, f64)]| C3Params::with_overrides(o.to_vec()).unwrap();
     let c4 = |o: &[(&str, f64)]| C4Params::with_overrides(o.to_vec()).unwrap();
