@@ -6,9 +6,9 @@
 //! it), cs = ca − A/gb_c and gs from Medlyn at (A, cs): by Newton's method with the analytic
 //! derivative, kept inside the bracket (a step that would leave it bisects), and ended when a sign
 //! change of r within the tolerance is confirmed — as tight a guarantee as Brent's method (kept as
-//! the reference, [`RootSearch::Brent`]) with about half its evaluations. r < 0 at ci = 0 (A < 0 there) and
-//! r ≥ A > 0 at ci = ca when the leaf can fix carbon, so the bracket always holds and the search
-//! cannot diverge. A leaf that cannot fix carbon even at ci = ca respires through g0: the bracket
+//! the reference, [`RootSearch::Brent`]) with about half its evaluations. r < 0 at ci = 0 (A < 0
+//! there) and r ≥ A > 0 at ci = ca when the leaf can fix carbon, so the bracket always holds and the
+//! search cannot diverge. A leaf that cannot fix carbon even at ci = ca respires through g0: the bracket
 //! then lies above ca and is widened until it holds; with g0 = 0 its stomata are shut and ci = ca.
 //! A leaf with g0 = 0 whose stomatal ci lies below its compensation point fixes no carbon: A = 0,
 //! gs = 0, ci at the compensation point.
