@@ -1,4 +1,5 @@
-//! Small numerical tools shared by the processes: a bracketing root finder and a stable quadratic.
+//! Small numerical tools shared by the processes: bracketing root finders (Brent's method, and
+//! Newton's method safeguarded by a bracket) and a stable quadratic.
 
 /// The smaller real root of a·x² + b·x + c = 0 (a may be 0: then the linear root). Uses the
 /// cancellation-free form. Returns NaN when there is no real root.
@@ -105,6 +106,85 @@ pub(crate) fn brent(
     Some(b)
 }
 
+/// Newton's method safeguarded by a bracket, for a function `f` giving (f(x), f′(x), what else is
+/// wanted at x). `start` is (x, f, f′, extra) at a point of the bracket (lo, hi), where f(lo) < 0 <
+/// f(hi) (lo may lie above hi; the ends themselves need not have been evaluated). A Newton step that would leave the bracket, is
+/// not finite, or is longer than half the step before it (slow progress, e.g. at a kink) bisects
+/// the bracket instead, as in the "rtsafe" of Numerical Recipes (Press et al. 2007, from memory),
+/// so the search never leaves it and shrinks it at least geometrically; each new point replaces
+/// the end of the bracket whose sign it shares. The search ends when the bracket is at most `tol`
+/// wide, or when the Newton step from the answer is shorter than `step_tol` (≤ `tol`) and a point
+/// `tol` beyond the answer towards the other end of the bracket confirms the sign change — so a root lies within `tol` of the answer (both tolerances plus four
+/// ulps of the answer, so that neither is below the spacing of doubles). Returns the answer and its
+/// extra, or None when f is not finite or `max_iter` steps do not end it.
+pub(crate) fn newton_bracketed<T>(
+    mut f: impl FnMut(f64) -> (f64, f64, T),
+    start: (f64, f64, f64, T),
+    (lo, hi): (f64, f64),
+    tol: f64,
+    step_tol: f64,
+    max_iter: usize,
+) -> Option<(f64, T)> {
+    let (mut x, mut fx, mut dfx, mut extra) = start;
+    // f < 0 at a, f > 0 at b; the start replaces the end whose sign it shares.
+    let (mut a, mut b) = (lo, hi);
+    if !(fx.is_finite() && a.min(b) <= x && x <= a.max(b)) {
+        return None;
+    }
+    let mut eval = |x: f64, a: &mut f64, b: &mut f64| {
+        let (fx, dfx, e) = f(x);
+        if fx < 0.0 {
+            *a = x;
+        } else {
+            *b = x;
+        }
+        (fx, dfx, e)
+    };
+    if fx < 0.0 {
+        a = x;
+    } else {
+        b = x;
+    }
+    let ulps = |x: f64| 4.0 * f64::EPSILON * x.abs();
+    let mut last_step = (b - a).abs();
+    for _ in 0..max_iter {
+        let tol_x = tol + ulps(x);
+        if fx == 0.0 || (b - a).abs() <= tol_x {
+            return Some((x, extra));
+        }
+        let step = x - fx / dfx;
+        if (step - x).abs() <= step_tol + ulps(x) {
+            // Newton would move x by less than step_tol: confirm the sign change within tol of
+            // x, towards the other end of the bracket (x is one of its ends).
+            let other = if x == a { b } else { a };
+            let probe = x + tol_x.copysign(other - x);
+            let (f_probe, df_probe, e_probe) = eval(probe, &mut a, &mut b);
+            if !f_probe.is_finite() {
+                return None;
+            }
+            if f_probe == 0.0 {
+                return Some((probe, e_probe));
+            }
+            if (f_probe < 0.0) != (fx < 0.0) {
+                return Some((x, extra));
+            }
+            // No sign change there: the root is further on; go on from the probe.
+            (x, fx, dfx, extra) = (probe, f_probe, df_probe, e_probe);
+            last_step = tol_x;
+            continue;
+        }
+        let newton = step > a.min(b) && step < a.max(b) && 2.0 * (step - x).abs() <= last_step;
+        let next = if newton { step } else { 0.5 * (a + b) };
+        last_step = (next - x).abs();
+        let (f_next, df_next, e_next) = eval(next, &mut a, &mut b);
+        if !f_next.is_finite() {
+            return None;
+        }
+        (x, fx, dfx, extra) = (next, f_next, df_next, e_next);
+    }
+    None
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -117,6 +197,41 @@ mod tests {
         assert!((smaller_root(-1.0, 4.0, -3.0) - 1.0).abs() < 1e-14);
         assert!((smaller_root(0.0, 2.0, -4.0) - 2.0).abs() < 1e-14);
         assert!(smaller_root(1.0, 0.0, 1.0).is_nan());
+    }
+
+    /// Newton in a bracket: the cube root of two from either end, a root at a kink (where
+    /// Newton alone would crawl) and a start outside the bracket (common practice: closed-form
+    /// roots).
+    #[test]
+    fn bracketed_newton_finds_roots_within_tolerance() {
+        let cube = |x: f64| (x * x * x - 2.0, 3.0 * x * x, ());
+        let root = 2f64.cbrt();
+        for start in [0.0, 2.0] {
+            let s = cube(start);
+            let (r, _) =
+                newton_bracketed(cube, (start, s.0, s.1, ()), (0.0, 2.0), 1e-9, 1e-11, 100)
+                    .unwrap();
+            assert!((r - root).abs() < 1e-11, "{r}");
+        }
+        // f = x − 1 below 1 and 40(x − 1) above: the tangent from either side overshoots.
+        let kink = |x: f64| {
+            if x < 1.0 {
+                (x - 1.0, 1.0, ())
+            } else {
+                (
+                    40.0 * (x - 1.0) + (x - 1.0).powi(2),
+                    40.0 + 2.0 * (x - 1.0),
+                    (),
+                )
+            }
+        };
+        let s = kink(0.0);
+        let (r, _) =
+            newton_bracketed(kink, (0.0, s.0, s.1, ()), (0.0, 5.0), 1e-9, 1e-11, 200).unwrap();
+        assert!((r - 1.0).abs() <= 1e-9, "{r}");
+        // A start outside the bracket is refused.
+        let none = newton_bracketed(cube, (2.5, 13.625, 18.75, ()), (0.0, 2.0), 1e-9, 1e-11, 100);
+        assert!(none.is_none());
     }
 
     #[test]

@@ -21,14 +21,14 @@
 //!   for leaf width d, 1.4 the outdoor enhancement (Campbell & Norman 1998, from memory).
 
 use crate::canopy::assimilation::{
-    CanopyDrivers, CanopyFlux, CanopyLight, CanopySettings, canopy_step_lit,
+    CanopyDrivers, CanopyFlux, CanopyLight, CanopySettings, canopy_step_shared,
 };
 use crate::canopy::radiation::diffuse_fraction_erbs;
 use crate::canopy::solar::Location;
 use crate::error::{Result, check_input, check_range};
 use crate::isotopes::product_delta_permil;
 use crate::leaf::stomata::boundary_layer_h2o_from_wind;
-use crate::leaf::{LeafConditions, LeafModel, LeafOptions, Pathway};
+use crate::leaf::{LeafConditions, LeafModel, LeafOptions, Pathway, SharedTemperature};
 use crate::phenology::{ColdState, Phenology, PhenologySettings};
 use crate::water::bucket::{Bucket, BucketParams};
 use crate::water::evaporation::{PriestleyTaylor, soil_evaporation_demand_mm, transpiration_mm};
@@ -189,6 +189,9 @@ pub struct StepLight {
     ppfd: f64,
     /// Per vegetation, in the settings' order (at most one C3 and one C4).
     canopies: [Option<CanopyLight>; 2],
+    /// Per vegetation, its leaves' temperature terms at the step's air temperature, pressure,
+    /// O2 and growth temperature ([`SiteModel::shared_light`]; None from [`SiteModel::light`]).
+    temperatures: [Option<SharedTemperature>; 2],
 }
 
 impl StepLight {
@@ -344,7 +347,41 @@ impl SiteModel {
             diffuse_fraction,
             ppfd,
             canopies,
+            temperatures: [None; 2],
         })
+    }
+
+    /// [`SiteModel::light`] together with each vegetation's leaf temperature terms at the step's
+    /// air temperature, pressure, O2 and growth temperature (`d.t_growth_c`, as the run will set
+    /// it): for runs that share the step (ensemble members, fit evaluations). A run whose leaf or
+    /// conditions give other inputs, bit for bit, computes its own terms, so sharing cannot change
+    /// a number.
+    pub fn shared_light(&self, d: &SiteDrivers) -> Result<StepLight> {
+        let mut light = self.light(d)?;
+        let base = Self::leaf_base(d, 1.0);
+        for (slot, v) in light.temperatures.iter_mut().zip(&self.settings.vegetation) {
+            *slot = Some(v.leaf.shared_temperature(&v.options, &base));
+        }
+        Ok(light)
+    }
+
+    /// The conditions of the leaves at the top of each canopy in step `d` with soil-water factor
+    /// `beta`, their light aside.
+    fn leaf_base(d: &SiteDrivers, beta: f64) -> LeafConditions {
+        LeafConditions {
+            // Used only with cold.factor > 0, which implies air above −2 °C; the clamp keeps a
+            // leaf solve inside its valid range whatever the weather.
+            t_leaf_c: d.t_air_c.clamp(-30.0, 60.0),
+            ppfd_umol_m2_s: 0.0,
+            vpd_kpa: d.vpd_kpa,
+            ca_umol_mol: d.co2_umol_mol,
+            pressure_kpa: d.pressure_kpa,
+            o2_mmol_mol: d.o2_mmol_mol,
+            d13c_air_permil: d.d13c_co2_permil,
+            soil_beta: beta,
+            t_growth_c: d.t_growth_c,
+            d13c_substrate_permil: d.d13c_leaf_substrate_permil,
+        }
     }
 
     fn canopy_drivers(
@@ -399,30 +436,18 @@ impl SiteModel {
         } else {
             f64::NAN
         };
-        let leaf_base = LeafConditions {
-            // Used only with cold.factor > 0, which implies air above −2 °C; the clamp keeps a
-            // leaf solve inside its valid range whatever the weather.
-            t_leaf_c: d.t_air_c.clamp(-30.0, 60.0),
-            ppfd_umol_m2_s: 0.0,
-            vpd_kpa: d.vpd_kpa,
-            ca_umol_mol: d.co2_umol_mol,
-            pressure_kpa: d.pressure_kpa,
-            o2_mmol_mol: d.o2_mmol_mol,
-            d13c_air_permil: d.d13c_co2_permil,
-            soil_beta: beta,
-            t_growth_c: d.t_growth_c,
-            d13c_substrate_permil: d.d13c_leaf_substrate_permil,
-        };
+        let leaf_base = Self::leaf_base(d, beta);
         let mut pathways = Vec::with_capacity(self.settings.vegetation.len());
         let (mut gpp, mut gpp_c4, mut wd) = (0.0, 0.0, 0.0);
         let mut transpiration = 0.0;
         let mut lai_total = 0.0;
-        for ((v, phen), lit) in self
+        for (((v, phen), lit), temperature) in self
             .settings
             .vegetation
             .iter()
             .zip(&mut self.phenology)
             .zip(&light.canopies)
+            .zip(&light.temperatures)
         {
             let lai = match (phen, d.lai_m2_m2) {
                 (Some(p), _) => p.step(
@@ -448,12 +473,13 @@ impl SiteModel {
                 leaf
             };
             let flux = if cold.factor > 0.0 {
-                canopy_step_lit(
+                canopy_step_shared(
                     &leaf,
                     &v.options,
                     &v.canopy,
                     &Self::canopy_drivers(leaf_base, ppfd, diffuse_fraction, cos_zenith, lai),
                     lit.as_ref(),
+                    temperature.as_ref(),
                 )?
             } else {
                 CanopyFlux::empty()

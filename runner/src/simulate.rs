@@ -235,9 +235,9 @@ pub fn simulate(
     simulate_lit(site, steps, step_minutes, sink, &[])
 }
 
-/// The light of every step of `steps` at `site` (None where the step is missing or its light
-/// cannot be computed; the run then computes it and reports the error in context), for
-/// [`simulate_lit`].
+/// The light of every step of `steps` at `site`, with each vegetation's leaf temperature terms
+/// (`SiteModel::shared_light`; None where the step is missing or its light cannot be computed;
+/// the run then computes it and reports the error in context), for [`simulate_lit`].
 pub fn step_lights(
     site: &Site,
     steps: &[ForcingStep],
@@ -246,11 +246,14 @@ pub fn step_lights(
     let Ok(model) = SiteModel::new(site.settings.clone()) else {
         return Vec::new();
     };
+    // The growth temperature as `site_step` gives it, for the leaves' temperature terms.
+    let mut growth = GrowthTemperature::new();
     steps
         .iter()
         .map(|f| {
-            let d = drivers(site, f, step_minutes)?;
-            model.light(&d).ok()
+            let mut d = drivers(site, f, step_minutes)?;
+            d.t_growth_c = growth.push((d.year, d.day_of_year), d.t_air_c);
+            model.shared_light(&d).ok()
         })
         .collect()
 }

@@ -13,7 +13,9 @@
 
 use crate::canopy::radiation::{TwoLeafCanopy, TwoLeafLight};
 use crate::error::{Result, check_input, check_range};
-use crate::leaf::{LeafConditions, LeafModel, LeafOptions, LeafState, LeafTemperature};
+use crate::leaf::{
+    LeafConditions, LeafModel, LeafOptions, LeafState, LeafTemperature, SharedTemperature,
+};
 
 /// Settings of the canopy of one pathway.
 #[derive(Debug, Clone, PartialEq)]
@@ -176,6 +178,21 @@ pub fn canopy_step_lit(
     d: &CanopyDrivers,
     light: Option<&CanopyLight>,
 ) -> Result<CanopyFlux> {
+    canopy_step_shared(leaf, options, settings, d, light, None)
+}
+
+/// [`canopy_step_lit`] with the leaf's temperature terms computed beforehand
+/// ([`LeafModel::shared_temperature`], e.g. once for many runs of a site): `temperature` is used
+/// when it was computed from the same inputs as this leaf's at these drivers, bit for bit, and the
+/// terms are computed afresh otherwise, so the result is the same either way.
+pub fn canopy_step_shared(
+    leaf: &LeafModel,
+    options: &LeafOptions,
+    settings: &CanopySettings,
+    d: &CanopyDrivers,
+    light: Option<&CanopyLight>,
+    temperature: Option<&SharedTemperature>,
+) -> Result<CanopyFlux> {
     if d.lai_m2_m2 <= 0.0 {
         return Ok(CanopyFlux::empty());
     }
@@ -220,7 +237,12 @@ pub fn canopy_step_lit(
         };
         if terms.is_none() {
             c.validate()?;
-            terms = Some(leaf.temperature_terms(options, &c));
+            let inputs = leaf.temperature_inputs(options, &c);
+            terms = Some(
+                temperature
+                    .and_then(|t| t.terms_for(&inputs))
+                    .unwrap_or_else(|| inputs.terms()),
+            );
         } else {
             let (name, _, lo, hi) = LeafConditions::RANGES[1];
             check_input(name, c.ppfd_umol_m2_s, lo, hi)?;
@@ -299,7 +321,7 @@ mod tests {
                     };
                     for scale in [1.0, 0.37] {
                         let scaled = leaf.with_capacity_scaled(scale);
-                        let tt = leaf.temperature_terms(&options, &c);
+                        let tt = leaf.temperature_inputs(&options, &c).terms();
                         let s = scaled.solve(&options, &c).unwrap();
                         if let Some((a, rd, gs)) = scaled.dark(&options, &c, &tt) {
                             closed += 1;
@@ -354,6 +376,65 @@ mod tests {
                     s == &settings && drivers == here
                 );
                 let got = canopy_step_lit(&leaf, &options, &settings, &here, Some(&light)).unwrap();
+                assert_eq!(format!("{got:?}"), format!("{expected:?}"));
+            }
+        }
+    }
+
+    /// Temperature terms computed for another leaf or other conditions are not used, and those of
+    /// the same leaf are: the result equals `canopy_step`'s either way (common practice).
+    #[test]
+    fn shared_temperature_terms_are_used_only_where_they_fit() {
+        let options = LeafOptions::default();
+        let settings = CanopySettings::new(TwoLeafCanopy::default(), 0.3, 0.85).unwrap();
+        let leaf_at = |t: f64| LeafConditions {
+            t_leaf_c: t,
+            t_growth_c: t - 2.0,
+            ..LeafConditions::default()
+        };
+        let d = CanopyDrivers {
+            leaf: leaf_at(27.0),
+            ppfd_beam_umol_m2_s: 700.0,
+            ppfd_diffuse_umol_m2_s: 300.0,
+            cos_zenith: 0.6,
+            lai_m2_m2: 2.2,
+        };
+        for leaf in leaves() {
+            let expected = canopy_step(&leaf, &options, &settings, &d).unwrap();
+            let other_leaf = match &leaf {
+                LeafModel::C3(p) => {
+                    let mut p = p.clone();
+                    p.set("ea_rd", 50_000.0).unwrap();
+                    LeafModel::C3(p)
+                }
+                LeafModel::C4(p) => {
+                    let mut p = p.clone();
+                    p.set("q10_k", 1.8).unwrap();
+                    LeafModel::C4(p)
+                }
+            };
+            let other_pathway = LeafModel::default_for(match leaf.pathway() {
+                Pathway::C3 => Pathway::C4,
+                Pathway::C4 => Pathway::C3,
+            });
+            let own = leaf.shared_temperature(&options, &d.leaf);
+            let inputs = leaf.temperature_inputs(&options, &d.leaf);
+            assert!(own.terms_for(&inputs).is_some());
+            for (shared, fits) in [
+                (own, true),
+                (leaf.shared_temperature(&options, &leaf_at(27.5)), false),
+                (other_leaf.shared_temperature(&options, &d.leaf), false),
+                (other_pathway.shared_temperature(&options, &d.leaf), false),
+                // A capacity scaling of the leaf shares its terms.
+                (
+                    leaf.with_capacity_scaled(0.4)
+                        .shared_temperature(&options, &d.leaf),
+                    true,
+                ),
+            ] {
+                assert_eq!(shared.terms_for(&inputs).is_some(), fits, "{leaf:?}");
+                let got = canopy_step_shared(&leaf, &options, &settings, &d, None, Some(&shared))
+                    .unwrap();
                 assert_eq!(format!("{got:?}"), format!("{expected:?}"));
             }
         }

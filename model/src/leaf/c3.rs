@@ -86,20 +86,101 @@ pub(crate) struct C3Temperature {
     gm: f64,
 }
 
+/// What [`C3Temperature`] is computed from: leaf temperature (°C), pressure (kPa), O2
+/// (mmol mol⁻¹) and the constants of the leaf's temperature responses, resolved for its options
+/// and growth temperature. Two leaves with the same inputs, bit for bit, have the same terms.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct C3TemperatureInputs {
+    t_leaf_c: f64,
+    pressure_kpa: f64,
+    o2_mmol_mol: f64,
+    k25: super::Kinetics25,
+    ea_rd: f64,
+    vcmax: super::PeakedResponse,
+    jmax: super::PeakedResponse,
+    gm: f64,
+    gm_response: super::PeakedResponse,
+}
+
+impl C3TemperatureInputs {
+    fn values(&self) -> [f64; 20] {
+        let (k, v, j, g) = (&self.k25, &self.vcmax, &self.jmax, &self.gm_response);
+        [
+            self.t_leaf_c,
+            self.pressure_kpa,
+            self.o2_mmol_mol,
+            k.kc25,
+            k.ko25,
+            k.gamma_star25,
+            k.ea_kc,
+            k.ea_ko,
+            k.ea_gamma_star,
+            self.ea_rd,
+            v.ha_j_mol,
+            v.hd_j_mol,
+            v.ds_j_mol_k,
+            j.ha_j_mol,
+            j.hd_j_mol,
+            j.ds_j_mol_k,
+            self.gm,
+            g.ha_j_mol,
+            g.hd_j_mol,
+            g.ds_j_mol_k,
+        ]
+    }
+
+    /// Whether `other` holds the same inputs, bit for bit.
+    pub fn same_as(&self, other: &Self) -> bool {
+        self.values()
+            .iter()
+            .zip(other.values())
+            .all(|(a, b)| a.to_bits() == b.to_bits())
+    }
+}
+
 impl C3Temperature {
-    pub fn new(p: &C3Params, options: &LeafOptions, c: &LeafConditions) -> Self {
-        let t = c.t_leaf_c;
-        let k25 = p.kinetics_25();
+    /// The inputs of the temperature terms of `p` under `options` at the conditions `c`.
+    pub fn inputs(p: &C3Params, options: &LeafOptions, c: &LeafConditions) -> C3TemperatureInputs {
         let set = options.temperature_set;
-        Self {
-            kc: michaelis_at(k25.kc25, k25.ea_kc, t, c.pressure_kpa),
-            ko: michaelis_at(k25.ko25, k25.ea_ko, t, c.pressure_kpa),
-            gamma_star: gamma_star_at(k25.gamma_star25, k25.ea_gamma_star, t, c.o2_mmol_mol),
-            rd_factor: arrhenius_factor(p.ea_rd(), t),
-            vcmax_factor: p.vcmax_response(set, c.t_growth_c).factor(t),
-            jmax_factor: p.jmax_response(set, c.t_growth_c).factor(t),
-            gm: p.gm() * peaked_arrhenius_factor(p.ha_gm(), p.hd_gm(), p.ds_gm(), t),
+        C3TemperatureInputs {
+            t_leaf_c: c.t_leaf_c,
+            pressure_kpa: c.pressure_kpa,
+            o2_mmol_mol: c.o2_mmol_mol,
+            k25: p.kinetics_25(),
+            ea_rd: p.ea_rd(),
+            vcmax: p.vcmax_response(set, c.t_growth_c),
+            jmax: p.jmax_response(set, c.t_growth_c),
+            gm: p.gm(),
+            gm_response: super::PeakedResponse {
+                ha_j_mol: p.ha_gm(),
+                hd_j_mol: p.hd_gm(),
+                ds_j_mol_k: p.ds_gm(),
+            },
         }
+    }
+
+    /// The temperature terms from their inputs.
+    pub fn from_inputs(x: &C3TemperatureInputs) -> Self {
+        let (t, k25) = (x.t_leaf_c, &x.k25);
+        Self {
+            kc: michaelis_at(k25.kc25, k25.ea_kc, t, x.pressure_kpa),
+            ko: michaelis_at(k25.ko25, k25.ea_ko, t, x.pressure_kpa),
+            gamma_star: gamma_star_at(k25.gamma_star25, k25.ea_gamma_star, t, x.o2_mmol_mol),
+            rd_factor: arrhenius_factor(x.ea_rd, t),
+            vcmax_factor: x.vcmax.factor(t),
+            jmax_factor: x.jmax.factor(t),
+            gm: x.gm
+                * peaked_arrhenius_factor(
+                    x.gm_response.ha_j_mol,
+                    x.gm_response.hd_j_mol,
+                    x.gm_response.ds_j_mol_k,
+                    t,
+                ),
+        }
+    }
+
+    pub fn new(p: &C3Params, options: &LeafOptions, c: &LeafConditions) -> Self {
+        Self::from_inputs(&Self::inputs(p, options, c))
     }
 
     /// Day respiration (µmol m⁻² s⁻¹) of `p` in the dark (no light inhibition).
@@ -177,40 +258,48 @@ impl C3Kinetics {
         }
     }
 
-    /// Net assimilation (µmol m⁻² s⁻¹) if rate `r` limits, at intercellular CO2 `ci`.
-    fn net_rate(&self, r: &Rate, ci: f64) -> f64 {
+    /// Net assimilation (µmol m⁻² s⁻¹) if rate `r` limits, at intercellular CO2 `ci`, and its
+    /// derivative dA/dci (µmol m⁻² s⁻¹ per µmol mol⁻¹).
+    fn net_rate(&self, r: &Rate, ci: f64) -> (f64, f64) {
         if r.constant {
-            r.v - self.rd
+            (r.v - self.rd, 0.0)
         } else if self.gm.is_infinite() {
-            r.v * (ci - self.gamma_star) / (ci + r.k) - self.rd
+            let d = ci + r.k;
+            (
+                r.v * (ci - self.gamma_star) / d - self.rd,
+                r.v * (r.k + self.gamma_star) / (d * d),
+            )
         } else {
             // (A + Rd)(cc + k) = v(cc − Γ*) with cc = ci − A/gm: a quadratic in A,
-            // A² − A(gm(ci + k) − Rd + v) + gm(v(ci − Γ*) − Rd(ci + k)) = 0, smaller root.
+            // A² − A·B + C = 0 with B = gm(ci + k) − Rd + v and C = gm(v(ci − Γ*) − Rd(ci + k)),
+            // smaller root. Differentiating it in ci: dA/dci = gm(A − v + Rd)/(2A − B).
             let gm = self.gm;
-            smaller_root(
+            let b = gm * (ci + r.k) - self.rd + r.v;
+            let a = smaller_root(
                 1.0,
-                -(gm * (ci + r.k) - self.rd + r.v),
+                -b,
                 gm * (r.v * (ci - self.gamma_star) - self.rd * (ci + r.k)),
-            )
+            );
+            (a, gm * (a - r.v + self.rd) / (2.0 * a - b))
         }
     }
 
-    /// Net assimilation (µmol m⁻² s⁻¹), cc (µmol mol⁻¹) and the limiting rate at intercellular CO2
-    /// `ci` (µmol mol⁻¹).
-    pub fn demand(&self, ci: f64) -> (f64, f64, Limitation) {
+    /// Net assimilation (µmol m⁻² s⁻¹), its derivative dA/dci (µmol m⁻² s⁻¹ per µmol mol⁻¹),
+    /// cc (µmol mol⁻¹) and the limiting rate at intercellular CO2 `ci` (µmol mol⁻¹).
+    pub fn demand(&self, ci: f64) -> (f64, f64, f64, Limitation) {
         // Every rate's net curve passes through (cc = Γ*, A = −Rd), so all rates agree on the side
         // of Γ* on which cc lies; the Rubisco rate tells which.
-        let a_rubisco = self.net_rate(&self.rates[0], ci);
+        let (a_rubisco, slope) = self.net_rate(&self.rates[0], ci);
         let below = a_rubisco + self.rd < 0.0;
-        let mut best = (a_rubisco, self.rates[0].limitation);
+        let mut best = (a_rubisco, slope, self.rates[0].limitation);
         for r in &self.rates[1..self.n_rates] {
             if below && r.constant {
                 continue; // TPU caps gross assimilation, of which there is none below Γ*.
             }
-            let a = self.net_rate(r, ci);
+            let (a, slope) = self.net_rate(r, ci);
             // Below Γ*, (1 − Γ*/cc) < 0: the smaller carboxylation rate gives the larger A.
             if (below && a > best.0) || (!below && a < best.0) {
-                best = (a, r.limitation);
+                best = (a, slope, r.limitation);
             }
         }
         let cc = if self.gm.is_infinite() {
@@ -218,7 +307,7 @@ impl C3Kinetics {
         } else {
             ci - best.0 / self.gm
         };
-        (best.0, cc, best.1)
+        (best.0, best.1, cc, best.2)
     }
 }
 

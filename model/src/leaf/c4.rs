@@ -35,14 +35,43 @@ pub(crate) struct C4Temperature {
     k_factor: f64,
 }
 
+/// What [`C4Temperature`] is computed from: leaf temperature (°C) and the Q10 of k.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct C4TemperatureInputs {
+    t_leaf_c: f64,
+    q10_k: f64,
+}
+
+impl C4TemperatureInputs {
+    /// Whether `other` holds the same inputs, bit for bit.
+    pub fn same_as(&self, other: &Self) -> bool {
+        self.t_leaf_c.to_bits() == other.t_leaf_c.to_bits()
+            && self.q10_k.to_bits() == other.q10_k.to_bits()
+    }
+}
+
 impl C4Temperature {
+    /// The inputs of the temperature terms of `p` at leaf temperature `t_leaf_c` (°C).
+    pub fn inputs(p: &C4Params, t_leaf_c: f64) -> C4TemperatureInputs {
+        C4TemperatureInputs {
+            t_leaf_c,
+            q10_k: p.q10_k(),
+        }
+    }
+
     pub fn new(p: &C4Params, t_leaf_c: f64) -> Self {
+        Self::from_inputs(&Self::inputs(p, t_leaf_c))
+    }
+
+    /// The temperature terms from their inputs.
+    pub fn from_inputs(x: &C4TemperatureInputs) -> Self {
+        let t_leaf_c = x.t_leaf_c;
         Self {
             q10_2: q10_factor(2.0, t_leaf_c, 25.0),
             vmax_denominator: (1.0 + (0.3 * (13.0 - t_leaf_c)).exp())
                 * (1.0 + (0.3 * (t_leaf_c - 36.0)).exp()),
             rd_denominator: 1.0 + (1.3 * (t_leaf_c - 55.0)).exp(),
-            k_factor: q10_factor(p.q10_k(), t_leaf_c, 25.0),
+            k_factor: q10_factor(x.q10_k, t_leaf_c, 25.0),
         }
     }
 
@@ -80,10 +109,18 @@ impl C4Kinetics {
         }
     }
 
-    /// Net assimilation (µmol m⁻² s⁻¹) and the limiting rate at intercellular CO2 `ci` (µmol mol⁻¹).
-    pub fn demand(&self, ci: f64) -> (f64, Limitation) {
+    /// Net assimilation (µmol m⁻² s⁻¹), its derivative dA/dci (µmol m⁻² s⁻¹ per µmol mol⁻¹)
+    /// and the limiting rate at intercellular CO2 `ci` (µmol mol⁻¹).
+    pub fn demand(&self, ci: f64) -> (f64, f64, Limitation) {
         let kc = self.k * ci.max(0.0);
-        let gross = smaller_root(self.beta_c, -(self.m + kc), self.m * kc);
+        let b = self.m + kc;
+        let gross = smaller_root(self.beta_c, -b, self.m * kc);
+        // Differentiating βA² − A(M + kc) + M·kc = 0 in kc: dA/dkc = (A − M)/(2βA − (M + kc)).
+        let slope = if ci > 0.0 {
+            self.k * (gross - self.m) / (2.0 * self.beta_c * gross - b)
+        } else {
+            0.0
+        };
         let lim = if self.light <= 0.0 {
             Limitation::Dark
         } else if kc <= self.light.min(self.vmax) {
@@ -93,6 +130,6 @@ impl C4Kinetics {
         } else {
             Limitation::Rubisco
         };
-        (gross - self.rd, lim)
+        (gross - self.rd, slope, lim)
     }
 }

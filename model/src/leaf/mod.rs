@@ -25,6 +25,7 @@ use crate::discrimination::{
 use crate::error::{Result, check_input};
 use crate::isotopes::product_delta_permil;
 pub use params::{C3Params, C4Params, Kinetics25, ParamSpec, PeakedResponse};
+pub use solve::{CI_TOL_UMOL_MOL, RootSearch};
 use stomata::Medlyn;
 
 /// Photosynthetic pathway.
@@ -290,8 +291,24 @@ fn g1_and_capacity(g1: f64, beta: f64, target: BetaTarget) -> (f64, f64) {
 /// Solves a C3 leaf: FvCB photosynthesis, Medlyn stomata, optional boundary-layer and mesophyll
 /// conductances, and the discrimination form chosen in `options`.
 pub fn solve_c3(p: &C3Params, options: &LeafOptions, c: &LeafConditions) -> Result<LeafState> {
+    solve_c3_with(p, options, c, RootSearch::Newton)
+}
+
+/// [`solve_c3`] with the root search `search` (the reference [`RootSearch::Brent`] for checks).
+pub fn solve_c3_with(
+    p: &C3Params,
+    options: &LeafOptions,
+    c: &LeafConditions,
+    search: RootSearch,
+) -> Result<LeafState> {
     c.validate()?;
-    solve_c3_at(p, options, c, &c3::C3Temperature::new(p, options, c))
+    solve_c3_at(
+        p,
+        options,
+        c,
+        &c3::C3Temperature::new(p, options, c),
+        search,
+    )
 }
 
 /// [`solve_c3`] with conditions already validated and their temperature terms `tt`.
@@ -300,11 +317,12 @@ fn solve_c3_at(
     options: &LeafOptions,
     c: &LeafConditions,
     tt: &c3::C3Temperature,
+    search: RootSearch,
 ) -> Result<LeafState> {
     let (g1, capacity) = g1_and_capacity(p.g1(), c.soil_beta, options.beta_target);
     let kin = c3::C3Kinetics::new(p, options, c, capacity, tt);
     let stomata = Medlyn::new(p.g0(), g1, c.vpd_kpa);
-    let s = solve::solve(|ci| kin.demand(ci), &stomata, c.ca_umol_mol, p.gb())?;
+    let s = solve::solve(|ci| kin.demand(ci), &stomata, c.ca_umol_mol, p.gb(), search)?;
     let ca = c.ca_umol_mol;
     let discrimination = if s.a_net <= 0.0 {
         f64::NAN
@@ -345,8 +363,24 @@ fn solve_c3_at(
 /// Solves a C4 leaf: Collatz photosynthesis, Medlyn stomata, optional boundary layer, and the
 /// Farquhar (1983) discrimination with leakiness.
 pub fn solve_c4(p: &C4Params, options: &LeafOptions, c: &LeafConditions) -> Result<LeafState> {
+    solve_c4_with(p, options, c, RootSearch::Newton)
+}
+
+/// [`solve_c4`] with the root search `search` (the reference [`RootSearch::Brent`] for checks).
+pub fn solve_c4_with(
+    p: &C4Params,
+    options: &LeafOptions,
+    c: &LeafConditions,
+    search: RootSearch,
+) -> Result<LeafState> {
     c.validate()?;
-    solve_c4_at(p, options, c, &c4::C4Temperature::new(p, c.t_leaf_c))
+    solve_c4_at(
+        p,
+        options,
+        c,
+        &c4::C4Temperature::new(p, c.t_leaf_c),
+        search,
+    )
 }
 
 /// [`solve_c4`] with conditions already validated and their temperature terms `tt`.
@@ -355,18 +389,20 @@ fn solve_c4_at(
     options: &LeafOptions,
     c: &LeafConditions,
     tt: &c4::C4Temperature,
+    search: RootSearch,
 ) -> Result<LeafState> {
     let (g1, capacity) = g1_and_capacity(p.g1(), c.soil_beta, options.beta_target);
     let kin = c4::C4Kinetics::new(p, c.ppfd_umol_m2_s, capacity, tt);
     let stomata = Medlyn::new(p.g0(), g1, c.vpd_kpa);
     let s = solve::solve(
         |ci| {
-            let (a, lim) = kin.demand(ci);
-            (a, ci, lim)
+            let (a, da, lim) = kin.demand(ci);
+            (a, da, ci, lim)
         },
         &stomata,
         c.ca_umol_mol,
         p.gb(),
+        search,
     )?;
     let ca = c.ca_umol_mol;
     let discrimination = if s.a_net <= 0.0 {
@@ -481,16 +517,32 @@ impl LeafModel {
         }
     }
 
-    /// The terms of this leaf at the temperatures, pressure and O2 of `c` (its light aside), which
-    /// every capacity scaling of the leaf ([`LeafModel::with_capacity_scaled`]) shares.
-    pub(crate) fn temperature_terms(
+    /// What the temperature terms of this leaf at the temperatures, pressure and O2 of `c` (its
+    /// light aside) are computed from; every capacity scaling of the leaf
+    /// ([`LeafModel::with_capacity_scaled`]) and its boundary layer leave them alone.
+    pub(crate) fn temperature_inputs(
         &self,
         options: &LeafOptions,
         c: &LeafConditions,
-    ) -> LeafTemperature {
+    ) -> TemperatureInputs {
         match self {
-            LeafModel::C3(p) => LeafTemperature::C3(c3::C3Temperature::new(p, options, c)),
-            LeafModel::C4(p) => LeafTemperature::C4(c4::C4Temperature::new(p, c.t_leaf_c)),
+            LeafModel::C3(p) => TemperatureInputs::C3(c3::C3Temperature::inputs(p, options, c)),
+            LeafModel::C4(p) => TemperatureInputs::C4(c4::C4Temperature::inputs(p, c.t_leaf_c)),
+        }
+    }
+
+    /// The leaf's temperature terms at the conditions `c` (their light aside) with what they were
+    /// computed from, so that other runs can use them where their own leaf and conditions give the
+    /// same inputs bit for bit (see [`crate::canopy::assimilation::canopy_step_shared`]).
+    pub fn shared_temperature(
+        &self,
+        options: &LeafOptions,
+        c: &LeafConditions,
+    ) -> SharedTemperature {
+        let inputs = self.temperature_inputs(options, c);
+        SharedTemperature {
+            inputs,
+            terms: inputs.terms(),
         }
     }
 
@@ -503,8 +555,12 @@ impl LeafModel {
         tt: &LeafTemperature,
     ) -> Result<LeafState> {
         match (self, tt) {
-            (LeafModel::C3(p), LeafTemperature::C3(t)) => solve_c3_at(p, options, c, t),
-            (LeafModel::C4(p), LeafTemperature::C4(t)) => solve_c4_at(p, options, c, t),
+            (LeafModel::C3(p), LeafTemperature::C3(t)) => {
+                solve_c3_at(p, options, c, t, RootSearch::Newton)
+            }
+            (LeafModel::C4(p), LeafTemperature::C4(t)) => {
+                solve_c4_at(p, options, c, t, RootSearch::Newton)
+            }
             _ => self.solve(options, c),
         }
     }
@@ -536,7 +592,7 @@ impl LeafModel {
             (LeafModel::C3(p), LeafTemperature::C3(t)) if p.g0() <= 0.0 => {
                 let (_, capacity) = g1_and_capacity(p.g1(), c.soil_beta, options.beta_target);
                 let kin = c3::C3Kinetics::new(p, options, c, capacity, t);
-                let (a, _, _) = kin.demand(c.ca_umol_mol);
+                let (a, _, _, _) = kin.demand(c.ca_umol_mol);
                 (a <= 0.0).then_some((a, kin.rd, 0.0))
             }
             _ => None,
@@ -544,9 +600,57 @@ impl LeafModel {
     }
 }
 
-/// A leaf's temperature terms (see [`LeafModel::temperature_terms`]).
+/// A leaf's temperature terms (from [`TemperatureInputs::terms`]).
 #[derive(Debug, Clone, Copy)]
 pub(crate) enum LeafTemperature {
     C3(c3::C3Temperature),
     C4(c4::C4Temperature),
+}
+
+/// What a leaf's temperature terms are computed from (see [`LeafModel::temperature_inputs`]).
+#[derive(Debug, Clone, Copy)]
+pub(crate) enum TemperatureInputs {
+    C3(c3::C3TemperatureInputs),
+    C4(c4::C4TemperatureInputs),
+}
+
+impl TemperatureInputs {
+    /// The terms these inputs give.
+    pub fn terms(&self) -> LeafTemperature {
+        match self {
+            TemperatureInputs::C3(x) => LeafTemperature::C3(c3::C3Temperature::from_inputs(x)),
+            TemperatureInputs::C4(x) => LeafTemperature::C4(c4::C4Temperature::from_inputs(x)),
+        }
+    }
+
+    /// Whether `other` holds the same inputs, bit for bit.
+    pub fn same_as(&self, other: &Self) -> bool {
+        match (self, other) {
+            (TemperatureInputs::C3(a), TemperatureInputs::C3(b)) => a.same_as(b),
+            (TemperatureInputs::C4(a), TemperatureInputs::C4(b)) => a.same_as(b),
+            _ => false,
+        }
+    }
+}
+
+/// A leaf's temperature terms (Arrhenius and peaked Arrhenius factors, Kc, Ko, Γ*, gm at leaf
+/// temperature) with the inputs they came from ([`LeafModel::shared_temperature`]).
+#[derive(Debug, Clone, Copy)]
+pub struct SharedTemperature {
+    inputs: TemperatureInputs,
+    terms: LeafTemperature,
+}
+
+/// Equal when computed from the same inputs, bit for bit (the terms follow from them).
+impl PartialEq for SharedTemperature {
+    fn eq(&self, other: &Self) -> bool {
+        self.inputs.same_as(&other.inputs)
+    }
+}
+
+impl SharedTemperature {
+    /// These terms if they were computed from `inputs`, bit for bit.
+    pub(crate) fn terms_for(&self, inputs: &TemperatureInputs) -> Option<LeafTemperature> {
+        self.inputs.same_as(inputs).then_some(self.terms)
+    }
 }
