@@ -91,16 +91,16 @@ pub struct GriddedForcing {
 }
 
 /// One file's time axis.
-struct FileTimes {
-    path: PathBuf,
-    times: Vec<LocalTime>,
-    time_dim: String,
-    calendar: Calendar,
+pub(super) struct FileTimes {
+    pub path: PathBuf,
+    pub times: Vec<LocalTime>,
+    pub time_dim: String,
+    pub calendar: Calendar,
 }
 
 /// The time coordinate of a file: the 1-D variable named `time`, or with `standard_name = "time"`
 /// or `axis = "T"`.
-fn read_times(reader: &NcIn) -> Result<FileTimes> {
+pub(super) fn read_times(reader: &NcIn) -> Result<FileTimes> {
     let path = reader.path();
     let name = {
         let vars = reader.variables();
@@ -321,39 +321,8 @@ impl GriddedForcing {
         // Units: the grid file's, else the attribute, as the CSV reader's table names them.
         let mut units = PerVariable::<String>::default();
         for (v, name, holding) in &parts {
-            let first = &files[holding[0]].0.path;
-            let unit = match config.units.get(*v) {
-                Some(u) => u.clone(),
-                None => {
-                    let reader = open(first)?;
-                    let var = reader.var(name)?;
-                    let u = attr_text(var, "units").ok_or_else(|| {
-                        Error::msg(format!(
-                            "{}, variable `{name}`: no units attribute; set forcing.units.{} in \
-                             the grid file",
-                            first.display(),
-                            v.name()
-                        ))
-                    })?;
-                    let table = table_unit(*v, &u);
-                    if !v.accepted_units().iter().any(|(n, ..)| *n == table) {
-                        let list: Vec<String> = v
-                            .accepted_units()
-                            .iter()
-                            .map(|(n, ..)| format!("\"{n}\""))
-                            .collect();
-                        return Err(Error::msg(format!(
-                            "{}, variable `{name}`: units \"{u}\" cannot be converted to {} ({}); \
-                             isodisc knows {}",
-                            first.display(),
-                            v.name(),
-                            v.project_unit(),
-                            list.join(", ")
-                        )));
-                    }
-                    table
-                }
-            };
+            let reader = open(&files[holding[0]].0.path)?;
+            let unit = resolve_unit(&reader, *v, name, config.units.get(*v), "grid file")?;
             *units.slot(*v) = Some(unit);
         }
         let plan = ForcingConfig {
@@ -479,85 +448,31 @@ impl GriddedForcing {
         let ncell = window.lat.len() * window.lon.len();
         let cell = (ilat - window.lat.start) * window.lon.len() + (ilon - window.lon.start);
         let pressure_default = pressure_from_elevation_kpa(elevation_m);
-        let k = self.plan.ppfd_per_sw;
         let mut out = Vec::with_capacity(self.times.len());
         let mut values = [f64::NAN; N_VARIABLES];
         for (t, time) in self.times.iter().enumerate() {
             for (s, series) in self.series.iter().zip(&window.values) {
                 let v = f64::from(series[t * ncell + cell]);
-                let (lo, hi) = s.var.valid_range();
-                let value = match s.var {
-                    // Night-time offsets down to −50 W m⁻² are 0, as the CSV reader does.
-                    Variable::Sw if (-50.0..0.0).contains(&v) => 0.0,
-                    Variable::Ppfd if (-50.0 * k..0.0).contains(&v) => 0.0,
-                    _ => v,
-                };
-                if !(lo..=hi).contains(&value) {
+                values[s.var.index()] = checked(&self.plan, s.var, v).map_err(|why| {
                     let (path, local) = self.source(s, t);
-                    let why = if value.is_nan() {
-                        "no value (a fill or missing value); gridded weather must be complete \
-                         over land cells"
-                            .to_string()
-                    } else {
-                        format!(
-                            "{} = {value:.3} {} is outside its valid range {lo}…{hi} {}",
-                            s.var.name(),
-                            s.var.project_unit(),
-                            s.var.project_unit()
-                        )
-                    };
-                    return Err(Error::msg(format!(
+                    Error::msg(format!(
                         "{}, variable `{}`, time index {local} ({time}), lat index {ilat} ({}°), \
-                         lon index {ilon} ({}°): {why}",
+                         lon index {ilon} ({}°): {why}; gridded weather must be complete over \
+                         cells with vegetation",
                         path.display(),
                         s.name,
                         self.axes.lat[ilat],
                         self.axes.lon[ilon]
-                    )));
-                }
-                values[s.var.index()] = value;
+                    ))
+                })?;
             }
-            let get = |v: Variable| values[v.index()];
-            let mapped = |v: Variable| self.plan.mappings[v.index()].is_some();
-            let t_air_c = get(Variable::TAir);
-            let pressure_kpa = if mapped(Variable::Pressure) {
-                get(Variable::Pressure)
-            } else {
-                pressure_default
-            };
-            let vpd_kpa = vpd_from_humidity_kpa(
-                self.plan.humidity,
-                t_air_c,
-                get(self.plan.humidity),
-                pressure_kpa,
-            );
-            let (sw_w_m2, ppfd_umol_m2_s) = match (mapped(Variable::Sw), mapped(Variable::Ppfd)) {
-                (true, true) => (get(Variable::Sw), get(Variable::Ppfd)),
-                (true, false) => (get(Variable::Sw), get(Variable::Sw) * k),
-                _ => (get(Variable::Ppfd) / k, get(Variable::Ppfd)),
-            };
-            let optional = |v: Variable| mapped(v).then(|| get(v));
-            out.push(ForcingStep {
-                time: *time,
-                line: t as u64 + 1,
-                t_air_c,
-                vpd_kpa,
-                sw_w_m2,
-                ppfd_umol_m2_s,
-                pressure_kpa,
-                precip_mm: if mapped(Variable::Precip) {
-                    get(Variable::Precip)
-                } else {
-                    0.0
-                },
-                co2_umol_mol: optional(Variable::Co2),
-                swc_m3_m3: optional(Variable::Swc),
-                lai: optional(Variable::Lai),
-                d13c_co2_permil: optional(Variable::D13cCo2),
-                wind_m_s: optional(Variable::Wind),
-                filled: false,
-                missing: false,
-            });
+            out.push(assemble(
+                &self.plan,
+                &values,
+                *time,
+                t as u64 + 1,
+                pressure_default,
+            ));
         }
         Ok(out)
     }
@@ -574,8 +489,121 @@ impl GriddedForcing {
     }
 }
 
+/// A value in the project's unit checked against its variable's valid range, as the CSV reader
+/// checks it: night-time radiation offsets down to −50 W m⁻² are 0; the error says why.
+pub(super) fn checked(plan: &Plan, var: Variable, v: f64) -> std::result::Result<f64, String> {
+    let k = plan.ppfd_per_sw;
+    let (lo, hi) = var.valid_range();
+    let value = match var {
+        Variable::Sw if (-50.0..0.0).contains(&v) => 0.0,
+        Variable::Ppfd if (-50.0 * k..0.0).contains(&v) => 0.0,
+        _ => v,
+    };
+    if (lo..=hi).contains(&value) {
+        Ok(value)
+    } else if value.is_nan() {
+        Err("no value (a fill or missing value)".into())
+    } else {
+        Err(format!(
+            "{} = {value:.3} {} is outside its valid range {lo}…{hi} {}",
+            var.name(),
+            var.project_unit(),
+            var.project_unit()
+        ))
+    }
+}
+
+/// One step from checked values (`values[variable index]`, project units), as the CSV reader
+/// builds it: VPD from the humidity variable, PPFD from shortwave (or the reverse), pressure from
+/// the elevation (`pressure_default`, kPa) where none is mapped, precipitation 0 where none is.
+pub(super) fn assemble(
+    plan: &Plan,
+    values: &[f64; N_VARIABLES],
+    time: LocalTime,
+    line: u64,
+    pressure_default: f64,
+) -> ForcingStep {
+    let k = plan.ppfd_per_sw;
+    let get = |v: Variable| values[v.index()];
+    let mapped = |v: Variable| plan.mappings[v.index()].is_some();
+    let t_air_c = get(Variable::TAir);
+    let pressure_kpa = if mapped(Variable::Pressure) {
+        get(Variable::Pressure)
+    } else {
+        pressure_default
+    };
+    let vpd_kpa = vpd_from_humidity_kpa(plan.humidity, t_air_c, get(plan.humidity), pressure_kpa);
+    let (sw_w_m2, ppfd_umol_m2_s) = match (mapped(Variable::Sw), mapped(Variable::Ppfd)) {
+        (true, true) => (get(Variable::Sw), get(Variable::Ppfd)),
+        (true, false) => (get(Variable::Sw), get(Variable::Sw) * k),
+        _ => (get(Variable::Ppfd) / k, get(Variable::Ppfd)),
+    };
+    let optional = |v: Variable| mapped(v).then(|| get(v));
+    ForcingStep {
+        time,
+        line,
+        t_air_c,
+        vpd_kpa,
+        sw_w_m2,
+        ppfd_umol_m2_s,
+        pressure_kpa,
+        precip_mm: if mapped(Variable::Precip) {
+            get(Variable::Precip)
+        } else {
+            0.0
+        },
+        co2_umol_mol: optional(Variable::Co2),
+        swc_m3_m3: optional(Variable::Swc),
+        lai: optional(Variable::Lai),
+        d13c_co2_permil: optional(Variable::D13cCo2),
+        wind_m_s: optional(Variable::Wind),
+        filled: false,
+        missing: false,
+    }
+}
+
+/// A variable's unit as the forcing unit table names it: `override_unit` (the `units` table of
+/// the settings) or else its `units` attribute; an error names the file, variable and unit when
+/// the table has no conversion for it.
+pub(super) fn resolve_unit(
+    reader: &NcIn,
+    v: Variable,
+    name: &str,
+    override_unit: Option<&String>,
+    settings_file: &str,
+) -> Result<String> {
+    if let Some(u) = override_unit {
+        return Ok(u.clone());
+    }
+    let path = reader.path();
+    let var = reader.var(name)?;
+    let u = attr_text(var, "units").ok_or_else(|| {
+        Error::msg(format!(
+            "{}, variable `{name}`: no units attribute; set forcing.units.{} in the {settings_file}",
+            path.display(),
+            v.name()
+        ))
+    })?;
+    let table = table_unit(v, &u);
+    if !v.accepted_units().iter().any(|(n, ..)| *n == table) {
+        let list: Vec<String> = v
+            .accepted_units()
+            .iter()
+            .map(|(n, ..)| format!("\"{n}\""))
+            .collect();
+        return Err(Error::msg(format!(
+            "{}, variable `{name}`: units \"{u}\" cannot be converted to {} ({}); isodisc knows {}",
+            path.display(),
+            v.name(),
+            v.project_unit(),
+            list.join(", ")
+        )));
+    }
+    Ok(table)
+}
+
 /// The mapped (variable, NetCDF name) pairs.
-fn mapped(variables: &PerVariable<String>) -> Vec<(Variable, &str)> {
+pub(super) fn mapped(variables: &PerVariable<String>) -> Vec<(Variable, &str)> {
     Variable::ALL
         .into_iter()
         .filter_map(|v| variables.get(v).map(|n| (v, n.trim())))

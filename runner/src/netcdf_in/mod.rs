@@ -15,6 +15,7 @@
 
 pub mod cf_time;
 pub mod forcing;
+pub mod site;
 
 use std::ops::Range;
 use std::path::{Path, PathBuf};

@@ -486,14 +486,20 @@ fn bad_input_names_file_variable_and_index() {
 fn netcdf4_and_classic_copies_give_the_same_run() {
     let tmp = tempfile::tempdir().unwrap();
     let nc4_toml = demo_variant(tmp.path(), "forcing_2001_nc4.nc");
-    let (from, to) = (jan_to_mar().0, Some(LocalTime::parse_date("2001-03-01").unwrap()));
+    let (from, to) = (
+        jan_to_mar().0,
+        Some(LocalTime::parse_date("2001-03-01").unwrap()),
+    );
     let nc4 = Grid::load(&nc4_toml, from, to).unwrap();
     let classic = Grid::load(&grid_file(), from, to).unwrap();
     assert_eq!(nc4.land, classic.land);
     assert_eq!(nc4.forcing.times, classic.forcing.times);
     assert_eq!(nc4.forcing.times.len(), 59 * 8);
     let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
-    let (nlat, nlon) = (classic.forcing.axes.lat.len(), classic.forcing.axes.lon.len());
+    let (nlat, nlon) = (
+        classic.forcing.axes.lat.len(),
+        classic.forcing.axes.lon.len(),
+    );
     let w4 = nc4.forcing.read_window(2..nlat, 3..nlon).unwrap();
     let wc = classic.forcing.read_window(0..nlat, 0..nlon).unwrap();
     for &cell in &classic.land {
