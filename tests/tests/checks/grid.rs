@@ -523,3 +523,58 @@ fn netcdf4_and_classic_copies_give_the_same_run() {
         }
     }
 }
+
+/// `isodisc cluster-script` takes a grid file: the array tasks run `isodisc grid` on it with
+/// `--shard env` and the merge job joins them (the script is valid bash: `bash -n`, common
+/// practice); more shards than blocks, or an ensemble spec, are refused.
+#[test]
+fn cluster_script_runs_a_grid_by_blocks() {
+    let tmp = tempfile::tempdir().unwrap();
+    let script = tmp.path().join("submit_grid.sh");
+    let g = grid_file();
+    let args = |shards: &str, extra: &[&str]| {
+        let mut a = vec![
+            "cluster-script".to_string(),
+            g.to_str().unwrap().to_string(),
+            "--shards".into(),
+            shards.into(),
+            "--results".into(),
+            tmp.path().join("res").to_str().unwrap().to_string(),
+            "--out".into(),
+            script.to_str().unwrap().to_string(),
+        ];
+        a.extend(extra.iter().map(|s| s.to_string()));
+        a
+    };
+    let call = |a: Vec<String>| run(&a.iter().map(String::as_str).collect::<Vec<_>>());
+    call(args("2", &[])).unwrap();
+    let text = std::fs::read_to_string(&script).unwrap();
+    let abs = std::path::absolute(&g).unwrap();
+    for needle in [
+        format!("GRID={}", abs.display()),
+        "\"$ISODISC\" grid \"$GRID\" --out \"$RESULTS/shards/shard_\\${SLURM_ARRAY_TASK_ID}\" \
+         --shard env"
+            .to_string(),
+        "#SBATCH --job-name=isodisc-grid".into(),
+        "SHARDS=2".into(),
+        "--dependency=afterok:$array_job".into(),
+        "\"$ISODISC\" merge \"$RESULTS\"/shards/shard_*".into(),
+    ] {
+        assert!(text.contains(&needle), "script lacks {needle}:\n{text}");
+    }
+    assert!(!text.contains("MANIFEST"), "{text}");
+    let ok = std::process::Command::new("bash")
+        .arg("-n")
+        .arg(&script)
+        .status()
+        .unwrap();
+    assert!(ok.success(), "bash -n refuses the script");
+    // The demo grid has 63 cells with vegetation: 2 blocks of 32.
+    let e = call(args("3", &[])).unwrap_err();
+    assert!(
+        e.contains("--shards 3: the grid has 2 (blocks of cells)"),
+        "{e}"
+    );
+    let e = call(args("2", &["--spec", "x.toml", "--members", "4"])).unwrap_err();
+    assert!(e.contains("is a grid file: --spec and --members"), "{e}");
+}
