@@ -166,7 +166,8 @@ impl GridPlan {
         let (mut read_bytes, mut read_s) = (0usize, 0f64);
         for (lat, lon, list) in self.grid.windows(&todo) {
             let t = Instant::now();
-            let window = self.grid.forcing.read_window(lat, lon)?;
+            // In the run's pool: NetCDF-4 chunks are decompressed on --threads threads.
+            let window = pool.install(|| self.grid.forcing.read_window(lat, lon))?;
             read_s += t.elapsed().as_secs_f64();
             read_bytes += window.bytes();
             for b in list {

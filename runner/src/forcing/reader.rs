@@ -362,10 +362,8 @@ pub struct ForcingReader {
 
 enum Inner {
     Csv(Box<CsvReader>),
-    NetCdf {
-        steps: std::vec::IntoIter<ForcingStep>,
-        report: ForcingReport,
-    },
+    /// The steps of a NetCDF file, read whole, and its report.
+    NetCdf(Box<(std::vec::IntoIter<ForcingStep>, ForcingReport)>),
 }
 
 impl ForcingReader {
@@ -387,10 +385,7 @@ impl ForcingReader {
             let (steps, report) =
                 crate::netcdf_in::site::read_site(config, site_dir, elevation_m, from, to)
                     .map_err(|e| ForcingError::NetCdf { message: e.chain() })?;
-            Inner::NetCdf {
-                steps: steps.into_iter(),
-                report,
-            }
+            Inner::NetCdf(Box::new((steps.into_iter(), report)))
         } else {
             Inner::Csv(Box::new(CsvReader::open(
                 config,
@@ -407,7 +402,7 @@ impl ForcingReader {
     pub fn report(&self) -> ForcingReport {
         match &self.inner {
             Inner::Csv(r) => r.report(),
-            Inner::NetCdf { report, .. } => report.clone(),
+            Inner::NetCdf(nc) => nc.1.clone(),
         }
     }
 }
@@ -418,7 +413,7 @@ impl Iterator for ForcingReader {
     fn next(&mut self) -> Option<Self::Item> {
         match &mut self.inner {
             Inner::Csv(r) => r.next(),
-            Inner::NetCdf { steps, .. } => steps.next().map(Ok),
+            Inner::NetCdf(nc) => nc.0.next().map(Ok),
         }
     }
 }

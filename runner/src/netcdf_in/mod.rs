@@ -166,9 +166,10 @@ impl NcIn {
         if var.dtype == NcType::Float {
             // Float fill values compare in the stored type: an f32 1e20 is not the f64 1e20.
             let codes32: Vec<f32> = codes.iter().map(|c| *c as f32).collect();
+            // Chunks of a NetCDF-4 variable are decompressed in parallel (rayon's pool).
             let data = self
                 .file
-                .read_variable_slice::<f32>(name, &selection)
+                .read_variable_slice_parallel::<f32>(name, &selection)
                 .map_err(cannot)?;
             for &x in data.iter() {
                 put(if x.is_nan() || codes32.contains(&x) {
@@ -193,11 +194,11 @@ impl NcIn {
 /// The default fill value of a numeric type (NetCDF user guide, "Fill Values": `NC_FILL_*`).
 fn default_fill(t: &NcType) -> Option<f64> {
     Some(match t {
-        NcType::Byte => -127.0,
-        NcType::Short => -32767.0,
-        NcType::Int => -2147483647.0,
-        NcType::Float => f64::from(9.969_209_968_386_869e36_f32),
-        NcType::Double => 9.969_209_968_386_869e36,
+        NcType::Byte => f64::from(netcdf3::NC_FILL_I8),
+        NcType::Short => f64::from(netcdf3::NC_FILL_I16),
+        NcType::Int => f64::from(netcdf3::NC_FILL_I32),
+        NcType::Float => f64::from(netcdf3::NC_FILL_F32),
+        NcType::Double => netcdf3::NC_FILL_F64,
         NcType::UByte => 255.0,
         NcType::UShort => 65535.0,
         NcType::UInt => 4294967295.0,
