@@ -166,23 +166,19 @@ impl ClusterScriptPlan {
                 }
                 // Reads the grid's maps and time axes (not its weather) to count the blocks.
                 let grid = crate::grid::Grid::load(&a.manifest, None, None)?;
-                (
-                    grid.land.len().div_ceil(crate::grid::BLOCK_CELLS),
-                    "block of cells",
-                )
+                (grid.land.len().div_ceil(crate::grid::BLOCK_CELLS), "block")
             }
         };
         if a.shards as usize > units {
-            let (file, plural) = match kind {
-                Kind::Batch => ("the manifest", "sites"),
-                Kind::Grid => ("the grid", "blocks of cells"),
+            let (file, nothing) = match kind {
+                Kind::Batch => ("the manifest", "no site"),
+                Kind::Grid => ("the grid", "no block"),
             };
             return Err(Error::msg(format!(
-                "--shards {}: {file} has {} ({}); use at most {units} shards (a shard with \
-                 nothing to run would only queue an empty job)",
+                "--shards {}: {file} has {}; use at most {units} shards (a shard with {nothing} \
+                 would only queue an empty job)",
                 a.shards,
-                units,
-                if units == 1 { what } else { plural },
+                crate::output::plural(units as u64, what)
             )));
         }
         let isodisc = match &a.isodisc {

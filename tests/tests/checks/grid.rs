@@ -572,7 +572,7 @@ fn cluster_script_runs_a_grid_by_blocks() {
     // The demo grid has 63 cells with vegetation: 2 blocks of 32.
     let e = call(args("3", &[])).unwrap_err();
     assert!(
-        e.contains("--shards 3: the grid has 2 (blocks of cells)"),
+        e.contains("--shards 3: the grid has 2 blocks; use at most 2"),
         "{e}"
     );
     let e = call(args("2", &["--spec", "x.toml", "--members", "4"])).unwrap_err();
