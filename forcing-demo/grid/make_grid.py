@@ -5,15 +5,18 @@ Writes, next to this script:
                                       along time by the grid file; float32, 3-hourly, 8 x 10 cells
   forcing_2001_packed.nc              the same year in one file, each variable packed as int16 with
                                       scale_factor/add_offset and a _FillValue (CF packing)
-  forcing_2001_nc4.nc                 the first two lat rows as NetCDF-4/HDF5 (for the error check:
-                                      isodisc reads NetCDF classic only)
+  forcing_2001_nc4.nc                 January-February 2001 as NetCDF-4/HDF5: the same float32 values,
+                                      deflate-compressed with the shuffle filter, in chunks that do not
+                                      divide the grid (the check that both formats give the same run)
   cover.nc                            C3 and C4 cover fractions (0-1) on the same grid; the western
                                       columns are sea (no vegetation)
 
 Usage: python3 forcing-demo/grid/make_grid.py   (numbers are invented, not observations)
 
 For the speed measurement (not committed): python3 forcing-demo/grid/make_grid.py --bench DIR
-writes DIR/forcing.nc (100 x 100 cells, all land, 64-bit offset), DIR/cover.nc and DIR/grid.toml.
+writes DIR/forcing.nc (100 x 100 cells, all land, 64-bit offset), DIR/cover.nc and DIR/grid.toml;
+--bench-nc4 DIR (after --bench DIR) adds DIR/forcing_nc4.nc, the same values as NetCDF-4
+(deflate level 4, shuffle, netCDF4-python's default chunks), and DIR/grid_nc4.toml.
 """
 import os
 import sys
@@ -68,7 +71,7 @@ def weather(rng, lat_values=LAT, lon_values=LON):
     return {"tas": tas, "huss": huss, "rsds": rsds, "pr": pr, "ps": ps}
 
 
-def write(path, fields, steps, fmt, rows=slice(None), packed=False):
+def write(path, fields, steps, fmt, rows=slice(None), packed=False, compress=False):
     ds = netCDF4.Dataset(path, "w", format=fmt)
     ds.Conventions = "CF-1.8"
     ds.title = "Invented 3-hourly weather for the isodisc grid demo"
@@ -94,6 +97,9 @@ def write(path, fields, steps, fmt, rows=slice(None), packed=False):
             v.scale_factor = scale
             v.add_offset = offset
             v.set_auto_maskandscale(True)
+        elif compress:
+            v = ds.createVariable(name, "f4", ("time", "lat", "lon"), fill_value=np.float32(1e20),
+                                  zlib=True, complevel=4, shuffle=True, chunksizes=(100, 3, 4))
         else:
             v = ds.createVariable(name, "f4", ("time", "lat", "lon"), fill_value=np.float32(1e20))
         v.units = units
@@ -112,7 +118,8 @@ def main():
     write(os.path.join(HERE, "forcing_2001a.nc"), fields, slice(0, half), classic)
     write(os.path.join(HERE, "forcing_2001b.nc"), fields, slice(half, None), classic)
     write(os.path.join(HERE, "forcing_2001_packed.nc"), fields, slice(None), classic, packed=True)
-    write(os.path.join(HERE, "forcing_2001_nc4.nc"), fields, slice(0, 16), "NETCDF4", rows=slice(0, 2))
+    march = (31 + 28) * 24 // STEP_H  # 1 March 2001 00:00
+    write(os.path.join(HERE, "forcing_2001_nc4.nc"), fields, slice(0, march), "NETCDF4", compress=True)
 
     # Cover: sea in the two western columns and one bay cell; C4 grass more common to the south.
     ds = netCDF4.Dataset(os.path.join(HERE, "cover.nc"), "w", format=classic)
@@ -181,8 +188,31 @@ def bench(out):
     open(os.path.join(out, "grid.toml"), "w").write(here)
 
 
+def bench_nc4(out):
+    """The --bench weather copied into NetCDF-4, compressed, ten latitude rows at a time."""
+    src = netCDF4.Dataset(os.path.join(out, "forcing.nc"))
+    ds = netCDF4.Dataset(os.path.join(out, "forcing_nc4.nc"), "w", format="NETCDF4")
+    for name, dim in src.dimensions.items():
+        ds.createDimension(name, None if name == "time" else len(dim))
+    for name, v in src.variables.items():
+        three = v.dimensions == ("time", "lat", "lon")
+        w = ds.createVariable(name, v.dtype, v.dimensions, zlib=three, complevel=4, shuffle=three)
+        w.setncatts({k: v.getncattr(k) for k in v.ncattrs()})
+        if three:
+            for r in range(0, v.shape[1], 10):
+                w[:, r:r + 10, :] = v[:, r:r + 10, :]
+        else:
+            w[:] = v[:]
+    ds.close()
+    src.close()
+    text = open(os.path.join(out, "grid.toml")).read()
+    open(os.path.join(out, "grid_nc4.toml"), "w").write(text.replace('"forcing.nc"', '"forcing_nc4.nc"'))
+
+
 if __name__ == "__main__":
     if len(sys.argv) == 3 and sys.argv[1] == "--bench":
         bench(sys.argv[2])
+    elif len(sys.argv) == 3 and sys.argv[1] == "--bench-nc4":
+        bench_nc4(sys.argv[2])
     else:
         main()

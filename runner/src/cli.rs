@@ -441,7 +441,7 @@ pub struct MergeArgs {
 /// `isodisc cluster-script`.
 #[derive(Debug, clap::Args)]
 pub struct ClusterScriptArgs {
-    /// The batch manifest (TOML).
+    /// The batch manifest or grid file (TOML): the tasks run `isodisc batch` or `isodisc grid`.
     pub manifest: PathBuf,
     /// Number of shards, one array task each.
     #[arg(long)]

@@ -1,7 +1,8 @@
-//! `isodisc cluster-script`: writes a ready, commented submission script that runs a batch as a
-//! Slurm array job (one task per shard, each taking its shard from the array-job environment with
-//! `--shard env`) and a merge job that starts only when every task succeeded
-//! (`--dependency=afterok`). The user reads it, edits the resources, and runs it with bash.
+//! `isodisc cluster-script`: writes a ready, commented submission script that runs a batch (a
+//! manifest of sites) or a grid (a grid file, by blocks of cells) as a Slurm array job (one task
+//! per shard, each taking its shard from the array-job environment with `--shard env`) and a merge
+//! job that starts only when every task succeeded (`--dependency=afterok`). The user reads it,
+//! edits the resources, and runs it with bash.
 
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
@@ -10,9 +11,33 @@ use crate::cli::ClusterScriptArgs;
 use crate::error::{Context, Error, Result};
 use crate::output::write_atomic;
 
+/// What the array tasks run.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Kind {
+    /// `isodisc batch MANIFEST`: sites.
+    Batch,
+    /// `isodisc grid GRID.toml`: blocks of cells.
+    Grid,
+}
+
+/// A grid file has a `[forcing]` table naming NetCDF `files`; a manifest does not.
+fn kind_of(path: &Path) -> Result<Kind> {
+    let text =
+        std::fs::read_to_string(path).with_context(|| format!("cannot read {}", path.display()))?;
+    let table: toml::Table = text
+        .parse()
+        .map_err(|e: toml::de::Error| Error::msg(format!("{}: {e}", path.display())))?;
+    let grid = table
+        .get("forcing")
+        .and_then(|f| f.as_table())
+        .is_some_and(|f| f.contains_key("files"));
+    Ok(if grid { Kind::Grid } else { Kind::Batch })
+}
+
 /// A validated `isodisc cluster-script`.
 #[derive(Debug, Clone)]
 pub struct ClusterScriptPlan {
+    kind: Kind,
     manifest: PathBuf,
     results: PathBuf,
     isodisc: PathBuf,
@@ -79,10 +104,11 @@ impl ClusterScriptPlan {
     pub fn from_args(a: &ClusterScriptArgs) -> Result<Self> {
         if !a.manifest.is_file() {
             return Err(Error::msg(format!(
-                "manifest {} not found",
+                "manifest or grid file {} not found",
                 a.manifest.display()
             )));
         }
+        let kind = kind_of(&a.manifest)?;
         if a.shards == 0 || a.shards > 100_000 {
             return Err(Error::msg(format!(
                 "--shards {}: use 1 to 100000",
@@ -124,15 +150,35 @@ impl ClusterScriptPlan {
         if let Some(n) = a.members {
             super::ensemble::check_members(n as usize)?;
         }
-        let sites = crate::ensemble::manifest::Manifest::load(&a.manifest)?
-            .sites
-            .len();
-        if a.shards as usize > sites {
+        let (units, what) = match kind {
+            Kind::Batch => (
+                crate::ensemble::manifest::Manifest::load(&a.manifest)?
+                    .sites
+                    .len(),
+                "site",
+            ),
+            Kind::Grid => {
+                if a.spec.is_some() || a.members.is_some() {
+                    return Err(Error::msg(format!(
+                        "{} is a grid file: --spec and --members apply to a batch manifest",
+                        a.manifest.display()
+                    )));
+                }
+                // Reads the grid's maps and time axes (not its weather) to count the blocks.
+                let grid = crate::grid::Grid::load(&a.manifest, None, None)?;
+                (grid.land.len().div_ceil(crate::grid::BLOCK_CELLS), "block")
+            }
+        };
+        if a.shards as usize > units {
+            let (file, nothing) = match kind {
+                Kind::Batch => ("the manifest", "no site"),
+                Kind::Grid => ("the grid", "no block"),
+            };
             return Err(Error::msg(format!(
-                "--shards {}: the manifest has {}; use at most {sites} shards (a shard with no \
-                 site would only queue an empty job)",
+                "--shards {}: {file} has {}; use at most {units} shards (a shard with {nothing} \
+                 would only queue an empty job)",
                 a.shards,
-                crate::output::plural(sites as u64, "site")
+                crate::output::plural(units as u64, what)
             )));
         }
         let isodisc = match &a.isodisc {
@@ -157,6 +203,7 @@ impl ClusterScriptPlan {
             check_shell_safe("--spec", &spec.display().to_string(), false)?;
         }
         Ok(Self {
+            kind,
             manifest,
             results,
             isodisc,
@@ -176,21 +223,25 @@ impl ClusterScriptPlan {
         let q = |p: &Path| shell_quote(&p.display().to_string());
         let mut s = String::new();
         let _ = writeln!(s, "#!/usr/bin/env bash");
+        let (what, of, done, input, name) = match self.kind {
+            Kind::Batch => ("batch", "manifest", "sites", "MANIFEST", "batch"),
+            Kind::Grid => ("grid", "grid file's cells", "blocks", "GRID", "grid"),
+        };
         let _ = writeln!(
             s,
-            "# Runs an isodisc batch on a Slurm cluster: an array job of {} tasks, one per shard of the\n\
-             # manifest, then a merge job that starts only if every task succeeded. Written by\n\
+            "# Runs an isodisc {what} on a Slurm cluster: an array job of {} tasks, one per shard of the\n\
+             # {of}, then a merge job that starts only if every task succeeded. Written by\n\
              # isodisc {} (`isodisc cluster-script`). Read it, adjust the resources, then submit with\n\
              #     bash {}\n\
              # It submits two jobs and returns at once; `squeue -u $USER` shows them. A shard that\n\
-             # fails can be re-run alone (`sbatch --array=K ...`): finished sites are skipped.",
+             # fails can be re-run alone (`sbatch --array=K ...`): finished {done} are skipped.",
             self.shards,
             env!("CARGO_PKG_VERSION"),
             self.out.display()
         );
         let _ = writeln!(s, "set -euo pipefail\n");
         let _ = writeln!(s, "ISODISC={}", q(&self.isodisc));
-        let _ = writeln!(s, "MANIFEST={}", q(&self.manifest));
+        let _ = writeln!(s, "{input}={}", q(&self.manifest));
         let _ = writeln!(
             s,
             "RESULTS={}        # shards in $RESULTS/shards, merged output in $RESULTS/merged",
@@ -223,21 +274,25 @@ impl ClusterScriptPlan {
             Some((spec, n, seed)) => format!(" --spec {} --members {n} --seed {seed}", q(spec)),
             None => String::new(),
         };
+        let (units, command) = match self.kind {
+            Kind::Batch => ("the sites", "batch \"$MANIFEST\""),
+            Kind::Grid => ("the blocks of cells", "grid \"$GRID\""),
+        };
         let _ = writeln!(
             s,
             "\nmkdir -p \"$RESULTS/logs\" \"$RESULTS/shards\"\n\n\
-             # Task K (1..SHARDS) runs the sites whose index mod SHARDS = K - 1; `--shard env` reads K and\n\
+             # Task K (1..SHARDS) runs {units} whose index mod SHARDS = K - 1; `--shard env` reads K and\n\
              # SHARDS from SLURM_ARRAY_TASK_ID and SLURM_ARRAY_TASK_COUNT.\n\
              array_job=$(sbatch --parsable <<EOF\n\
              #!/usr/bin/env bash\n\
-             #SBATCH --job-name=isodisc-batch\n\
+             #SBATCH --job-name=isodisc-{name}\n\
              #SBATCH --array=1-$SHARDS\n\
              #SBATCH --cpus-per-task=$THREADS\n\
              #SBATCH --mem=$MEM\n\
              #SBATCH --time=$TIME\n\
              #SBATCH --output=$RESULTS/logs/shard_%a.out{extra}\n\
              set -euo pipefail\n\
-             \"$ISODISC\" batch \"$MANIFEST\" --out \"$RESULTS/shards/shard_\\${{SLURM_ARRAY_TASK_ID}}\" --shard env --threads $THREADS --quiet{ensemble}\n\
+             \"$ISODISC\" {command} --out \"$RESULTS/shards/shard_\\${{SLURM_ARRAY_TASK_ID}}\" --shard env --threads $THREADS --quiet{ensemble}\n\
              EOF\n\
              )\n\
              array_job=${{array_job%%;*}}\n\n\

@@ -85,6 +85,12 @@ pub enum ForcingError {
         /// What is wrong and what is expected.
         problem: String,
     },
+    /// A NetCDF weather file that cannot be read or holds a bad value; the message names the
+    /// file, variable and index.
+    NetCdf {
+        /// What is wrong, where.
+        message: String,
+    },
     /// No step of the file falls between the requested `from` and `to`.
     EmptyPeriod {
         /// The file.
@@ -145,6 +151,7 @@ impl fmt::Display for ForcingError {
                     )
                 }
             }
+            ForcingError::NetCdf { message } => write!(f, "{message}"),
             ForcingError::EmptyPeriod { path, message } => {
                 write!(f, "{}: {message}", path.display())
             }

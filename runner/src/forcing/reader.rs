@@ -354,7 +354,72 @@ const WARN_MISSING_SHARE: f64 = 0.2;
 
 /// Reads a weather file step by step. Iterate it for `Result<ForcingStep, ForcingError>`; the
 /// iteration ends after the first error. Then [`ForcingReader::report`] says what was done.
+/// A CSV file streams through [`CsvReader`]; a NetCDF time series (recognised by its signature)
+/// is read whole by [`crate::netcdf_in::site`].
 pub struct ForcingReader {
+    inner: Inner,
+}
+
+enum Inner {
+    Csv(Box<CsvReader>),
+    /// The steps of a NetCDF file, read whole, and its report.
+    NetCdf(Box<(std::vec::IntoIter<ForcingStep>, ForcingReport)>),
+}
+
+impl ForcingReader {
+    /// Opens the weather file of `config` (its `path` relative to `site_dir`) and reads its header
+    /// (a NetCDF file: its steps). `elevation_m` (m above sea level, −500 to 9000) gives the
+    /// pressure when there is no pressure column. Steps starting before `from` (inclusive bound)
+    /// or at or after `to` (exclusive bound) are read for gap filling but not yielded; for an
+    /// inclusive end date pass the next midnight.
+    pub fn open(
+        config: &ForcingConfig,
+        site_dir: &Path,
+        elevation_m: f64,
+        from: Option<LocalTime>,
+        to: Option<LocalTime>,
+    ) -> Result<ForcingReader, ForcingError> {
+        let path = site_dir.join(&config.path);
+        let inner = if crate::netcdf_in::site::is_netcdf(&path) {
+            check_range("elevation_m", elevation_m, -500.0, 9000.0)?;
+            let (steps, report) =
+                crate::netcdf_in::site::read_site(config, site_dir, elevation_m, from, to)
+                    .map_err(|e| ForcingError::NetCdf { message: e.chain() })?;
+            Inner::NetCdf(Box::new((steps.into_iter(), report)))
+        } else {
+            Inner::Csv(Box::new(CsvReader::open(
+                config,
+                site_dir,
+                elevation_m,
+                from,
+                to,
+            )?))
+        };
+        Ok(ForcingReader { inner })
+    }
+
+    /// What the reader has done so far; complete once the iteration has ended.
+    pub fn report(&self) -> ForcingReport {
+        match &self.inner {
+            Inner::Csv(r) => r.report(),
+            Inner::NetCdf(nc) => nc.1.clone(),
+        }
+    }
+}
+
+impl Iterator for ForcingReader {
+    type Item = Result<ForcingStep, ForcingError>;
+
+    fn next(&mut self) -> Option<Self::Item> {
+        match &mut self.inner {
+            Inner::Csv(r) => r.next(),
+            Inner::NetCdf(nc) => nc.0.next().map(Ok),
+        }
+    }
+}
+
+/// The streaming CSV weather reader behind [`ForcingReader`].
+struct CsvReader {
     plan: Plan,
     path: PathBuf,
     csv: csv::Reader<Source>,
@@ -407,7 +472,7 @@ fn header_start(headers: &[String]) -> String {
     list.join(", ")
 }
 
-impl ForcingReader {
+impl CsvReader {
     /// Opens the weather file of `config` (its `path` relative to `site_dir`) and reads its header.
     /// `elevation_m` (m above sea level, −500 to 9000) gives the pressure when there is no pressure
     /// column. Steps starting before `from` (inclusive bound) or at or after `to` (exclusive bound)
@@ -418,7 +483,7 @@ impl ForcingReader {
         elevation_m: f64,
         from: Option<LocalTime>,
         to: Option<LocalTime>,
-    ) -> Result<ForcingReader, ForcingError> {
+    ) -> Result<CsvReader, ForcingError> {
         let plan = config.plan()?;
         check_range("elevation_m", elevation_m, -500.0, 9000.0)?;
         if let (Some(f), Some(t)) = (from, to)
@@ -701,7 +766,7 @@ impl ForcingReader {
             read: columns.iter().map(|c| c.var).collect(),
             ..ForcingReport::default()
         };
-        Ok(ForcingReader {
+        Ok(CsvReader {
             plan,
             path,
             csv,
@@ -1431,7 +1496,7 @@ impl ForcingReader {
     }
 }
 
-impl ForcingReader {
+impl CsvReader {
     /// At the end of a successful iteration: the period's overlap with the file, and warnings for
     /// drivers missing in much of the run.
     fn finish_report(&mut self) {
@@ -1563,7 +1628,7 @@ fn csv_error(path: &Path, e: csv::Error, line: u64) -> ForcingError {
     }
 }
 
-impl Iterator for ForcingReader {
+impl Iterator for CsvReader {
     type Item = Result<ForcingStep, ForcingError>;
 
     fn next(&mut self) -> Option<Self::Item> {

@@ -9,19 +9,27 @@ pub mod output;
 
 use std::collections::BTreeMap;
 use std::fmt::Write as _;
+use std::ops::Range;
 use std::path::{Path, PathBuf};
 
 use toml::{Table, Value};
 
 use crate::error::{Context, Error, Result};
 use crate::forcing::{LocalTime, Variable};
-use crate::netcdf_in::forcing::NcForcingConfig;
+use crate::netcdf_in::forcing::{NcForcingConfig, Window};
 use crate::netcdf_in::{GriddedForcing, read_map};
 use crate::simulate::{NoSink, period_col, simulate};
 use crate::site::Site;
 
 /// Land cells per block: the unit of resuming and sharding.
 pub const BLOCK_CELLS: usize = 32;
+
+/// Weather a grid run holds at once, bytes (common practice: a fraction of a workstation's
+/// memory; 256 MiB keeps a run's peak well under 1 GB whatever the grid's size).
+pub const WINDOW_BYTES: usize = 256 << 20;
+
+/// A window of weather to read (latitude and longitude index ranges) and the blocks it serves.
+pub type WindowPlan = (Range<usize>, Range<usize>, Vec<usize>);
 
 /// The monthly columns of a cell's run kept in a block file: what
 /// [`crate::priors_grid::MonthAggregate`] needs for the standard gridded priors.
@@ -454,12 +462,21 @@ impl Grid {
     /// [`Grid::months`] (NaN: no value).
     pub fn run_cell(&self, cell: usize) -> Result<Vec<f64>> {
         let (i, j) = self.position(cell);
+        let window = self.forcing.read_window(i..i + 1, j..j + 1)?;
+        self.run_cell_in(cell, &window)
+    }
+
+    /// [`Grid::run_cell`] with the weather from a window that holds the cell.
+    pub fn run_cell_in(&self, cell: usize, window: &Window) -> Result<Vec<f64>> {
+        let (i, j) = self.position(cell);
         let history = self.history.as_ref().map(|h| h.display().to_string());
         let text = self.site_text(cell, "weather.csv", history.as_deref())?;
         let virtual_path = self.path.with_file_name(format!("cell_{i}_{j}.toml"));
         let site = Site::from_text(&virtual_path, text)
             .with_context(|| format!("grid cell lat index {i}, lon index {j}"))?;
-        let steps = self.forcing.cell_steps(i, j, self.elevation_m(cell))?;
+        let steps = self
+            .forcing
+            .window_steps(window, i, j, self.elevation_m(cell))?;
         let sim = simulate(
             &site,
             steps.into_iter().map(Ok),
@@ -478,6 +495,42 @@ impl Grid {
             }
         }
         Ok(out)
+    }
+
+    /// The windows of weather that the blocks `blocks` (each a list of land cells, in order) are
+    /// run from, each with the indices of the blocks it serves: whole rows of the grid, as many
+    /// as [`WINDOW_BYTES`] holds (at least the rows of one block), or, where one block's rows do
+    /// not fit, the rectangle around that block's cells. Memory so follows the window, not the
+    /// grid.
+    pub fn windows(&self, blocks: &[(usize, &[usize])]) -> Vec<WindowPlan> {
+        let nlon = self.forcing.axes.lon.len();
+        let nlat = self.forcing.axes.lat.len();
+        let row_bytes = self.forcing.window_bytes(nlon).max(1);
+        let budget_rows = WINDOW_BYTES / row_bytes;
+        let mut out: Vec<WindowPlan> = Vec::new();
+        for (b, cells) in blocks {
+            let rows = |c: &usize| self.position(*c).0;
+            let r0 = cells.iter().map(rows).min().unwrap_or(0);
+            let r1 = cells.iter().map(rows).max().unwrap_or(0) + 1;
+            let c0 = cells.iter().map(|c| self.position(*c).1).min().unwrap_or(0);
+            let c1 = cells.iter().map(|c| self.position(*c).1).max().unwrap_or(0) + 1;
+            if let Some((lat, lon, list)) = out.last_mut()
+                && lat.start <= r0
+                && r1 <= lat.end
+                && lon.start <= c0
+                && c1 <= lon.end
+            {
+                list.push(*b);
+                continue;
+            }
+            if budget_rows >= r1 - r0 {
+                let end = (r0 + budget_rows).min(nlat);
+                out.push((r0..end, 0..nlon, vec![*b]));
+            } else {
+                out.push((r0..r1, c0..c1, vec![*b]));
+            }
+        }
+        out
     }
 
     fn month_index(&self, key: &str) -> Option<usize> {

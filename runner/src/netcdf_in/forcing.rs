@@ -7,13 +7,14 @@
 //! refused where the gap is; a `360_day` or `all_leap` date that the standard calendar lacks
 //! (30 February, 29 February 2001) is refused with its index.
 
+use std::ops::Range;
 use std::path::{Path, PathBuf};
 
 use isodisc_model::water::pressure_from_elevation_kpa;
 use serde::Deserialize;
 
 use super::cf_time::{Calendar, TimeUnits};
-use super::{GridAxes, attr_text, open, read_values, table_unit};
+use super::{GridAxes, NcIn, attr_text, dim_names, open, table_unit};
 use crate::error::{Error, Result};
 use crate::forcing::config::{N_VARIABLES, Plan};
 use crate::forcing::reader::vpd_from_humidity_kpa;
@@ -35,18 +36,46 @@ pub struct NcForcingConfig {
     pub ppfd_per_sw: Option<f64>,
 }
 
-/// One variable's values over the period: `[time][cell]` in the project's unit.
+/// One mapped variable over the period: where its steps are and how they convert.
 #[derive(Debug)]
 struct Series {
     var: Variable,
     /// NetCDF variable name.
     name: String,
-    /// Each file's first step within the period and the index of that step in the file.
-    sources: Vec<(PathBuf, usize, usize)>,
-    values: Vec<f32>,
+    /// Each file holding steps of the period: its path, the index within the period of its first
+    /// step used, the index of that step in the file, and the number of steps used.
+    sources: Vec<(PathBuf, usize, usize, usize)>,
+    /// To the project's unit: `value · scale + offset`.
+    scale: f64,
+    offset: f64,
 }
 
-/// Gridded weather over a period, every mapped variable in memory (4 bytes per value).
+/// The weather of a rectangle of cells over the whole period, in the project's units (4 bytes per
+/// value): what [`GriddedForcing::read_window`] reads and [`GriddedForcing::window_steps`] uses.
+#[derive(Debug)]
+pub struct Window {
+    /// Latitude and longitude indices held.
+    pub lat: Range<usize>,
+    pub lon: Range<usize>,
+    /// Per series, `[time][lat][lon]` within the window.
+    values: Vec<Vec<f32>>,
+}
+
+impl Window {
+    /// True when the window holds cell (`ilat`, `ilon`).
+    pub fn holds(&self, ilat: usize, ilon: usize) -> bool {
+        self.lat.contains(&ilat) && self.lon.contains(&ilon)
+    }
+
+    /// Bytes of weather held.
+    pub fn bytes(&self) -> usize {
+        self.values.iter().map(|v| v.len() * 4).sum()
+    }
+}
+
+/// Gridded weather over a period: the files, their time axis and the variables' mapping. Values
+/// are read by windows of cells ([`GriddedForcing::read_window`]), so memory follows the window,
+/// not the grid.
 #[derive(Debug)]
 pub struct GriddedForcing {
     /// The grid.
@@ -62,23 +91,24 @@ pub struct GriddedForcing {
 }
 
 /// One file's time axis.
-struct FileTimes {
-    path: PathBuf,
-    times: Vec<LocalTime>,
-    time_dim: String,
-    calendar: Calendar,
+pub(super) struct FileTimes {
+    pub path: PathBuf,
+    pub times: Vec<LocalTime>,
+    pub time_dim: String,
+    pub calendar: Calendar,
 }
 
 /// The time coordinate of a file: the 1-D variable named `time`, or with `standard_name = "time"`
 /// or `axis = "T"`.
-fn read_times(reader: &mut netcdf3::FileReader, path: &Path) -> Result<FileTimes> {
+pub(super) fn read_times(reader: &NcIn) -> Result<FileTimes> {
+    let path = reader.path();
     let name = {
-        let vars = reader.data_set().get_vars();
+        let vars = reader.variables();
         vars.iter()
-            .find(|v| v.num_dims() == 1 && v.name() == "time")
+            .find(|v| v.ndim() == 1 && v.name() == "time")
             .or_else(|| {
                 vars.iter().find(|v| {
-                    v.num_dims() == 1
+                    v.ndim() == 1
                         && (attr_text(v, "standard_name").as_deref() == Some("time")
                             || attr_text(v, "axis").as_deref() == Some("T"))
                 })
@@ -92,8 +122,8 @@ fn read_times(reader: &mut netcdf3::FileReader, path: &Path) -> Result<FileTimes
                 ))
             })?
     };
-    let var = reader.data_set().get_var(&name).expect("found above");
-    let time_dim = var.dim_names().remove(0);
+    let var = reader.var(&name)?;
+    let time_dim = dim_names(var).remove(0);
     let units = attr_text(var, "units").ok_or_else(|| {
         Error::msg(format!(
             "{}, variable `{name}`: no units attribute (CF: \"hours since 2001-01-01 00:00\")",
@@ -104,7 +134,7 @@ fn read_times(reader: &mut netcdf3::FileReader, path: &Path) -> Result<FileTimes
         .map_err(|e| Error::msg(format!("{}, variable `{name}`: {e}", path.display())))?;
     let units = TimeUnits::parse(&units, calendar)
         .map_err(|e| Error::msg(format!("{}, variable `{name}`: {e}", path.display())))?;
-    let values = read_values(reader, path, &name)?;
+    let values = reader.read_values(&name)?;
     let mut times = Vec::with_capacity(values.len());
     for (i, v) in values.into_iter().enumerate() {
         let at = |why: String| {
@@ -156,18 +186,18 @@ impl GriddedForcing {
         let mut files: Vec<(FileTimes, Vec<String>)> = Vec::new();
         for f in &config.files {
             let path = base.join(f);
-            let mut reader = open(&path)?;
-            let a = GridAxes::read(&mut reader, &path)?;
+            let reader = open(&path)?;
+            let a = GridAxes::read(&reader)?;
             match &axes {
                 None => axes = Some(a.clone()),
                 Some(first) => first.check_same(&a, "forcing")?,
             }
-            let times = read_times(&mut reader, &path)?;
-            let names = reader.data_set().get_var_names();
+            let times = read_times(&reader)?;
+            let names = reader.var_names();
             // Every mapped variable's dimensions are (time, lat, lon).
             for (_, name) in mapped(&config.variables) {
-                if let Some(var) = reader.data_set().get_var(name) {
-                    let dims = var.dim_names();
+                if let Some(var) = reader.variables().iter().find(|v| v.name == name) {
+                    let dims = dim_names(var);
                     let want = [times.time_dim.as_str(), &a.lat_dim, &a.lon_dim];
                     if dims != want {
                         return Err(Error::msg(format!(
@@ -291,39 +321,8 @@ impl GriddedForcing {
         // Units: the grid file's, else the attribute, as the CSV reader's table names them.
         let mut units = PerVariable::<String>::default();
         for (v, name, holding) in &parts {
-            let first = &files[holding[0]].0.path;
-            let unit = match config.units.get(*v) {
-                Some(u) => u.clone(),
-                None => {
-                    let reader = open(first)?;
-                    let var = reader.data_set().get_var(name).expect("checked above");
-                    let u = attr_text(var, "units").ok_or_else(|| {
-                        Error::msg(format!(
-                            "{}, variable `{name}`: no units attribute; set forcing.units.{} in \
-                             the grid file",
-                            first.display(),
-                            v.name()
-                        ))
-                    })?;
-                    let table = table_unit(*v, &u);
-                    if !v.accepted_units().iter().any(|(n, ..)| *n == table) {
-                        let list: Vec<String> = v
-                            .accepted_units()
-                            .iter()
-                            .map(|(n, ..)| format!("\"{n}\""))
-                            .collect();
-                        return Err(Error::msg(format!(
-                            "{}, variable `{name}`: units \"{u}\" cannot be converted to {} ({}); \
-                             isodisc knows {}",
-                            first.display(),
-                            v.name(),
-                            v.project_unit(),
-                            list.join(", ")
-                        )));
-                    }
-                    table
-                }
-            };
+            let reader = open(&files[holding[0]].0.path)?;
+            let unit = resolve_unit(&reader, *v, name, config.units.get(*v), "grid file")?;
             *units.slot(*v) = Some(unit);
         }
         let plan = ForcingConfig {
@@ -346,13 +345,11 @@ impl GriddedForcing {
                 times[times.len() - 1]
             )));
         }
-        let ncell = axes.cells();
         let mut series = Vec::new();
         for (v, name, holding) in parts {
             let Some(m) = plan.mappings[v.index()].as_ref() else {
                 continue; // a humidity variable not in use
             };
-            let mut values = vec![f32::NAN; (t1 - t0) * ncell];
             let mut sources = Vec::new();
             let mut start = 0;
             for k in holding {
@@ -360,14 +357,7 @@ impl GriddedForcing {
                 let n = ft.times.len();
                 let (lo, hi) = (start.max(t0), (start + n).min(t1));
                 if lo < hi {
-                    let mut reader = open(&ft.path)?;
-                    let raw = read_values(&mut reader, &ft.path, &name)?;
-                    let src = &raw[(lo - start) * ncell..(hi - start) * ncell];
-                    let dst = &mut values[(lo - t0) * ncell..(hi - t0) * ncell];
-                    for (d, s) in dst.iter_mut().zip(src) {
-                        *d = (s * m.scale + m.offset) as f32;
-                    }
-                    sources.push((ft.path.clone(), lo - t0, lo - start));
+                    sources.push((ft.path.clone(), lo - t0, lo - start, hi - lo));
                 }
                 start += n;
             }
@@ -375,7 +365,8 @@ impl GriddedForcing {
                 var: v,
                 name,
                 sources,
-                values,
+                scale: m.scale,
+                offset: m.offset,
             });
         }
         Ok(GriddedForcing {
@@ -388,9 +379,38 @@ impl GriddedForcing {
         })
     }
 
-    /// Index of a cell in `[lat][lon]` order.
-    pub fn cell_index(&self, ilat: usize, ilon: usize) -> usize {
-        ilat * self.axes.lon.len() + ilon
+    /// Bytes a window of `cells` cells holds (every variable, every step, 4 bytes a value).
+    pub fn window_bytes(&self, cells: usize) -> usize {
+        cells * self.times.len() * self.series.len() * 4
+    }
+
+    /// Reads the weather of the cells `lat` × `lon` over the whole period: one hyperslab per
+    /// variable and file, converted to the project's units.
+    pub fn read_window(&self, lat: Range<usize>, lon: Range<usize>) -> Result<Window> {
+        let ncell = lat.len() * lon.len();
+        let mut values = Vec::with_capacity(self.series.len());
+        for s in &self.series {
+            let mut out = vec![f32::NAN; self.times.len() * ncell];
+            for (path, first, local, count) in &s.sources {
+                let reader = open(path)?;
+                let mut dst = out[first * ncell..(first + count) * ncell].iter_mut();
+                reader.read_slab_with(
+                    &s.name,
+                    &[
+                        Some(*local..local + count),
+                        Some(lat.clone()),
+                        Some(lon.clone()),
+                    ],
+                    |x| {
+                        if let Some(d) = dst.next() {
+                            *d = (x * s.scale + s.offset) as f32;
+                        }
+                    },
+                )?;
+            }
+            values.push(out);
+        }
+        Ok(Window { lat, lon, values })
     }
 
     /// The weather variables read, with their NetCDF names.
@@ -412,88 +432,47 @@ impl GriddedForcing {
         ilon: usize,
         elevation_m: f64,
     ) -> Result<Vec<ForcingStep>> {
-        let cell = self.cell_index(ilat, ilon);
-        let ncell = self.axes.cells();
+        let window = self.read_window(ilat..ilat + 1, ilon..ilon + 1)?;
+        self.window_steps(&window, ilat, ilon, elevation_m)
+    }
+
+    /// [`GriddedForcing::cell_steps`] from a window that holds the cell.
+    pub fn window_steps(
+        &self,
+        window: &Window,
+        ilat: usize,
+        ilon: usize,
+        elevation_m: f64,
+    ) -> Result<Vec<ForcingStep>> {
+        assert!(window.holds(ilat, ilon), "the window holds the cell");
+        let ncell = window.lat.len() * window.lon.len();
+        let cell = (ilat - window.lat.start) * window.lon.len() + (ilon - window.lon.start);
         let pressure_default = pressure_from_elevation_kpa(elevation_m);
-        let k = self.plan.ppfd_per_sw;
         let mut out = Vec::with_capacity(self.times.len());
         let mut values = [f64::NAN; N_VARIABLES];
         for (t, time) in self.times.iter().enumerate() {
-            for s in &self.series {
-                let v = f64::from(s.values[t * ncell + cell]);
-                let (lo, hi) = s.var.valid_range();
-                let value = match s.var {
-                    // Night-time offsets down to −50 W m⁻² are 0, as the CSV reader does.
-                    Variable::Sw if (-50.0..0.0).contains(&v) => 0.0,
-                    Variable::Ppfd if (-50.0 * k..0.0).contains(&v) => 0.0,
-                    _ => v,
-                };
-                if !(lo..=hi).contains(&value) {
+            for (s, series) in self.series.iter().zip(&window.values) {
+                let v = f64::from(series[t * ncell + cell]);
+                values[s.var.index()] = checked(&self.plan, s.var, v).map_err(|why| {
                     let (path, local) = self.source(s, t);
-                    let why = if value.is_nan() {
-                        "no value (a fill or missing value); gridded weather must be complete \
-                         over land cells"
-                            .to_string()
-                    } else {
-                        format!(
-                            "{} = {value:.3} {} is outside its valid range {lo}…{hi} {}",
-                            s.var.name(),
-                            s.var.project_unit(),
-                            s.var.project_unit()
-                        )
-                    };
-                    return Err(Error::msg(format!(
+                    Error::msg(format!(
                         "{}, variable `{}`, time index {local} ({time}), lat index {ilat} ({}°), \
-                         lon index {ilon} ({}°): {why}",
+                         lon index {ilon} ({}°): {why}; gridded weather must be complete over \
+                         cells with vegetation",
                         path.display(),
                         s.name,
                         self.axes.lat[ilat],
                         self.axes.lon[ilon]
-                    )));
-                }
-                values[s.var.index()] = value;
+                    ))
+                })?;
             }
-            let get = |v: Variable| values[v.index()];
-            let mapped = |v: Variable| self.plan.mappings[v.index()].is_some();
-            let t_air_c = get(Variable::TAir);
-            let pressure_kpa = if mapped(Variable::Pressure) {
-                get(Variable::Pressure)
-            } else {
-                pressure_default
-            };
-            let vpd_kpa = vpd_from_humidity_kpa(
-                self.plan.humidity,
-                t_air_c,
-                get(self.plan.humidity),
-                pressure_kpa,
-            );
-            let (sw_w_m2, ppfd_umol_m2_s) = match (mapped(Variable::Sw), mapped(Variable::Ppfd)) {
-                (true, true) => (get(Variable::Sw), get(Variable::Ppfd)),
-                (true, false) => (get(Variable::Sw), get(Variable::Sw) * k),
-                _ => (get(Variable::Ppfd) / k, get(Variable::Ppfd)),
-            };
-            let optional = |v: Variable| mapped(v).then(|| get(v));
-            out.push(ForcingStep {
-                time: *time,
-                line: t as u64 + 1,
-                t_air_c,
-                vpd_kpa,
-                sw_w_m2,
-                ppfd_umol_m2_s,
-                pressure_kpa,
-                precip_mm: if mapped(Variable::Precip) {
-                    get(Variable::Precip)
-                } else {
-                    0.0
-                },
-                co2_umol_mol: optional(Variable::Co2),
-                swc_m3_m3: optional(Variable::Swc),
-                lai: optional(Variable::Lai),
-                d13c_co2_permil: optional(Variable::D13cCo2),
-                wind_m_s: optional(Variable::Wind),
-                filled: false,
-                missing: false,
-            });
+            out.push(assemble(
+                &self.plan,
+                &values,
+                *time,
+                t as u64 + 1,
+                pressure_default,
+            ));
         }
         Ok(out)
     }
@@ -502,16 +481,129 @@ impl GriddedForcing {
     fn source<'a>(&self, s: &'a Series, t: usize) -> (&'a Path, usize) {
         let k = s
             .sources
-            .partition_point(|(_, first, _)| *first <= t)
+            .partition_point(|(_, first, ..)| *first <= t)
             .max(1)
             - 1;
-        let (path, first, local) = &s.sources[k];
+        let (path, first, local, _) = &s.sources[k];
         (path, local + (t - first))
     }
 }
 
+/// A value in the project's unit checked against its variable's valid range, as the CSV reader
+/// checks it: night-time radiation offsets down to −50 W m⁻² are 0; the error says why.
+pub(super) fn checked(plan: &Plan, var: Variable, v: f64) -> std::result::Result<f64, String> {
+    let k = plan.ppfd_per_sw;
+    let (lo, hi) = var.valid_range();
+    let value = match var {
+        Variable::Sw if (-50.0..0.0).contains(&v) => 0.0,
+        Variable::Ppfd if (-50.0 * k..0.0).contains(&v) => 0.0,
+        _ => v,
+    };
+    if (lo..=hi).contains(&value) {
+        Ok(value)
+    } else if value.is_nan() {
+        Err("no value (a fill or missing value)".into())
+    } else {
+        Err(format!(
+            "{} = {value:.3} {} is outside its valid range {lo}…{hi} {}",
+            var.name(),
+            var.project_unit(),
+            var.project_unit()
+        ))
+    }
+}
+
+/// One step from checked values (`values[variable index]`, project units), as the CSV reader
+/// builds it: VPD from the humidity variable, PPFD from shortwave (or the reverse), pressure from
+/// the elevation (`pressure_default`, kPa) where none is mapped, precipitation 0 where none is.
+pub(super) fn assemble(
+    plan: &Plan,
+    values: &[f64; N_VARIABLES],
+    time: LocalTime,
+    line: u64,
+    pressure_default: f64,
+) -> ForcingStep {
+    let k = plan.ppfd_per_sw;
+    let get = |v: Variable| values[v.index()];
+    let mapped = |v: Variable| plan.mappings[v.index()].is_some();
+    let t_air_c = get(Variable::TAir);
+    let pressure_kpa = if mapped(Variable::Pressure) {
+        get(Variable::Pressure)
+    } else {
+        pressure_default
+    };
+    let vpd_kpa = vpd_from_humidity_kpa(plan.humidity, t_air_c, get(plan.humidity), pressure_kpa);
+    let (sw_w_m2, ppfd_umol_m2_s) = match (mapped(Variable::Sw), mapped(Variable::Ppfd)) {
+        (true, true) => (get(Variable::Sw), get(Variable::Ppfd)),
+        (true, false) => (get(Variable::Sw), get(Variable::Sw) * k),
+        _ => (get(Variable::Ppfd) / k, get(Variable::Ppfd)),
+    };
+    let optional = |v: Variable| mapped(v).then(|| get(v));
+    ForcingStep {
+        time,
+        line,
+        t_air_c,
+        vpd_kpa,
+        sw_w_m2,
+        ppfd_umol_m2_s,
+        pressure_kpa,
+        precip_mm: if mapped(Variable::Precip) {
+            get(Variable::Precip)
+        } else {
+            0.0
+        },
+        co2_umol_mol: optional(Variable::Co2),
+        swc_m3_m3: optional(Variable::Swc),
+        lai: optional(Variable::Lai),
+        d13c_co2_permil: optional(Variable::D13cCo2),
+        wind_m_s: optional(Variable::Wind),
+        filled: false,
+        missing: false,
+    }
+}
+
+/// A variable's unit as the forcing unit table names it: `override_unit` (the `units` table of
+/// the settings) or else its `units` attribute; an error names the file, variable and unit when
+/// the table has no conversion for it.
+pub(super) fn resolve_unit(
+    reader: &NcIn,
+    v: Variable,
+    name: &str,
+    override_unit: Option<&String>,
+    settings_file: &str,
+) -> Result<String> {
+    if let Some(u) = override_unit {
+        return Ok(u.clone());
+    }
+    let path = reader.path();
+    let var = reader.var(name)?;
+    let u = attr_text(var, "units").ok_or_else(|| {
+        Error::msg(format!(
+            "{}, variable `{name}`: no units attribute; set forcing.units.{} in the {settings_file}",
+            path.display(),
+            v.name()
+        ))
+    })?;
+    let table = table_unit(v, &u);
+    if !v.accepted_units().iter().any(|(n, ..)| *n == table) {
+        let list: Vec<String> = v
+            .accepted_units()
+            .iter()
+            .map(|(n, ..)| format!("\"{n}\""))
+            .collect();
+        return Err(Error::msg(format!(
+            "{}, variable `{name}`: units \"{u}\" cannot be converted to {} ({}); isodisc knows {}",
+            path.display(),
+            v.name(),
+            v.project_unit(),
+            list.join(", ")
+        )));
+    }
+    Ok(table)
+}
+
 /// The mapped (variable, NetCDF name) pairs.
-fn mapped(variables: &PerVariable<String>) -> Vec<(Variable, &str)> {
+pub(super) fn mapped(variables: &PerVariable<String>) -> Vec<(Variable, &str)> {
     Variable::ALL
         .into_iter()
         .filter_map(|v| variables.get(v).map(|n| (v, n.trim())))

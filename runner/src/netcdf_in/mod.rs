@@ -1,8 +1,10 @@
 //! Gridded weather and maps from NetCDF files that follow the CF conventions (1.8).
 //!
-//! Files are read with the pure-Rust `netcdf3` crate: NetCDF classic (CDF-1) and 64-bit offset
-//! (CDF-2). A NetCDF-4 (HDF5) file is recognised by its signature and refused with the command
-//! that converts it; see docs/grid.md for why.
+//! Files are read with the pure-Rust `netcdf-reader` crate: NetCDF classic (CDF-1), 64-bit offset
+//! (CDF-2), 64-bit data (CDF-5) and NetCDF-4 (HDF5; chunked and deflate- or shuffle-filtered
+//! variables too). Classic files are memory-mapped; every read is a hyperslab, so a grid run holds
+//! only the cells it is running (see [`forcing::GriddedForcing::read_window`]). Only the root group
+//! of a NetCDF-4 file is read.
 //!
 //! What is applied, in CF order (CF 1.8, section 8.1): values equal to `_FillValue` or
 //! `missing_value` (compared in the stored type) become NaN, then `value · scale_factor +
@@ -13,189 +15,235 @@
 
 pub mod cf_time;
 pub mod forcing;
+pub mod site;
 
+use std::ops::Range;
 use std::path::{Path, PathBuf};
 
-use netcdf3::{DataVector, FileReader, Variable as NcVariable};
+use netcdf_reader::{NcFile, NcFormat, NcSliceInfo, NcSliceInfoElem, NcType, NcVariable};
 
 use crate::error::{Error, Result};
 
 pub use forcing::GriddedForcing;
 
-/// Opens a NetCDF classic file, refusing NetCDF-4/HDF5 and CDF-5 with a message that says what
-/// the file is.
-pub fn open(path: &Path) -> Result<FileReader> {
-    let mut magic = [0u8; 4];
-    let read = std::fs::File::open(path).and_then(|mut f| {
-        use std::io::Read;
-        f.read_exact(&mut magic)
-    });
-    if let Err(e) = read {
-        return Err(Error::msg(format!("cannot read {}: {e}", path.display())));
+/// An open NetCDF file and its path (for messages).
+pub struct NcIn {
+    file: NcFile,
+    path: PathBuf,
+}
+
+impl std::fmt::Debug for NcIn {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "NcIn({})", self.path.display())
     }
-    match &magic {
-        b"CDF\x01" | b"CDF\x02" => {}
-        b"\x89HDF" => {
-            return Err(Error::msg(format!(
-                "{}: a NetCDF-4/HDF5 file; isodisc reads NetCDF classic files (CDF-1, CDF-2) \
-                 with a pure-Rust reader: convert it with `nccopy -k 64-bit-offset IN OUT` (or \
-                 xarray: to_netcdf(OUT, format=\"NETCDF3_64BIT\"))",
-                path.display()
-            )));
-        }
-        b"CDF\x05" => {
-            return Err(Error::msg(format!(
-                "{}: a CDF-5 (64-bit data) file; isodisc reads NetCDF classic files (CDF-1, \
-                 CDF-2): convert it with `nccopy -k 64-bit-offset IN OUT`",
-                path.display()
-            )));
-        }
-        _ => {
-            return Err(Error::msg(format!(
-                "{}: not a NetCDF file (it does not start with the NetCDF signature)",
-                path.display()
-            )));
-        }
-    }
-    FileReader::open(path).map_err(|e| {
-        Error::msg(format!(
-            "{}: the NetCDF header cannot be read ({e:?})",
+}
+
+/// Opens a NetCDF file of any format (classic, 64-bit offset, 64-bit data, NetCDF-4).
+pub fn open(path: &Path) -> Result<NcIn> {
+    let file = NcFile::open(path).map_err(|e| match e {
+        netcdf_reader::Error::InvalidMagic => Error::msg(format!(
+            "{}: not a NetCDF file (it does not start with the NetCDF or HDF5 signature)",
             path.display()
-        ))
+        )),
+        netcdf_reader::Error::Io(e) => Error::msg(format!("cannot read {}: {e}", path.display())),
+        e => Error::msg(format!(
+            "{}: the NetCDF header cannot be read ({e})",
+            path.display()
+        )),
+    })?;
+    Ok(NcIn {
+        file,
+        path: path.to_path_buf(),
+    })
+}
+
+impl NcIn {
+    /// The file's path.
+    pub fn path(&self) -> &Path {
+        &self.path
+    }
+
+    /// The file's format, as the NetCDF user guide names it.
+    pub fn format_name(&self) -> &'static str {
+        match self.file.format() {
+            NcFormat::Classic => "NetCDF classic",
+            NcFormat::Offset64 => "NetCDF 64-bit offset",
+            NcFormat::Cdf5 => "NetCDF 64-bit data (CDF-5)",
+            NcFormat::Nc4 => "NetCDF-4",
+            NcFormat::Nc4Classic => "NetCDF-4 classic model",
+        }
+    }
+
+    /// The variables of the root group.
+    pub fn variables(&self) -> &[NcVariable] {
+        self.file.variables().unwrap_or(&[])
+    }
+
+    /// Names of the variables of the root group.
+    pub fn var_names(&self) -> Vec<String> {
+        self.variables().iter().map(|v| v.name.clone()).collect()
+    }
+
+    /// A variable, or "no variable `x`" with the file's variables listed.
+    pub fn var(&self, name: &str) -> Result<&NcVariable> {
+        self.variables()
+            .iter()
+            .find(|v| v.name == name)
+            .ok_or_else(|| {
+                Error::msg(format!(
+                    "{}: no variable `{name}` (the file has {})",
+                    self.path.display(),
+                    self.var_names()
+                        .iter()
+                        .map(|n| format!("`{n}`"))
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                ))
+            })
+    }
+
+    /// Every value of a variable as numbers: fill and missing values NaN, packing undone.
+    pub fn read_values(&self, name: &str) -> Result<Vec<f64>> {
+        let ndim = self.var(name)?.ndim();
+        self.read_slab(name, &vec![None; ndim])
+    }
+
+    /// A hyperslab of a variable, `[first dim][…][last dim]` in file order (index ranges per
+    /// dimension; None: the whole dimension), with fill values NaN and packing undone.
+    pub fn read_slab(&self, name: &str, ranges: &[Option<Range<usize>>]) -> Result<Vec<f64>> {
+        let mut out = Vec::new();
+        self.read_slab_with(name, ranges, |x| out.push(x))?;
+        Ok(out)
+    }
+
+    /// [`NcIn::read_slab`], each value handed to `put` in order instead of collected: float
+    /// variables are read as f32, so a slab costs 4 bytes a value while it is decoded.
+    pub fn read_slab_with(
+        &self,
+        name: &str,
+        ranges: &[Option<Range<usize>>],
+        mut put: impl FnMut(f64),
+    ) -> Result<()> {
+        let var = self.var(name)?;
+        let selection = NcSliceInfo {
+            selections: ranges
+                .iter()
+                .zip(var.dimensions())
+                .map(|(r, d)| {
+                    let r = r.clone().unwrap_or(0..d.size as usize);
+                    NcSliceInfoElem::Slice {
+                        start: r.start as u64,
+                        end: r.end as u64,
+                        step: 1,
+                    }
+                })
+                .collect(),
+        };
+        let cannot = |e: netcdf_reader::Error| {
+            Error::msg(format!(
+                "{}, variable `{name}`: cannot be read ({e})",
+                self.path.display()
+            ))
+        };
+        let scale = attr_number(var, "scale_factor").unwrap_or(1.0);
+        let offset = attr_number(var, "add_offset").unwrap_or(0.0);
+        let mut codes = attr_numbers(var, "_FillValue");
+        // Without a _FillValue attribute, the library's default fill of the type marks unwritten
+        // values (NetCDF user guide, "Fill Values").
+        if codes.is_empty()
+            && let Some(f) = default_fill(&var.dtype)
+        {
+            codes.push(f);
+        }
+        codes.extend(attr_numbers(var, "missing_value"));
+        let unpack = |raw: f64| {
+            if raw.is_nan() || codes.contains(&raw) {
+                f64::NAN
+            } else {
+                raw * scale + offset
+            }
+        };
+        if var.dtype == NcType::Float {
+            // Float fill values compare in the stored type: an f32 1e20 is not the f64 1e20.
+            let codes32: Vec<f32> = codes.iter().map(|c| *c as f32).collect();
+            // Chunks of a NetCDF-4 variable are decompressed in parallel (rayon's pool).
+            let data = self
+                .file
+                .read_variable_slice_parallel::<f32>(name, &selection)
+                .map_err(cannot)?;
+            for &x in data.iter() {
+                put(if x.is_nan() || codes32.contains(&x) {
+                    f64::NAN
+                } else {
+                    f64::from(x) * scale + offset
+                });
+            }
+        } else {
+            let data = self
+                .file
+                .read_variable_slice_as_f64(name, &selection)
+                .map_err(cannot)?;
+            for &x in data.iter() {
+                put(unpack(x));
+            }
+        }
+        Ok(())
+    }
+}
+
+/// The default fill value of a numeric type (NetCDF user guide, "Fill Values": `NC_FILL_*`).
+fn default_fill(t: &NcType) -> Option<f64> {
+    Some(match t {
+        NcType::Byte => f64::from(netcdf3::NC_FILL_I8),
+        NcType::Short => f64::from(netcdf3::NC_FILL_I16),
+        NcType::Int => f64::from(netcdf3::NC_FILL_I32),
+        NcType::Float => f64::from(netcdf3::NC_FILL_F32),
+        NcType::Double => netcdf3::NC_FILL_F64,
+        NcType::UByte => 255.0,
+        NcType::UShort => 65535.0,
+        NcType::UInt => 4294967295.0,
+        NcType::Int64 => -9223372036854775806.0,
+        NcType::UInt64 => 18446744073709551614.0,
+        _ => return None,
     })
 }
 
 /// A text attribute of a variable.
 pub fn attr_text(var: &NcVariable, name: &str) -> Option<String> {
-    var.get_attr(name).and_then(|a| a.get_as_string())
+    var.attribute(name).and_then(|a| a.value.as_string())
 }
 
 /// The first value of a numeric attribute of a variable, whatever its type.
 pub fn attr_number(var: &NcVariable, name: &str) -> Option<f64> {
-    let a = var.get_attr(name)?;
-    a.get_f64()
-        .and_then(|v| v.first().copied())
-        .or_else(|| a.get_f32().and_then(|v| v.first().map(|x| f64::from(*x))))
-        .or_else(|| a.get_i32().and_then(|v| v.first().map(|x| f64::from(*x))))
-        .or_else(|| a.get_i16().and_then(|v| v.first().map(|x| f64::from(*x))))
-        .or_else(|| a.get_i8().and_then(|v| v.first().map(|x| f64::from(*x))))
-        .or_else(|| a.get_u8().and_then(|v| v.first().map(|x| f64::from(*x))))
+    var.attribute(name).and_then(|a| a.value.as_f64())
 }
 
 /// Every value of a numeric attribute, whatever its type.
 fn attr_numbers(var: &NcVariable, name: &str) -> Vec<f64> {
-    let Some(a) = var.get_attr(name) else {
-        return Vec::new();
-    };
-    if let Some(v) = a.get_f64() {
-        return v.to_vec();
-    }
-    if let Some(v) = a.get_f32() {
-        return v.iter().map(|x| f64::from(*x)).collect();
-    }
-    if let Some(v) = a.get_i32() {
-        return v.iter().map(|x| f64::from(*x)).collect();
-    }
-    if let Some(v) = a.get_i16() {
-        return v.iter().map(|x| f64::from(*x)).collect();
-    }
-    if let Some(v) = a.get_i8() {
-        return v.iter().map(|x| f64::from(*x)).collect();
-    }
-    a.get_u8()
-        .map(|v| v.iter().map(|x| f64::from(*x)).collect())
+    var.attribute(name)
+        .and_then(|a| a.value.as_f64_vec())
         .unwrap_or_default()
 }
 
-/// The values of a variable as numbers: fill and missing values NaN, packing undone.
-pub fn read_values(reader: &mut FileReader, path: &Path, name: &str) -> Result<Vec<f64>> {
-    let var = reader
-        .data_set()
-        .get_var(name)
-        .ok_or_else(|| missing_variable(reader, path, name))?;
-    let scale = attr_number(var, "scale_factor").unwrap_or(1.0);
-    let offset = attr_number(var, "add_offset").unwrap_or(0.0);
-    let fill = attr_numbers(var, "_FillValue");
-    let has_fill = !fill.is_empty();
-    let mut codes = fill;
-    codes.extend(attr_numbers(var, "missing_value"));
-    let data = reader.read_var(name).map_err(|e| {
-        Error::msg(format!(
-            "{}, variable `{name}`: cannot be read ({e:?})",
-            path.display()
-        ))
-    })?;
-    // Without a _FillValue attribute, the library's default fill of the type marks unwritten
-    // values (NetCDF user guide, "Fill Values").
-    let default_fill = match &data {
-        DataVector::I8(_) => f64::from(netcdf3::NC_FILL_I8),
-        DataVector::U8(_) => f64::from(netcdf3::NC_FILL_U8),
-        DataVector::I16(_) => f64::from(netcdf3::NC_FILL_I16),
-        DataVector::I32(_) => f64::from(netcdf3::NC_FILL_I32),
-        DataVector::F32(_) => f64::from(netcdf3::NC_FILL_F32),
-        DataVector::F64(_) => netcdf3::NC_FILL_F64,
-    };
-    if !has_fill {
-        codes.push(default_fill);
-    }
-    let unpack = |raw: f64| {
-        if raw.is_nan() || codes.contains(&raw) {
-            f64::NAN
-        } else {
-            raw * scale + offset
-        }
-    };
-    // Float fill values compare in the stored type: an f32 1e20 is not the f64 1e20.
-    let values = match data {
-        DataVector::I8(v) => v.into_iter().map(|x| unpack(f64::from(x))).collect(),
-        DataVector::U8(v) => v.into_iter().map(|x| unpack(f64::from(x))).collect(),
-        DataVector::I16(v) => v.into_iter().map(|x| unpack(f64::from(x))).collect(),
-        DataVector::I32(v) => v.into_iter().map(|x| unpack(f64::from(x))).collect(),
-        DataVector::F32(v) => {
-            let codes32: Vec<f32> = codes.iter().map(|c| *c as f32).collect();
-            v.into_iter()
-                .map(|x| {
-                    if x.is_nan() || codes32.contains(&x) {
-                        f64::NAN
-                    } else {
-                        f64::from(x) * scale + offset
-                    }
-                })
-                .collect()
-        }
-        DataVector::F64(v) => v.into_iter().map(unpack).collect(),
-    };
-    Ok(values)
-}
-
-/// "no variable `x`" with the file's variables listed.
-fn missing_variable(reader: &FileReader, path: &Path, name: &str) -> Error {
-    let names = reader.data_set().get_var_names();
-    Error::msg(format!(
-        "{}: no variable `{name}` (the file has {})",
-        path.display(),
-        names
-            .iter()
-            .map(|n| format!("`{n}`"))
-            .collect::<Vec<_>>()
-            .join(", ")
-    ))
+/// Dimension names of a variable.
+pub fn dim_names(var: &NcVariable) -> Vec<String> {
+    var.dimensions().iter().map(|d| d.name.clone()).collect()
 }
 
 /// Names of the latitude and longitude coordinate variables (CF 1.8, section 4.1–4.2: units
 /// `degrees_north`/`degrees_east`, else the names `lat`/`latitude` and `lon`/`longitude`).
-pub fn lat_lon_names(reader: &FileReader, path: &Path) -> Result<(String, String)> {
-    let vars = reader.data_set().get_vars();
+pub fn lat_lon_names(reader: &NcIn) -> Result<(String, String)> {
+    let vars = reader.variables();
     let find = |units: &[&str], names: &[&str]| -> Option<String> {
         vars.iter()
             .find(|v| {
-                v.num_dims() == 1
+                v.ndim() == 1
                     && attr_text(v, "units")
                         .is_some_and(|u| units.contains(&u.trim().to_ascii_lowercase().as_str()))
             })
             .or_else(|| {
                 vars.iter()
-                    .find(|v| v.num_dims() == 1 && names.contains(&v.name()))
+                    .find(|v| v.ndim() == 1 && names.contains(&v.name()))
             })
             .map(|v| v.name().to_string())
     };
@@ -212,7 +260,7 @@ pub fn lat_lon_names(reader: &FileReader, path: &Path) -> Result<(String, String
         _ => Err(Error::msg(format!(
             "{}: no latitude and longitude coordinates (1-D variables with units \
              degrees_north and degrees_east, or named lat and lon)",
-            path.display()
+            reader.path.display()
         ))),
     }
 }
@@ -237,19 +285,19 @@ const GRID_TOLERANCE_DEG: f64 = 1e-4;
 
 impl GridAxes {
     /// The latitude and longitude coordinates of a file.
-    pub fn read(reader: &mut FileReader, path: &Path) -> Result<GridAxes> {
-        let (lat_name, lon_name) = lat_lon_names(reader, path)?;
-        let dim_of = |reader: &FileReader, name: &str| {
-            reader
-                .data_set()
-                .get_var(name)
-                .and_then(|v| v.dim_names().into_iter().next())
-                .unwrap_or_default()
+    pub fn read(reader: &NcIn) -> Result<GridAxes> {
+        let path = reader.path();
+        let (lat_name, lon_name) = lat_lon_names(reader)?;
+        let dim_of = |name: &str| -> Result<String> {
+            Ok(dim_names(reader.var(name)?)
+                .into_iter()
+                .next()
+                .unwrap_or_default())
         };
-        let lat_dim = dim_of(reader, &lat_name);
-        let lon_dim = dim_of(reader, &lon_name);
-        let lat = read_values(reader, path, &lat_name)?;
-        let lon = read_values(reader, path, &lon_name)?;
+        let lat_dim = dim_of(&lat_name)?;
+        let lon_dim = dim_of(&lon_name)?;
+        let lat = reader.read_values(&lat_name)?;
+        let lon = reader.read_values(&lon_name)?;
         for (name, v, lo, hi) in [
             (&lat_name, &lat, -90.0, 90.0),
             (&lon_name, &lon, -360.0, 360.0),
@@ -309,15 +357,12 @@ impl GridAxes {
 /// A 2-D field `[lat][lon]` of a file (a cover fraction, LAI, soil parameter, elevation), checked
 /// to lie on `grid`. A leading time dimension of length 1 is accepted.
 pub fn read_map(path: &Path, name: &str, grid: &GridAxes) -> Result<Vec<f64>> {
-    let mut reader = open(path)?;
-    let axes = GridAxes::read(&mut reader, path)?;
+    let reader = open(path)?;
+    let axes = GridAxes::read(&reader)?;
     grid.check_same(&axes, &format!("variable `{name}`"))?;
-    let var = reader
-        .data_set()
-        .get_var(name)
-        .ok_or_else(|| missing_variable(&reader, path, name))?;
-    let dims = var.dim_names();
-    let sizes: Vec<usize> = var.get_dims().iter().map(|d| d.size()).collect();
+    let var = reader.var(name)?;
+    let dims = dim_names(var);
+    let sizes: Vec<u64> = var.dimensions().iter().map(|d| d.size).collect();
     let spatial = dims.len() >= 2
         && dims[dims.len() - 2] == axes.lat_dim
         && dims[dims.len() - 1] == axes.lon_dim
@@ -331,7 +376,7 @@ pub fn read_map(path: &Path, name: &str, grid: &GridAxes) -> Result<Vec<f64>> {
             axes.lon_dim
         )));
     }
-    read_values(&mut reader, path, name)
+    reader.read_values(name)
 }
 
 /// A unit as the forcing unit table names it: `W/m2`, `W m**-2` and `W m^-2` are `W m-2`; `K`

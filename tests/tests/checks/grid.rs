@@ -1,6 +1,7 @@
 //! Gridded runs from NetCDF weather (`isodisc grid`, runner/src/grid, runner/src/netcdf_in):
 //! a cell equals `isodisc run` on its exported site and weather; packed and unpacked copies of
-//! the weather agree within the packing's resolution; shards merged equal one run byte for byte,
+//! the weather agree within the packing's resolution; NetCDF-4 and classic copies give the same
+//! run bit for bit; shards merged equal one run byte for byte,
 //! and so does a resumed run; CF time decoding equals cftime; bad input names its place.
 
 use std::path::{Path, PathBuf};
@@ -168,8 +169,10 @@ fn shards_merged_and_a_resumed_run_equal_one_run_byte_for_byte() {
     )
     .unwrap();
     let path = tmp.path().join("one/priors_grid.nc");
-    let mut r = isodisc_runner::netcdf_in::open(&path).unwrap();
-    let gpp = isodisc_runner::netcdf_in::read_values(&mut r, &path, "gpp").unwrap();
+    let gpp = isodisc_runner::netcdf_in::open(&path)
+        .unwrap()
+        .read_values("gpp")
+        .unwrap();
     let ncell = grid.forcing.axes.cells();
     let cell = grid.land[5];
     let v = grid.run_cell(cell).unwrap();
@@ -467,11 +470,111 @@ fn bad_input_names_file_variable_and_index() {
             && e.contains("grids do not match"),
         "{e}"
     );
-    // NetCDF-4 is refused with the conversion command.
-    let nc4 = demo_variant(d, "forcing_2001_nc4.nc");
-    let e = Grid::load(&nc4, None, None).unwrap_err().chain();
+    // A file that is not NetCDF is named as such.
+    std::fs::write(d.join("tiny.txt"), "time,tas\n").unwrap();
+    let text = TINY_GRID.replace(r#"["tiny.nc"]"#, r#"["tiny.txt"]"#);
+    let e = tiny_error(d, &Tiny::new(), &text);
+    assert!(e.contains("tiny.txt: not a NetCDF file"), "{e}");
+}
+
+/// The NetCDF-4 copy of the demo weather (HDF5, deflate and shuffle filters, chunks of 100 × 3 × 4
+/// that do not divide the 8 × 10 grid; written by netCDF4-python from the same float32 values)
+/// gives every cell the same weather and the same monthly values, bit for bit, as the classic
+/// files (common practice: the storage format carries no information). Windows of several cells
+/// give the same steps as one cell read alone.
+#[test]
+fn netcdf4_and_classic_copies_give_the_same_run() {
+    let tmp = tempfile::tempdir().unwrap();
+    let nc4_toml = demo_variant(tmp.path(), "forcing_2001_nc4.nc");
+    let (from, to) = (
+        jan_to_mar().0,
+        Some(LocalTime::parse_date("2001-03-01").unwrap()),
+    );
+    let nc4 = Grid::load(&nc4_toml, from, to).unwrap();
+    let classic = Grid::load(&grid_file(), from, to).unwrap();
+    assert_eq!(nc4.land, classic.land);
+    assert_eq!(nc4.forcing.times, classic.forcing.times);
+    assert_eq!(nc4.forcing.times.len(), 59 * 8);
+    let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
+    let (nlat, nlon) = (
+        classic.forcing.axes.lat.len(),
+        classic.forcing.axes.lon.len(),
+    );
+    let w4 = nc4.forcing.read_window(2..nlat, 3..nlon).unwrap();
+    let wc = classic.forcing.read_window(0..nlat, 0..nlon).unwrap();
+    for &cell in &classic.land {
+        let (i, j) = classic.position(cell);
+        let a = classic.run_cell(cell).unwrap();
+        let b = nc4.run_cell(cell).unwrap();
+        assert!(a.iter().filter(|v| v.is_finite()).count() > 10);
+        assert_eq!(bits(&a), bits(&b), "cell {cell}");
+        let one = classic.forcing.cell_steps(i, j, 200.0).unwrap();
+        let from_window = classic.forcing.window_steps(&wc, i, j, 200.0).unwrap();
+        let step_bits = |s: &[isodisc_runner::forcing::ForcingStep]| {
+            s.iter()
+                .flat_map(|x| [x.t_air_c, x.vpd_kpa, x.sw_w_m2, x.pressure_kpa, x.precip_mm])
+                .map(f64::to_bits)
+                .collect::<Vec<_>>()
+        };
+        assert_eq!(step_bits(&one), step_bits(&from_window), "cell {cell}");
+        if w4.holds(i, j) {
+            let from_nc4 = nc4.forcing.window_steps(&w4, i, j, 200.0).unwrap();
+            assert_eq!(step_bits(&one), step_bits(&from_nc4), "cell {cell}");
+        }
+    }
+}
+
+/// `isodisc cluster-script` takes a grid file: the array tasks run `isodisc grid` on it with
+/// `--shard env` and the merge job joins them (the script is valid bash: `bash -n`, common
+/// practice); more shards than blocks, or an ensemble spec, are refused.
+#[test]
+fn cluster_script_runs_a_grid_by_blocks() {
+    let tmp = tempfile::tempdir().unwrap();
+    let script = tmp.path().join("submit_grid.sh");
+    let g = grid_file();
+    let args = |shards: &str, extra: &[&str]| {
+        let mut a = vec![
+            "cluster-script".to_string(),
+            g.to_str().unwrap().to_string(),
+            "--shards".into(),
+            shards.into(),
+            "--results".into(),
+            tmp.path().join("res").to_str().unwrap().to_string(),
+            "--out".into(),
+            script.to_str().unwrap().to_string(),
+        ];
+        a.extend(extra.iter().map(|s| s.to_string()));
+        a
+    };
+    let call = |a: Vec<String>| run(&a.iter().map(String::as_str).collect::<Vec<_>>());
+    call(args("2", &[])).unwrap();
+    let text = std::fs::read_to_string(&script).unwrap();
+    let abs = std::path::absolute(&g).unwrap();
+    for needle in [
+        format!("GRID={}", abs.display()),
+        "\"$ISODISC\" grid \"$GRID\" --out \"$RESULTS/shards/shard_\\${SLURM_ARRAY_TASK_ID}\" \
+         --shard env"
+            .to_string(),
+        "#SBATCH --job-name=isodisc-grid".into(),
+        "SHARDS=2".into(),
+        "--dependency=afterok:$array_job".into(),
+        "\"$ISODISC\" merge \"$RESULTS\"/shards/shard_*".into(),
+    ] {
+        assert!(text.contains(&needle), "script lacks {needle}:\n{text}");
+    }
+    assert!(!text.contains("MANIFEST"), "{text}");
+    let ok = std::process::Command::new("bash")
+        .arg("-n")
+        .arg(&script)
+        .status()
+        .unwrap();
+    assert!(ok.success(), "bash -n refuses the script");
+    // The demo grid has 63 cells with vegetation: 2 blocks of 32.
+    let e = call(args("3", &[])).unwrap_err();
     assert!(
-        e.contains("forcing_2001_nc4.nc: a NetCDF-4/HDF5 file") && e.contains("nccopy"),
+        e.contains("--shards 3: the grid has 2 blocks; use at most 2"),
         "{e}"
     );
+    let e = call(args("2", &["--spec", "x.toml", "--members", "4"])).unwrap_err();
+    assert!(e.contains("is a grid file: --spec and --members"), "{e}");
 }

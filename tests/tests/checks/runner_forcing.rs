@@ -1359,3 +1359,211 @@ fn a_driver_mostly_missing_is_warned_about_in_the_summary_and_run_json() {
     assert!(warnings[0].as_str().unwrap().contains("`wind_m_s`"));
     assert_eq!(log["gaps"]["missing_values"]["wind"], 12);
 }
+
+/// The demo site file with its `[forcing]` table replaced by `forcing` (and the history given by
+/// its absolute path), written into `dir`.
+fn demo_site_with_forcing(dir: &Path, forcing: &str) -> PathBuf {
+    let demo = crate::common::demo_path("site.toml");
+    let text = std::fs::read_to_string(&demo).unwrap();
+    let head = &text[..text.find("[forcing]").unwrap()];
+    let history = crate::common::demo_path("atmosphere_history.csv");
+    let head = head.replace(
+        r#""atmosphere_history.csv""#,
+        &format!("{:?}", history.to_str().unwrap()),
+    );
+    let path = dir.join("site.toml");
+    std::fs::write(&path, format!("{head}{forcing}")).unwrap();
+    path
+}
+
+fn site_netcdf_fixture(name: &str) -> String {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("fixtures/site_netcdf")
+        .join(name)
+        .to_str()
+        .unwrap()
+        .to_string()
+}
+
+/// The `[forcing]` table of the CSV copy and of the NetCDF copy in the same units.
+fn csv_and_same_units_forcing() -> (String, String) {
+    let columns = "[forcing.columns]\nt_air = \"t_air_c\"\nrh = \"rh_percent\"\nsw = \"sw_w_m2\"\n\
+                   precip = \"precip_mm\"\nwind = \"wind_m_s\"\n";
+    (
+        format!(
+            "[forcing]\npath = {:?}\ntime_column = \"time\"\nstep_minutes = 60\n{columns}",
+            site_netcdf_fixture("weather.csv")
+        ),
+        format!(
+            "[forcing]\npath = {:?}\nstep_minutes = 60\n{columns}",
+            site_netcdf_fixture("weather_same_units.nc")
+        ),
+    )
+}
+
+/// Every output file of a run except `run.json` (which records the weather file's path).
+fn run_outputs(out: &Path) -> Vec<(String, Vec<u8>)> {
+    let mut files: Vec<(String, Vec<u8>)> = std::fs::read_dir(out)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.extension().is_some_and(|x| x == "csv"))
+        .map(|p| {
+            let name = p.file_name().unwrap().to_str().unwrap().to_string();
+            (name, std::fs::read(&p).unwrap())
+        })
+        .collect();
+    files.sort();
+    files
+}
+
+/// A NetCDF copy of a CSV weather file holding the same numbers in the same units gives the same
+/// run, byte for byte (common practice: the file format carries no information; the copy is made
+/// by tests/fixtures/site_netcdf/make_site_netcdf.py from the CSV's text).
+#[test]
+fn netcdf_site_weather_gives_the_same_run_as_its_csv() {
+    let tmp = tempfile::tempdir().unwrap();
+    let (csv, nc) = csv_and_same_units_forcing();
+    let (a, b) = (tmp.path().join("a"), tmp.path().join("b"));
+    std::fs::create_dir_all(&a).unwrap();
+    std::fs::create_dir_all(&b).unwrap();
+    let site_csv = demo_site_with_forcing(&a, &csv);
+    let site_nc = demo_site_with_forcing(&b, &nc);
+    crate::common::run_quiet(&site_csv, &a.join("out")).unwrap();
+    crate::common::run_quiet(&site_nc, &b.join("out")).unwrap();
+    let (x, y) = (run_outputs(&a.join("out")), run_outputs(&b.join("out")));
+    assert!(
+        x.len() >= 3,
+        "{:?}",
+        x.iter().map(|f| &f.0).collect::<Vec<_>>()
+    );
+    assert_eq!(
+        x.iter().map(|f| &f.0).collect::<Vec<_>>(),
+        y.iter().map(|f| &f.0).collect::<Vec<_>>()
+    );
+    for ((name, p), (_, q)) in x.iter().zip(&y) {
+        assert!(p == q, "{name} differs between the CSV and the NetCDF run");
+    }
+}
+
+/// The NetCDF-4 copy in land-model units (K, kg kg-1, W/m^2, kg/m^2/s, Pa, m/s; dims (time, y, x)
+/// with y = x = 1) gives the same steps as the CSV in °C, %, W m-2, mm: temperature exactly
+/// shifted by 273.15 (to 1e-9 °C), rainfall rate × 3600 s = mm, and the VPD from specific
+/// humidity and pressure equal to the VPD from RH (the fixture made the humidity from RH with
+/// FAO-56 Tetens; to 1e-9 kPa).
+#[test]
+fn netcdf_site_weather_in_land_model_units_converts_as_the_csv_reader() {
+    let tmp = tempfile::tempdir().unwrap();
+    let (csv, _) = csv_and_same_units_forcing();
+    let lsm = format!(
+        "[forcing]\npath = {:?}\n[forcing.columns]\nt_air = \"Tair\"\n\
+         specific_humidity = \"Qair\"\nsw = \"SWdown\"\nprecip = \"Rainf\"\npressure = \"PSurf\"\n\
+         wind = \"Wind\"\n",
+        site_netcdf_fixture("weather_lsm_units.nc")
+    );
+    let read = |forcing: &str, sub: &str| -> Vec<ForcingStep> {
+        let dir = tmp.path().join(sub);
+        std::fs::create_dir_all(&dir).unwrap();
+        let site =
+            isodisc_runner::site::Site::load(&demo_site_with_forcing(&dir, forcing)).unwrap();
+        ForcingReader::open(
+            &site.file.forcing,
+            &site.dir(),
+            site.file.site.elevation_m,
+            None,
+            None,
+        )
+        .unwrap()
+        .collect::<Result<Vec<_>, _>>()
+        .unwrap()
+    };
+    let a = read(&csv, "csv");
+    let b = read(&lsm, "lsm");
+    assert_eq!(a.len(), 59 * 24);
+    assert_eq!(a.len(), b.len());
+    for (x, y) in a.iter().zip(&b) {
+        assert_eq!(x.time, y.time);
+        assert!(
+            (x.t_air_c - y.t_air_c).abs() <= EXACT,
+            "{} {}",
+            x.time,
+            y.t_air_c
+        );
+        assert!(
+            (x.vpd_kpa - y.vpd_kpa).abs() <= EXACT,
+            "{} {} {}",
+            x.time,
+            x.vpd_kpa,
+            y.vpd_kpa
+        );
+        assert!((x.sw_w_m2 - y.sw_w_m2).abs() <= EXACT);
+        assert!((x.precip_mm - y.precip_mm).abs() <= EXACT, "{}", x.time);
+        assert!((x.pressure_kpa - y.pressure_kpa).abs() <= EXACT);
+        assert_eq!(x.wind_m_s, y.wind_m_s);
+    }
+}
+
+/// Bad NetCDF site weather is refused with the file, variable and index (house rule): a mapped
+/// variable the file lacks, a CSV-only key, a missing value at its time index.
+#[test]
+fn netcdf_site_weather_errors_name_file_variable_and_index() {
+    let tmp = tempfile::tempdir().unwrap();
+    let open = |forcing: &str| -> String {
+        let site =
+            isodisc_runner::site::Site::load(&demo_site_with_forcing(tmp.path(), forcing)).unwrap();
+        match ForcingReader::open(&site.file.forcing, &site.dir(), 1100.0, None, None) {
+            Ok(_) => panic!("no error"),
+            Err(e) => e.to_string(),
+        }
+    };
+    let nc = site_netcdf_fixture("weather_same_units.nc");
+    let e = open(&format!(
+        "[forcing]\npath = {nc:?}\n[forcing.columns]\nt_air = \"tas\"\nrh = \"rh_percent\"\n\
+         sw = \"sw_w_m2\"\n"
+    ));
+    assert!(
+        e.contains("weather_same_units.nc: no variable `tas`") && e.contains("`t_air_c`"),
+        "{e}"
+    );
+    let e = open(&format!(
+        "[forcing]\npath = {nc:?}\ntime_column = \"time\"\n[forcing.columns]\nt_air = \"t_air_c\"\n\
+         rh = \"rh_percent\"\nsw = \"sw_w_m2\"\n"
+    ));
+    assert!(
+        e.contains("forcing.time_column applies to CSV files only"),
+        "{e}"
+    );
+
+    // A fill value at time index 30 of t_air (netcdf3 writes a classic copy with one hole).
+    use netcdf3::{DataSet, FileWriter, Version};
+    let n = 48;
+    let mut ds = DataSet::new();
+    ds.add_fixed_dim("time", n).unwrap();
+    ds.add_var_f64("time", &["time"]).unwrap();
+    ds.add_var_attr_string("time", "units", "hours since 2025-01-01")
+        .unwrap();
+    for (name, units) in [("ta", "degC"), ("rh", "%"), ("sw", "W m-2")] {
+        ds.add_var_f32(name, &["time"]).unwrap();
+        ds.add_var_attr_string(name, "units", units).unwrap();
+    }
+    ds.add_var_attr_f32("ta", "_FillValue", vec![-9999.0])
+        .unwrap();
+    let path = tmp.path().join("holes.nc");
+    let mut w = FileWriter::open(&path).unwrap();
+    w.set_def(&ds, Version::Classic, 0).unwrap();
+    w.write_var_f64("time", &(0..n).map(|i| i as f64).collect::<Vec<_>>())
+        .unwrap();
+    let mut ta = vec![20.0f32; n];
+    ta[30] = -9999.0;
+    w.write_var_f32("ta", &ta).unwrap();
+    w.write_var_f32("rh", &vec![50.0; n]).unwrap();
+    w.write_var_f32("sw", &vec![100.0; n]).unwrap();
+    w.close().unwrap();
+    let e = open(
+        "[forcing]\npath = \"holes.nc\"\n[forcing.columns]\nt_air = \"ta\"\nrh = \"rh\"\n\
+         sw = \"sw\"\n",
+    );
+    assert!(
+        e.contains("holes.nc, variable `ta`, time index 30 (2025-01-02T06:00): no value"),
+        "{e}"
+    );
+}
