@@ -473,7 +473,11 @@ pub struct ClusterScriptArgs {
     /// Ensemble spec for every site (with --members).
     #[arg(long)]
     pub spec: Option<PathBuf>,
-    /// Ensemble members per site (with --spec).
+    /// Fits whose posteriors the sites' members are drawn from, DIR/<site id>/posterior.csv, as
+    /// `isodisc batch --posterior` (with --members; with --spec, sites without a fit take the spec).
+    #[arg(long, value_name = "DIR")]
+    pub posterior: Option<PathBuf>,
+    /// Ensemble members per site (with --spec or --posterior).
     #[arg(long)]
     pub members: Option<u32>,
     /// Ensemble seed.

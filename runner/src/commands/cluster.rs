@@ -34,6 +34,15 @@ fn kind_of(path: &Path) -> Result<Kind> {
     Ok(if grid { Kind::Grid } else { Kind::Batch })
 }
 
+/// The ensemble every site of a batch runs (`isodisc batch --spec/--posterior --members --seed`).
+#[derive(Debug, Clone)]
+struct Ensemble {
+    spec: Option<PathBuf>,
+    posterior: Option<PathBuf>,
+    members: u32,
+    seed: u64,
+}
+
 /// A validated `isodisc cluster-script`.
 #[derive(Debug, Clone)]
 pub struct ClusterScriptPlan {
@@ -47,7 +56,8 @@ pub struct ClusterScriptPlan {
     mem: String,
     partition: Option<String>,
     account: Option<String>,
-    ensemble: Option<(PathBuf, u32, u64)>,
+    /// The ensemble each site runs: the spec, the fits' folder, members and seed.
+    ensemble: Option<Ensemble>,
     out: PathBuf,
 }
 
@@ -158,9 +168,10 @@ impl ClusterScriptPlan {
                 "site",
             ),
             Kind::Grid => {
-                if a.spec.is_some() || a.members.is_some() {
+                if a.spec.is_some() || a.posterior.is_some() || a.members.is_some() {
                     return Err(Error::msg(format!(
-                        "{} is a grid file: --spec and --members apply to a batch manifest",
+                        "{} is a grid file: --spec, --posterior and --members apply to a batch \
+                         manifest",
                         a.manifest.display()
                     )));
                 }
@@ -185,13 +196,23 @@ impl ClusterScriptPlan {
             Some(p) => absolute(p)?,
             None => std::env::current_exe().context("cannot find the isodisc program's path")?,
         };
-        let ensemble = match (&a.spec, a.members) {
-            (Some(s), Some(n)) => Some((absolute(s)?, n, a.seed)),
-            (None, None) => None,
-            _ => return Err(Error::msg("--spec and --members go together")),
+        let ensemble = match (a.spec.is_some() || a.posterior.is_some(), a.members) {
+            (true, Some(members)) => Some(Ensemble {
+                spec: a.spec.as_deref().map(absolute).transpose()?,
+                posterior: a.posterior.as_deref().map(absolute).transpose()?,
+                members,
+                seed: a.seed,
+            }),
+            (false, None) => None,
+            _ => {
+                return Err(Error::msg(
+                    "--members goes with --spec or --posterior (or both), and they with it",
+                ));
+            }
         };
         let mut inputs = vec![a.manifest.clone()];
         inputs.extend(a.spec.clone());
+        inputs.extend(a.posterior.clone());
         crate::output::check_not_input("--out", &a.out, &inputs)?;
         let manifest = absolute(&a.manifest)?;
         let results = absolute(&a.results)?;
@@ -199,8 +220,13 @@ impl ClusterScriptPlan {
         check_shell_safe("--results", &results.display().to_string(), true)?;
         check_shell_safe("--isodisc", &isodisc.display().to_string(), false)?;
         check_shell_safe("--out", &a.out.display().to_string(), false)?;
-        if let Some((spec, _, _)) = &ensemble {
-            check_shell_safe("--spec", &spec.display().to_string(), false)?;
+        if let Some(e) = &ensemble {
+            if let Some(spec) = &e.spec {
+                check_shell_safe("--spec", &spec.display().to_string(), false)?;
+            }
+            if let Some(fits) = &e.posterior {
+                check_shell_safe("--posterior", &fits.display().to_string(), false)?;
+            }
         }
         Ok(Self {
             kind,
@@ -270,10 +296,16 @@ impl ClusterScriptPlan {
         if let Some(acc) = &self.account {
             let _ = write!(extra, "\n#SBATCH --account={acc}");
         }
-        let ensemble = match &self.ensemble {
-            Some((spec, n, seed)) => format!(" --spec {} --members {n} --seed {seed}", q(spec)),
-            None => String::new(),
-        };
+        let mut ensemble = String::new();
+        if let Some(e) = &self.ensemble {
+            if let Some(spec) = &e.spec {
+                let _ = write!(ensemble, " --spec {}", q(spec));
+            }
+            if let Some(fits) = &e.posterior {
+                let _ = write!(ensemble, " --posterior {}", q(fits));
+            }
+            let _ = write!(ensemble, " --members {} --seed {}", e.members, e.seed);
+        }
         let (units, command) = match self.kind {
             Kind::Batch => ("the sites", "batch \"$MANIFEST\""),
             Kind::Grid => ("the blocks of cells", "grid \"$GRID\""),

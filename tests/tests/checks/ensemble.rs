@@ -508,6 +508,70 @@ fn cluster_script_submits_an_array_and_a_dependent_merge() {
 }
 
 #[test]
+fn cluster_script_passes_a_batch_posterior_to_its_tasks() {
+    // Each array task runs `isodisc batch` with the flags a one-machine batch takes (common
+    // practice: the script only splits the work), so `--posterior` reaches the tasks with the
+    // members and seed, and the task's command parses as a batch command.
+    let dir = tempfile::tempdir().unwrap();
+    let script = dir.path().join("submit.sh");
+    let fits = dir.path().join("fits");
+    fs::create_dir_all(&fits).unwrap();
+    let manifest =
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("../forcing-demo/batch/manifest.toml");
+    let args = |extra: &[&str]| {
+        let mut v = vec![
+            "isodisc".to_string(),
+            "cluster-script".to_string(),
+            manifest.to_str().unwrap().to_string(),
+            "--shards".to_string(),
+            "2".to_string(),
+            "--results".to_string(),
+            dir.path().join("res").to_str().unwrap().to_string(),
+            "--out".to_string(),
+            script.to_str().unwrap().to_string(),
+        ];
+        v.extend(extra.iter().map(|e| e.to_string()));
+        Cli::try_parse_from(v).unwrap()
+    };
+    let fits_s = fits.to_str().unwrap();
+    isodisc_runner::run(args(&[
+        "--posterior",
+        fits_s,
+        "--members",
+        "3",
+        "--seed",
+        "5",
+    ]))
+    .unwrap();
+    let text = fs::read_to_string(&script).unwrap();
+    let line = text
+        .lines()
+        .find(|l| l.contains(" batch ") && l.contains("--shard env"))
+        .unwrap_or_else(|| panic!("no task line:\n{text}"));
+    let flags = format!(" --posterior {fits_s} --members 3 --seed 5");
+    assert!(line.ends_with(&flags), "task line {line:?} lacks {flags:?}");
+    Cli::try_parse_from([
+        "isodisc",
+        "batch",
+        manifest.to_str().unwrap(),
+        "--out",
+        "shard_1",
+        "--shard",
+        "env",
+        "--posterior",
+        fits_s,
+        "--members",
+        "3",
+        "--seed",
+        "5",
+    ])
+    .expect("the task's flags are batch flags");
+    // Without --members the posterior has nothing to draw: refused, naming the flags.
+    let err = isodisc_runner::run(args(&["--posterior", fits_s])).unwrap_err();
+    assert!(err.chain().contains("--members"), "{}", err.chain());
+}
+
+#[test]
 fn an_ensemble_folder_plots_its_envelopes() {
     // `isodisc plot` reads what `isodisc ensemble` writes (common practice: the tools of one
     // package read each other's files); the envelope figure is valid SVG with its axis labels.

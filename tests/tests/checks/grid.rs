@@ -576,5 +576,8 @@ fn cluster_script_runs_a_grid_by_blocks() {
         "{e}"
     );
     let e = call(args("2", &["--spec", "x.toml", "--members", "4"])).unwrap_err();
-    assert!(e.contains("is a grid file: --spec and --members"), "{e}");
+    assert!(
+        e.contains("is a grid file: --spec, --posterior and --members"),
+        "{e}"
+    );
 }
