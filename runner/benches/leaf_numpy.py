@@ -77,26 +77,32 @@ def solve(t, ppfd, vpd, ca, g0):
     vj, kj = j / 4.0, 2.0 * gstar
     slope = 1.0 + G1 / np.sqrt(np.maximum(vpd, 0.05))
 
-    def net(v, k, ci):
-        return smaller_root(1.0, -(gm * (ci + k) - rd + v), gm * (v * (ci - gstar) - rd * (ci + k)))
+    # The leaf's CO2-independent terms, one array each, so the search can keep only the rows
+    # not yet converged.
+    leaf = dict(gm=gm, rd=rd, gstar=gstar, vcmax=vcmax, kw=kw, vj=vj, kj=kj, ca=ca, slope=slope)
 
-    def demand(ci):
-        ar = net(vcmax, kw, ci)
-        aj = net(vj, kj, ci)
-        below = ar + rd < 0.0
+    def net(p, v, k, ci):
+        gm, rd = p["gm"], p["rd"]
+        return smaller_root(1.0, -(gm * (ci + k) - rd + v), gm * (v * (ci - p["gstar"]) - rd * (ci + k)))
+
+    def demand(p, ci):
+        ar = net(p, p["vcmax"], p["kw"], ci)
+        aj = net(p, p["vj"], p["kj"], ci)
+        below = ar + p["rd"] < 0.0
         take_j = np.where(below, aj > ar, aj < ar)
         return np.where(take_j, aj, ar), take_j
 
-    def residual(ci):
-        a, _ = demand(ci)
-        gs = np.where(a > 0.0, g0 + 1.6 * slope * a / ca, g0)  # cs = ca without boundary layer
+    def residual(p, ci):
+        a, _ = demand(p, ci)
+        ca = p["ca"]
+        gs = np.where(a > 0.0, g0 + 1.6 * p["slope"] * a / ca, g0)  # cs = ca: no boundary layer
         return a - gs / 1.6 * (ca - ci)
 
     # Bracket [0, ca] split at the guess ca(1 - 1/slope); widened above ca while r(hi) < 0.
     lo, hi = np.zeros_like(ca), ca.copy()
-    rl, rh = residual(lo), residual(hi)
+    rl, rh = residual(leaf, lo), residual(leaf, hi)
     guess = ca * (1.0 - 1.0 / slope)
-    rg = residual(guess)
+    rg = residual(leaf, guess)
     neg = rg < 0.0
     lo, rl = np.where(neg, guess, lo), np.where(neg, rg, rl)
     hi, rh = np.where(neg, hi, guess), np.where(neg, rh, rg)
@@ -106,29 +112,39 @@ def solve(t, ppfd, vpd, ca, g0):
             break
         lo, rl = np.where(w, hi, lo), np.where(w, rh, rl)
         hi = np.where(w, hi * 2.0, hi)
-        rh = np.where(w, residual(hi), rh)
-    # Illinois iterations: regula falsi, halving the kept end's residual when an end repeats.
-    side = np.zeros(ca.shape, dtype=np.int8)
+        rh = np.where(w, residual(leaf, hi), rh)
+    # Illinois iterations (regula falsi, halving the kept end's residual when the same end moves
+    # twice) on the rows not yet converged: a step below the tolerance, or the bracket within it.
     x = np.where(rg == 0.0, guess, 0.5 * (lo + hi))
-    done = (rg == 0.0) | (hi - lo <= CI_TOL)
+    active = np.flatnonzero(rg != 0.0)
+    p = {k: v[active] for k, v in leaf.items()}
+    a_lo, a_hi, a_rl, a_rh, a_x = lo[active], hi[active], rl[active], rh[active], x[active]
+    side = np.zeros(active.size, dtype=np.int8)
     for _ in range(200):
-        if done.all():
+        if active.size == 0:
             break
         with np.errstate(divide="ignore", invalid="ignore"):
-            x_new = (lo * rh - hi * rl) / (rh - rl)
-        x_new = np.where(np.isfinite(x_new) & (x_new > lo) & (x_new < hi), x_new, 0.5 * (lo + hi))
-        x = np.where(done, x, x_new)
-        r = residual(x)
-        up = (r < 0.0) & ~done
-        down = (r > 0.0) & ~done
-        lo, rl = np.where(up, x, lo), np.where(up, r, rl)
-        hi, rh = np.where(down, x, hi), np.where(down, r, rh)
-        rh = np.where(up & (side == -1), rh * 0.5, rh)
-        rl = np.where(down & (side == 1), rl * 0.5, rl)
-        side = np.where(up, -1, np.where(down, 1, side)).astype(np.int8)
-        done |= (r == 0.0) | (hi - lo <= CI_TOL)
+            x_new = (a_lo * a_rh - a_hi * a_rl) / (a_rh - a_rl)
+        bad = ~(np.isfinite(x_new) & (x_new > a_lo) & (x_new < a_hi))
+        x_new[bad] = 0.5 * (a_lo[bad] + a_hi[bad])
+        step = np.abs(x_new - a_x)
+        a_x = x_new
+        r = residual(p, a_x)
+        up, down = r < 0.0, r > 0.0
+        a_lo[up], a_rl[up] = a_x[up], r[up]
+        a_hi[down], a_rh[down] = a_x[down], r[down]
+        a_rh[up & (side == -1)] *= 0.5
+        a_rl[down & (side == 1)] *= 0.5
+        side[up], side[down] = -1, 1
+        x[active] = a_x
+        keep = ~((r == 0.0) | (a_hi - a_lo <= CI_TOL) | (step <= 0.5 * CI_TOL))
+        if not keep.all():
+            active = active[keep]
+            p = {k: v[keep] for k, v in p.items()}
+            a_lo, a_hi, a_rl, a_rh, a_x, side = (
+                a_lo[keep], a_hi[keep], a_rl[keep], a_rh[keep], a_x[keep], side[keep])
     ci = x
-    a, take_j = demand(ci)
+    a, take_j = demand(leaf, ci)
     gs = np.where(a > 0.0, g0 + 1.6 * slope * a / ca, g0)
     cc = ci - a / gm
     with np.errstate(invalid="ignore"):

@@ -65,7 +65,8 @@ fn round_half_away(x: f64) -> i64 {
 /// The value is rounded to micro-units (half away from zero, as `f64::round`) after multiplying
 /// by 10⁶, then written with its sign when the rounded micro-units are negative (so −0 and
 /// −0.0000004 are `0`), the integer part, and the decimals without trailing zeros.
-#[inline]
+// Inlined into its callers: the call itself cost about a sixth of a number's instructions.
+#[inline(always)]
 fn write_micro(b: &mut [u8; CAP], value: f64) -> Option<usize> {
     let scaled = value * 1e6;
     // Past 2⁵² every double is a whole number, so the rounding cannot move a value across 9·10¹⁵.
@@ -313,20 +314,24 @@ fn plain_decimal(text: &[u8]) -> Option<f64> {
         return None;
     }
     let mut m: u64 = 0;
+    let mut digits = 0;
     let mut point = None;
     for (i, &b) in body.iter().enumerate() {
         let d = b.wrapping_sub(b'0');
         if d < 10 {
+            // At most 19 digits: m < 10¹⁹ cannot overflow.
+            if digits == 19 {
+                return None;
+            }
             m = m * 10 + u64::from(d);
+            digits += 1;
         } else if b == b'.' && point.is_none() {
             point = Some(i);
         } else {
             return None;
         }
     }
-    // At most 19 digits (m < 10¹⁹ cannot overflow), at least one.
-    let digits = body.len() - usize::from(point.is_some());
-    if digits == 0 || digits > 19 || m > 1 << 53 {
+    if digits == 0 || m > 1 << 53 {
         return None;
     }
     let decimals = point.map_or(0, |p| body.len() - p - 1);
