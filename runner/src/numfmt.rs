@@ -210,8 +210,9 @@ impl NumRow {
         }
     }
 
-    /// Appends column `col`'s `value` as [`push_num`] spells it.
-    #[inline]
+    /// Appends column `col`'s `value` as [`push_num`] spells it. Inlined into the row's loop: the
+    /// call cost a fifth of a number's instructions.
+    #[inline(always)]
     pub fn push(&mut self, col: usize, value: f64) {
         self.room(CAP);
         let at = self.len;
@@ -232,10 +233,16 @@ impl NumRow {
             self.len += n;
             return;
         }
+        self.push_display(value);
+    }
+
+    /// NaN (nothing), infinities and values beyond the digit path, as `Display` spells them.
+    #[cold]
+    fn push_display(&mut self, value: f64) {
         if !value.is_nan() {
             let text = value.to_string();
             self.room(text.len());
-            self.buf[at..at + text.len()].copy_from_slice(text.as_bytes());
+            self.buf[self.len..self.len + text.len()].copy_from_slice(text.as_bytes());
             self.len += text.len();
         }
     }

@@ -556,9 +556,13 @@ impl RowWriter {
                     out.push(b',');
                 }
                 nums_text.clear();
-                for (i, v) in nums.enumerate() {
-                    nums_text.push(i, v);
-                    nums_text.push_byte(b',');
+                let mut col = 0;
+                for part in [&values(c)[..], params, &result_values(s)[..]] {
+                    for &v in part {
+                        nums_text.push(col, v);
+                        nums_text.push_byte(b',');
+                        col += 1;
+                    }
                 }
                 out.extend_from_slice(nums_text.as_bytes());
                 out.extend_from_slice(s.limitation.as_str().as_bytes());
