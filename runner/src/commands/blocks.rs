@@ -136,7 +136,7 @@ impl CsvBlocks {
         let mut text = std::mem::take(&mut self.carry);
         if !self.eof {
             // Keep the unfinished last line for the next batch (all of it if it is the only one).
-            let keep = text.iter().rposition(|&b| b == b'\n').map_or(0, |i| i + 1);
+            let keep = memchr::memrchr(b'\n', &text).map_or(0, |i| i + 1);
             self.carry = text[keep..].to_vec();
             text.truncate(keep);
             if text.is_empty() {
@@ -148,10 +148,9 @@ impl CsvBlocks {
         let mut start = 0;
         while start < text.len() {
             let end = match text.get(start + BLOCK_BYTES..) {
-                Some(rest) => rest
-                    .iter()
-                    .position(|&b| b == b'\n')
-                    .map_or(text.len(), |i| start + BLOCK_BYTES + i + 1),
+                Some(rest) => {
+                    memchr::memchr(b'\n', rest).map_or(text.len(), |i| start + BLOCK_BYTES + i + 1)
+                }
                 None => text.len(),
             };
             blocks.push(start..end);
@@ -264,7 +263,7 @@ impl<'a> Iterator for Rows<'a> {
             if self.rest.is_empty() {
                 return None;
             }
-            let (line, rest) = match self.rest.iter().position(|&b| b == b'\n') {
+            let (line, rest) = match memchr::memchr(b'\n', self.rest) {
                 Some(i) => (&self.rest[..i], &self.rest[i + 1..]),
                 None => (self.rest, &[][..]),
             };
