@@ -99,25 +99,16 @@ impl CsvBlocks {
         Ok((blocks, header))
     }
 
-    /// Reads up to `bytes` more bytes onto the carried ones.
+    /// Reads up to `bytes` more bytes onto the carried ones (into spare room: nothing is zeroed
+    /// first).
     fn fill(&mut self, bytes: usize) -> Result<()> {
-        let start = self.carry.len();
-        self.carry.resize(start + bytes, 0);
-        let mut at = start;
-        while at < self.carry.len() {
-            match self.file.read(&mut self.carry[at..]) {
-                Ok(0) => {
-                    self.eof = true;
-                    break;
-                }
-                Ok(n) => at += n,
-                Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
-                Err(e) => {
-                    return Err(e).with_context(|| format!("cannot read {}", self.path.display()));
-                }
-            }
-        }
-        self.carry.truncate(at);
+        self.carry.reserve(bytes);
+        let n = (&mut self.file)
+            .take(bytes as u64)
+            .read_to_end(&mut self.carry)
+            .with_context(|| format!("cannot read {}", self.path.display()))?;
+        // Fewer bytes than asked for: the file has ended.
+        self.eof = n < bytes;
         Ok(())
     }
 
@@ -135,13 +126,19 @@ impl CsvBlocks {
         }
         let mut text = std::mem::take(&mut self.carry);
         if !self.eof {
-            // Keep the unfinished last line for the next batch (all of it if it is the only one).
-            let keep = memchr::memrchr(b'\n', &text).map_or(0, |i| i + 1);
-            self.carry = text[keep..].to_vec();
-            text.truncate(keep);
-            if text.is_empty() {
-                self.carry.reserve(BATCH_BYTES);
-                return self.next_batch();
+            // Keep the unfinished last line for the next batch; a line longer than all that was
+            // read is read on, twice as much each time.
+            match memchr::memrchr(b'\n', &text) {
+                Some(i) => {
+                    self.carry = text[i + 1..].to_vec();
+                    text.truncate(i + 1);
+                }
+                None => {
+                    let more = text.len();
+                    self.carry = text;
+                    self.fill(more)?;
+                    return self.next_batch();
+                }
             }
         }
         let mut blocks = Vec::with_capacity(text.len() / BLOCK_BYTES + 1);
