@@ -6,9 +6,10 @@
 //! fits run in parallel over groups. Groups come from the `group` column, from nights (sunset to
 //! sunrise from the site's position, or fixed local hours) or from fixed time windows.
 
+use std::borrow::Cow;
 use std::collections::HashMap;
-use std::fs::File;
-use std::io::{self, BufReader, BufWriter, Write};
+use std::io::{self, BufWriter, Write};
+use std::ops::Range;
 use std::path::{Path, PathBuf};
 
 use isodisc_model::canopy::solar::{Location, SunTimes};
@@ -18,9 +19,11 @@ use isodisc_model::observations::{
 use rayon::prelude::*;
 use serde::Deserialize;
 
+use super::blocks::{self, BlockDone, CsvBlocks, Rows, split_cells};
 use crate::cli::{ByArg, KeelingArgs};
 use crate::error::{Context, Error, Result};
 use crate::forcing::time::{LocalDate, LocalTime};
+use crate::numfmt::parse_f64;
 use crate::output::{AtomicFile, fmt_num};
 
 /// Columns of the output, in order (see `docs/observations.md` for units).
@@ -587,16 +590,15 @@ pub(crate) struct Sample<'r> {
     pub bg: Option<(f64, f64)>,
 }
 
-/// A streaming reader of a samples file: checks the header, then parses each row with positions
-/// for the error messages.
+/// A streaming reader of a samples file: checks the header, then parses blocks of rows on all
+/// threads, with positions for the error messages.
 pub(crate) struct SampleReader {
-    rdr: csv::Reader<BufReader<File>>,
+    rows: CsvBlocks,
     cols: SampleColumns,
 }
 
 /// Where a samples file keeps each quantity.
 struct SampleColumns {
-    path: PathBuf,
     header: Vec<String>,
     time: usize,
     co2: usize,
@@ -606,44 +608,34 @@ struct SampleColumns {
     bg: Option<(usize, usize)>,
 }
 
-/// Rows per block (one task for a thread) and blocks per batch read in one go.
-const BLOCK_ROWS: usize = 4096;
-const BATCH_BLOCKS: usize = 16;
-
-type RawBlock = super::blocks::Block<Vec<u8>>;
-type RawBatch = super::blocks::Batch<Vec<u8>>;
-
-/// One row's numbers; the group is a range of its block's bytes.
+/// One row's numbers and where its group's name is.
 struct ParsedSample {
     time: LocalTime,
     co2: f64,
     d13c: f64,
-    group: std::ops::Range<usize>,
+    group: Name,
     sd: Option<(f64, f64)>,
     bg: Option<(f64, f64)>,
 }
 
-/// A block's samples up to its first bad row, and that row's error.
+/// Where a group name is: in the block's text, or (a quoted name) in the block's own names.
+#[derive(Clone)]
+enum Name {
+    Text(Range<usize>),
+    Quoted(Range<usize>),
+}
+
+/// A block's samples up to its first bad row, and the names that were quoted.
 struct ParsedBlock {
     samples: Vec<ParsedSample>,
-    error: Option<Error>,
+    quoted: Vec<u8>,
 }
 
 impl SampleReader {
     /// Opens `path` and finds its columns; `time`, `co2` and `d13c` are required, the SD and
     /// background columns come in pairs.
     pub(crate) fn open(path: &Path) -> Result<Self> {
-        let file = File::open(path).with_context(|| format!("cannot open {}", path.display()))?;
-        // Cells are trimmed (ASCII white space, as `csv::Trim::All` trims byte records) as they
-        // are copied out of the reader; the header as `csv::Trim::All` trims string headers.
-        let mut rdr =
-            csv::ReaderBuilder::new().from_reader(BufReader::with_capacity(1 << 17, file));
-        let header: Vec<String> = rdr
-            .headers()
-            .with_context(|| format!("cannot read the header of {}", path.display()))?
-            .iter()
-            .map(|h| h.trim().to_string())
-            .collect();
+        let (rows, header) = CsvBlocks::open(path)?;
         let find = |name: &str| header.iter().position(|h| h == name);
         let known = header.join(", ");
         let need = |name: &str| {
@@ -671,10 +663,9 @@ impl SampleReader {
             group: find("group"),
             sd: pair("co2_sd", "d13c_sd")?,
             bg: pair("co2_bg", "d13c_bg")?,
-            path: path.to_path_buf(),
             header,
         };
-        Ok(Self { rdr, cols })
+        Ok(Self { rows, cols })
     }
 
     pub(crate) fn has_group(&self) -> bool {
@@ -694,131 +685,96 @@ impl SampleReader {
     }
 
     /// Calls `f` on each row in file order; the first bad cell or an error from `f` stops the
-    /// reading. Blocks of rows are parsed on all threads while this thread reads the next batch
-    /// and hands the previous one to `f`.
-    pub(crate) fn for_each(mut self, mut f: impl FnMut(&Sample) -> Result<()>) -> Result<()> {
-        let mut rec = csv::ByteRecord::new();
-        let mut batch = read_raw_batch(&mut self.rdr, &mut rec, &self.cols.path);
-        let mut prev: Option<(RawBatch, Vec<ParsedBlock>)> = None;
-        loop {
-            let cols = &self.cols;
-            let rdr = &mut self.rdr;
-            let previous = prev.take();
-            let (parsed, consumed, next) = std::thread::scope(|s| {
-                let worker = s.spawn(|| {
-                    batch
-                        .blocks
-                        .par_iter()
-                        .map(|b| cols.parse_block(b))
-                        .collect::<Vec<_>>()
-                });
-                let consumed = match previous {
-                    Some((raw, parsed)) => hand_over(&raw, parsed, &mut f),
-                    None => Ok(()),
-                };
-                let next = (consumed.is_ok() && batch.end.is_none())
-                    .then(|| read_raw_batch(rdr, &mut rec, &cols.path));
-                (
-                    worker.join().expect("a block of samples panicked"),
-                    consumed,
-                    next,
-                )
-            });
-            consumed?;
-            match next {
-                Some(n) => prev = Some((std::mem::replace(&mut batch, n), parsed)),
-                None => {
-                    hand_over(&batch, parsed, &mut f)?;
-                    return match batch.end {
-                        Some(Some(e)) => Err(e),
-                        _ => Ok(()),
-                    };
+    /// reading. Blocks of lines are split and parsed on all threads while this thread hands the
+    /// previous ones to `f`.
+    pub(crate) fn for_each(self, mut f: impl FnMut(&Sample) -> Result<()>) -> Result<()> {
+        let cols = &self.cols;
+        self.rows.for_each_block(
+            |block| cols.parse_block(block),
+            |text, parsed: ParsedBlock| {
+                for s in &parsed.samples {
+                    f(&Sample {
+                        time: s.time,
+                        co2: s.co2,
+                        d13c: s.d13c,
+                        group: match &s.group {
+                            Name::Text(r) => &text[r.clone()],
+                            Name::Quoted(r) => &parsed.quoted[r.clone()],
+                        },
+                        sd: s.sd,
+                        bg: s.bg,
+                    })?;
                 }
-            }
-        }
+                Ok(())
+            },
+        )
     }
-}
-
-/// Gives `f` the samples of parsed blocks in order; the first bad row's error stops it.
-fn hand_over(
-    raw: &RawBatch,
-    parsed: Vec<ParsedBlock>,
-    f: &mut impl FnMut(&Sample) -> Result<()>,
-) -> Result<()> {
-    for (block, p) in raw.blocks.iter().zip(parsed) {
-        for s in &p.samples {
-            f(&Sample {
-                time: s.time,
-                co2: s.co2,
-                d13c: s.d13c,
-                group: &block.text[s.group.clone()],
-                sd: s.sd,
-                bg: s.bg,
-            })?;
-        }
-        if let Some(e) = p.error {
-            return Err(e);
-        }
-    }
-    Ok(())
-}
-
-fn read_raw_batch(
-    rdr: &mut csv::Reader<BufReader<File>>,
-    rec: &mut csv::ByteRecord,
-    path: &Path,
-) -> RawBatch {
-    super::blocks::read_batch(rdr, rec, path, BLOCK_ROWS, BATCH_BLOCKS)
 }
 
 impl SampleColumns {
-    fn parse_block(&self, block: &RawBlock) -> ParsedBlock {
+    fn parse_block(&self, block: &[u8]) -> BlockDone<ParsedBlock> {
         let n = self.header.len();
-        let mut samples = Vec::with_capacity(block.lines.len());
-        for (r, &line) in block.lines.iter().enumerate() {
-            let first = if r == 0 { 0 } else { block.ends[r * n - 1] };
-            let ends = &block.ends[r * n..(r + 1) * n];
-            let range = |i: usize| (if i == 0 { first } else { ends[i - 1] })..ends[i];
-            match self.parse_row(line, &block.text, &range) {
-                Ok(s) => samples.push(s),
-                Err(e) => {
-                    return ParsedBlock {
-                        samples,
-                        error: Some(e),
-                    };
-                }
+        let mut parsed = ParsedBlock {
+            samples: Vec::with_capacity(block.len() / 32),
+            quoted: Vec::new(),
+        };
+        let mut cells = Vec::with_capacity(n);
+        let mut rows = Rows::new(block);
+        let error = loop {
+            let Some((at, line)) = rows.next() else {
+                break None;
+            };
+            if let Err(e) = split_cells(line, &mut cells) {
+                break Some((at, format!(", {e}")));
             }
-        }
-        ParsedBlock {
-            samples,
-            error: None,
+            if cells.len() != n {
+                break Some((at, blocks::cell_count_error(cells.len(), n)));
+            }
+            match self.parse_row(&cells) {
+                Ok(mut s) => {
+                    if let Some(g) = self.group {
+                        let name = cells[g].trim_ascii();
+                        s.group = match &cells[g] {
+                            Cow::Borrowed(_) => {
+                                let start = name.as_ptr() as usize - block.as_ptr() as usize;
+                                Name::Text(start..start + name.len())
+                            }
+                            Cow::Owned(_) => {
+                                let start = parsed.quoted.len();
+                                parsed.quoted.extend_from_slice(name);
+                                Name::Quoted(start..parsed.quoted.len())
+                            }
+                        };
+                    }
+                    parsed.samples.push(s);
+                }
+                Err(rest) => break Some((at, rest)),
+            }
+        };
+        BlockDone {
+            out: parsed,
+            lines: rows.lines_seen(),
+            error,
         }
     }
 
-    fn parse_row(
-        &self,
-        line: u64,
-        bytes: &[u8],
-        range: &dyn Fn(usize) -> std::ops::Range<usize>,
-    ) -> Result<ParsedSample> {
-        let cell = |i: usize| &bytes[range(i)];
+    /// One row's sample (its group not yet placed), or the message after `line N`.
+    fn parse_row(&self, cells: &[Cow<'_, [u8]>]) -> std::result::Result<ParsedSample, String> {
+        let cell = |i: usize| cells[i].trim_ascii();
         let bad = |i: usize, why: &str| {
-            Error::msg(format!(
-                "{}: line {line}, column {} ({}): `{}` {why}",
-                self.path.display(),
+            format!(
+                ", column {} ({}): `{}` {why}",
                 i + 1,
                 self.header[i],
                 String::from_utf8_lossy(cell(i))
-            ))
+            )
         };
-        let num = |i: usize| -> Result<f64> {
-            std::str::from_utf8(cell(i))
-                .ok()
-                .and_then(|s| s.parse::<f64>().ok())
+        let num = |i: usize| -> std::result::Result<f64, String> {
+            parse_f64(cell(i))
                 .filter(|v| v.is_finite())
                 .ok_or_else(|| bad(i, "is not a number"))
         };
-        let positive = |i: usize| -> Result<f64> {
+        let positive = |i: usize| -> std::result::Result<f64, String> {
             let v = num(i)?;
             if v > 0.0 {
                 Ok(v)
@@ -828,7 +784,7 @@ impl SampleColumns {
         };
         // Physical ranges (docs/observations.md): CO2 above 0 and at most 100 000 µmol mol⁻¹
         // (10 %, far above any canopy air); δ13C from −100‰ to +50‰ (beyond any natural CO2).
-        let co2 = |i: usize| -> Result<f64> {
+        let co2 = |i: usize| -> std::result::Result<f64, String> {
             let v = positive(i)?;
             if v <= CO2_MAX_UMOL_MOL {
                 Ok(v)
@@ -836,7 +792,7 @@ impl SampleColumns {
                 Err(bad(i, "is outside the CO2 range (0, 100000] µmol mol⁻¹"))
             }
         };
-        let delta = |i: usize| -> Result<f64> {
+        let delta = |i: usize| -> std::result::Result<f64, String> {
             let v = num(i)?;
             if (D13C_RANGE_PERMIL.0..=D13C_RANGE_PERMIL.1).contains(&v) {
                 Ok(v)
@@ -852,14 +808,14 @@ impl SampleColumns {
             time,
             co2: co2(self.co2)?,
             d13c: delta(self.d13c)?,
-            group: self.group.map_or(0..0, range),
+            group: Name::Text(0..0),
             sd: self
                 .sd
-                .map(|(a, b)| Ok::<_, Error>((positive(a)?, positive(b)?)))
+                .map(|(a, b)| Ok::<_, String>((positive(a)?, positive(b)?)))
                 .transpose()?,
             bg: self
                 .bg
-                .map(|(a, b)| Ok::<_, Error>((co2(a)?, delta(b)?)))
+                .map(|(a, b)| Ok::<_, String>((co2(a)?, delta(b)?)))
                 .transpose()?,
         })
     }

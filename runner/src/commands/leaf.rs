@@ -1,8 +1,7 @@
 //! `isodisc leaf`: one leaf under one set of conditions, or one row of output per row of an input CSV
 //! (streamed, so response curves and million-row sweeps are practical).
 
-use std::fs::File;
-use std::io::{self, BufReader, BufWriter, Write};
+use std::io::{self, BufWriter, Write};
 use std::path::{Path, PathBuf};
 
 use isodisc_model::ModelError;
@@ -15,11 +14,11 @@ use isodisc_model::water::vpd_from_rh_kpa;
 use crate::cli::{
     BetaTargetArg, ElectronArg, FormArg, Format, LeafArgs, PathwayArg, TemperatureSetArg,
 };
+use crate::commands::blocks::{self, BlockDone, CsvBlocks, Rows, split_cells};
 use crate::commands::leaf_input::{self, InputColumn};
 use crate::error::{Context, Error, Result};
-use crate::numfmt::push_num;
+use crate::numfmt::{NumRow, parse_f64, push_num, trim_text};
 use crate::output::{AtomicFile, fmt_num, json_num};
-use rayon::prelude::*;
 
 /// Valid RH range (%): a little above 100 is sensor overshoot and means saturated air.
 const RH_RANGE: (f64, f64) = (0.0, 105.0);
@@ -176,17 +175,7 @@ impl LeafPlan {
     }
 
     fn run_file(&self, path: &Path, w: &mut dyn Write) -> Result<()> {
-        let file = File::open(path).with_context(|| format!("cannot open {}", path.display()))?;
-        // Cells are trimmed here (`str::trim`, as `csv::Trim::All` trims string records) rather
-        // than by the reader, which would trim every record twice.
-        let mut rdr =
-            csv::ReaderBuilder::new().from_reader(BufReader::with_capacity(1 << 16, file));
-        let header: csv::StringRecord = rdr
-            .headers()
-            .with_context(|| format!("cannot read the header of {}", path.display()))?
-            .iter()
-            .map(str::trim)
-            .collect();
+        let (rows, header) = CsvBlocks::open(path)?;
         if header.is_empty() {
             return Err(Error::msg(format!(
                 "{}: the file is empty; expected a header row naming the columns (t_leaf, ppfd, \
@@ -215,114 +204,96 @@ impl LeafPlan {
         let pass_cols: Vec<usize> = (0..columns.len())
             .filter(|i| columns[*i] == InputColumn::Pass)
             .collect();
-        let pass_names: Vec<&str> = pass_cols.iter().map(|i| &header[*i]).collect();
+        let pass_names: Vec<&str> = pass_cols.iter().map(|i| header[*i].as_str()).collect();
         let out = RowWriter::new(self.format, &param_cols, &pass_names);
         out.header(w)?;
         let file = InputFile {
-            path,
             header: &header,
             columns: &columns,
             param_cols: &param_cols,
             pass_cols: &pass_cols,
             out: &out,
         };
-        // Blocks of rows are solved and formatted on all threads while this thread writes the
-        // previous batch and reads the next; the text goes out in input order, and the first
-        // error in input order stops the run after the rows before it are written.
-        let mut record = csv::StringRecord::new();
-        let mut batch = read_batch(&mut rdr, &mut record, path);
-        let mut done: Vec<(Vec<u8>, Option<Error>)> = Vec::new();
-        loop {
-            let (results, written, next) = std::thread::scope(|s| {
-                let worker = s.spawn(|| {
-                    batch
-                        .blocks
-                        .par_iter()
-                        .map(|b| self.solve_block(&file, b))
-                        .collect::<Vec<_>>()
-                });
-                let written = write_results(w, std::mem::take(&mut done));
-                let next = (written.is_ok() && batch.end.is_none())
-                    .then(|| read_batch(&mut rdr, &mut record, path));
-                (
-                    worker.join().expect("a block of leaf rows panicked"),
-                    written,
-                    next,
-                )
-            });
-            written?;
-            done = results;
-            match next {
-                Some(n) => batch = n,
-                None => {
-                    write_results(w, done)?;
-                    if let Some(Some(e)) = batch.end {
-                        return Err(e);
-                    }
-                    break;
-                }
-            }
-        }
+        // Blocks of lines are parsed, solved and formatted on all threads; their text goes out
+        // in input order, and the first bad row stops the run after the rows before it.
+        rows.for_each_block(
+            |block| self.solve_block(&file, block),
+            |_, text: Vec<u8>| Ok(w.write_all(&text)?),
+        )?;
         out.finish(w)
     }
 
-    /// Solves and formats one block of rows: the text of the rows up to the first bad one, and
-    /// that row's error.
-    fn solve_block(&self, file: &InputFile<'_>, block: &Block) -> (Vec<u8>, Option<Error>) {
-        let mut text = Vec::with_capacity(block.lines.len() * 160);
+    /// Solves and formats the rows of one block of lines: their text up to the first bad row,
+    /// and that row's line in the block and message.
+    fn solve_block(&self, file: &InputFile<'_>, block: &[u8]) -> BlockDone<Vec<u8>> {
+        let n = file.columns.len();
+        let mut text = Vec::with_capacity(block.len() * 8);
         let mut model = self.model.clone();
         let mut params = Vec::with_capacity(file.param_cols.len());
-        let mut pass: Vec<&str> = Vec::with_capacity(file.pass_cols.len());
-        let n = file.columns.len();
-        for (r, &line) in block.lines.iter().enumerate() {
-            let ends = &block.ends[r * n..(r + 1) * n];
-            let field = |i: usize| {
-                let start = if i == 0 {
-                    if r == 0 { 0 } else { block.ends[r * n - 1] }
-                } else {
-                    ends[i - 1]
-                };
-                &block.text[start..ends[i]]
+        let mut cells = Vec::with_capacity(n);
+        let mut nums_text = NumRow::new(LeafConditions::RANGES.len() + file.param_cols.len() + 9);
+        let mut rows = Rows::new(block);
+        let error = loop {
+            let Some((at, line)) = rows.next() else {
+                break None;
             };
-            let row = self.solve_row(file, &mut model, &mut params, line, &field);
-            match row {
-                Ok((c, state)) => {
-                    pass.clear();
-                    pass.extend(file.pass_cols.iter().map(|i| field(*i)));
-                    if let Err(e) = file.out.row(&mut text, &c, &params, &state, &pass) {
-                        return (text, Some(e));
-                    }
-                }
-                Err(e) => return (text, Some(e)),
+            if let Err(e) = split_cells(line, &mut cells) {
+                break Some((at, format!(", {e}")));
             }
+            if cells.len() != n {
+                break Some((at, blocks::cell_count_error(cells.len(), n)));
+            }
+            let pass_cell = |i: usize| std::str::from_utf8(trim_text(&cells[i]));
+            if let Some(&i) = file.pass_cols.iter().find(|&&i| pass_cell(i).is_err()) {
+                let name = &file.header[i];
+                break Some((at, format!(", column {} (`{name}`): not UTF-8 text", i + 1)));
+            }
+            let (c, state) = match self.solve_row(file, &mut model, &mut params, &cells) {
+                Ok(r) => r,
+                Err(rest) => break Some((at, rest)),
+            };
+            let pass = file.pass_cols.iter().map(|&i| pass_cell(i).unwrap_or(""));
+            if let Err(e) = file
+                .out
+                .row(&mut text, &mut nums_text, &c, &params, &state, pass)
+            {
+                break Some((at, format!(": {e}")));
+            }
+        };
+        BlockDone {
+            out: text,
+            lines: rows.lines_seen(),
+            error,
         }
-        (text, None)
     }
 
-    /// One input row: its conditions and the solved leaf, or an error naming the line and column.
-    fn solve_row<'a>(
+    /// One input row: its conditions and the solved leaf, or the message after `line N` that
+    /// names the column.
+    fn solve_row(
         &self,
         file: &InputFile<'_>,
         model: &mut LeafModel,
         params: &mut Vec<f64>,
-        line: u64,
-        field: &dyn Fn(usize) -> &'a str,
-    ) -> Result<(LeafConditions, LeafState)> {
-        let (path, header) = (file.path, file.header);
+        cells: &[std::borrow::Cow<'_, [u8]>],
+    ) -> std::result::Result<(LeafConditions, LeafState), String> {
+        let header = file.header;
         let mut vals = values(&self.base);
         let mut rh = self.base_rh;
         for (i, col) in file.columns.iter().enumerate() {
-            let field = field(i);
-            if field.is_empty() || *col == InputColumn::Pass {
+            if *col == InputColumn::Pass {
                 continue;
             }
-            let v: f64 = field.parse().map_err(|_| {
-                Error::msg(format!(
-                    "{}: line {line}, column {} (`{}`): `{field}` is not a number",
-                    path.display(),
+            let field = trim_text(&cells[i]);
+            if field.is_empty() {
+                continue;
+            }
+            let v = parse_f64(field).ok_or_else(|| {
+                format!(
+                    ", column {} (`{}`): `{}` is not a number",
                     i + 1,
-                    &header[i]
-                ))
+                    &header[i],
+                    String::from_utf8_lossy(field)
+                )
             })?;
             match col {
                 InputColumn::Condition(k) => {
@@ -332,13 +303,13 @@ impl LeafPlan {
                     }
                 }
                 InputColumn::Rh => {
-                    check_cell(path, line, i, &header[i], v, RH_RANGE.0, RH_RANGE.1, "%")?;
+                    check_cell(i, &header[i], v, RH_RANGE.0, RH_RANGE.1, "%")?;
                     rh = Some(v);
                 }
                 InputColumn::Param(name) => {
                     model
                         .set(name, v)
-                        .map_err(|e| cell_error(path, line, i, &header[i], e))?;
+                        .map_err(|e| cell_error(i, &header[i], e))?;
                 }
                 InputColumn::Pass => {}
             }
@@ -361,8 +332,8 @@ impl LeafPlan {
                 _ => None,
             };
             match col {
-                Some(i) => cell_error(path, line, i, &header[i], e),
-                None => Error::msg(format!("{}: line {line}: {e}", path.display())),
+                Some(i) => cell_error(i, &header[i], e),
+                None => format!(": {e}"),
             }
         })?;
         if !file.param_cols.is_empty() {
@@ -374,38 +345,11 @@ impl LeafPlan {
 
 /// What the rows of one `leaf --input` file share: its header and what each column does.
 struct InputFile<'a> {
-    path: &'a Path,
-    header: &'a csv::StringRecord,
+    header: &'a [String],
     columns: &'a [InputColumn],
     param_cols: &'a [(usize, &'a str)],
     pass_cols: &'a [usize],
     out: &'a RowWriter,
-}
-
-/// Rows of input per block (one task for a thread), and blocks read per batch.
-const BLOCK_ROWS: usize = 2048;
-const BATCH_BLOCKS: usize = 32;
-
-type Block = super::blocks::Block<String>;
-type Batch = super::blocks::Batch<String>;
-
-fn read_batch<R: std::io::Read>(
-    rdr: &mut csv::Reader<R>,
-    record: &mut csv::StringRecord,
-    path: &Path,
-) -> Batch {
-    super::blocks::read_batch(rdr, record, path, BLOCK_ROWS, BATCH_BLOCKS)
-}
-
-/// Writes each block's text in order; the first block that stopped at a bad row ends the run.
-fn write_results(w: &mut dyn Write, results: Vec<(Vec<u8>, Option<Error>)>) -> Result<()> {
-    for (text, err) in results {
-        w.write_all(&text)?;
-        if let Some(e) = err {
-            return Err(e);
-        }
-    }
-    Ok(())
 }
 
 /// The conditions in the order of `LeafConditions::RANGES`.
@@ -450,34 +394,28 @@ fn check_flag(name: &str, v: f64, min: f64, max: f64, unit: &str) -> Result<()> 
     }
 }
 
-#[allow(clippy::too_many_arguments)]
+/// The message after `line N` for a cell outside its range.
 fn check_cell(
-    path: &Path,
-    line: u64,
     col: usize,
     name: &str,
     v: f64,
     min: f64,
     max: f64,
     unit: &str,
-) -> Result<()> {
+) -> std::result::Result<(), String> {
     if v.is_finite() && v >= min && v <= max {
         Ok(())
     } else {
-        Err(Error::msg(format!(
-            "{}: line {line}, column {} (`{name}`): {v} is outside the valid range {min} to {max} {unit}",
-            path.display(),
+        Err(format!(
+            ", column {} (`{name}`): {v} is outside the valid range {min} to {max} {unit}",
             col + 1
-        )))
+        ))
     }
 }
 
-fn cell_error(path: &Path, line: u64, col: usize, name: &str, e: ModelError) -> Error {
-    Error::msg(format!(
-        "{}: line {line}, column {} (`{name}`): {e}",
-        path.display(),
-        col + 1
-    ))
+/// The message after `line N` for a cell the model refused.
+fn cell_error(col: usize, name: &str, e: ModelError) -> String {
+    format!(", column {} (`{name}`): {e}", col + 1)
 }
 
 /// Output columns after the conditions: (name, unit).
@@ -536,7 +474,14 @@ fn write_single(
             let out = RowWriter::new(format, &[], &[]);
             out.header(w)?;
             let mut text = Vec::new();
-            out.row(&mut text, c, &[], s, &[])?;
+            out.row(
+                &mut text,
+                &mut NumRow::new(0),
+                c,
+                &[],
+                s,
+                std::iter::empty(),
+            )?;
             w.write_all(&text)?;
             out.finish(w)?;
         }
@@ -591,56 +536,59 @@ impl RowWriter {
     }
 
     /// Appends one row's text to `out`.
-    fn row(
+    fn row<'p>(
         &self,
         out: &mut Vec<u8>,
+        nums_text: &mut NumRow,
         c: &LeafConditions,
         params: &[f64],
         s: &LeafState,
-        pass: &[&str],
+        pass: impl IntoIterator<Item = &'p str>,
     ) -> Result<()> {
         let nums = values(c)
             .into_iter()
             .chain(params.iter().copied())
             .chain(result_values(s));
         match self.format {
-            Format::Csv | Format::Table => {
-                let table = self.format == Format::Table;
+            Format::Csv => {
                 for cell in pass {
-                    if table {
-                        out.extend_from_slice(format!(" {cell:>15}").as_bytes());
-                    } else {
-                        leaf_input::push_csv_cell(out, cell);
-                        out.push(b',');
+                    leaf_input::push_csv_cell(out, cell);
+                    out.push(b',');
+                }
+                nums_text.clear();
+                let mut col = 0;
+                for part in [&values(c)[..], params, &result_values(s)[..]] {
+                    for &v in part {
+                        nums_text.push(col, v);
+                        nums_text.push_byte(b',');
+                        col += 1;
                     }
                 }
-                for (i, v) in nums.enumerate() {
-                    if i > 0 && !table {
-                        out.push(b',');
-                    }
+                out.extend_from_slice(nums_text.as_bytes());
+                out.extend_from_slice(s.limitation.as_str().as_bytes());
+                out.push(b'\n');
+            }
+            Format::Table => {
+                for cell in pass {
+                    out.extend_from_slice(format!(" {cell:>15}").as_bytes());
+                }
+                for v in nums {
                     let start = out.len();
                     push_num(out, v);
-                    if table {
-                        let width = out.len() - start;
-                        if width == 0 {
-                            out.push(b'-');
-                        }
-                        let pad = 1 + 15usize.saturating_sub(width.max(1));
-                        out.splice(start..start, std::iter::repeat_n(b' ', pad));
+                    let width = out.len() - start;
+                    if width == 0 {
+                        out.push(b'-');
                     }
+                    let pad = 1 + 15usize.saturating_sub(width.max(1));
+                    out.splice(start..start, std::iter::repeat_n(b' ', pad));
                 }
-                if table {
-                    out.extend_from_slice(format!(" {:>15}", s.limitation.as_str()).as_bytes());
-                } else {
-                    out.push(b',');
-                    out.extend_from_slice(s.limitation.as_str().as_bytes());
-                }
+                out.extend_from_slice(format!(" {:>15}", s.limitation.as_str()).as_bytes());
                 out.push(b'\n');
             }
             Format::Json => {
                 let mut obj = serde_json::Map::new();
                 for (name, cell) in self.pass_names.iter().zip(pass) {
-                    obj.insert(name.clone(), (*cell).into());
+                    obj.insert(name.clone(), cell.into());
                 }
                 for (name, v) in self.names.iter().zip(nums) {
                     obj.insert(name.clone(), json_num(v));

@@ -60,7 +60,7 @@ pub fn parse_maps(maps: &[String]) -> Result<Vec<(String, String)>> {
 /// What each column of `header` does. A column whose name is close to a condition's or a
 /// parameter's (a likely typo) is an error; a mapped column that is not in the header is one too.
 pub fn map_columns(
-    header: &csv::StringRecord,
+    header: &[String],
     pathway: Pathway,
     path: &Path,
     maps: &[(String, String)],
@@ -80,7 +80,7 @@ pub fn map_columns(
     };
     for (name, column) in maps {
         if !header.iter().any(|h| h == column) {
-            let hint = closest_name(column, header.iter())
+            let hint = closest_name(column, header.iter().map(String::as_str))
                 .map(|k| format!(" (did you mean `{k}`?)"))
                 .unwrap_or_default();
             return Err(Error::msg(format!(
@@ -99,6 +99,7 @@ pub fn map_columns(
         .iter()
         .enumerate()
         .map(|(i, h)| {
+            let h = h.as_str();
             if let Some((name, _)) = maps.iter().find(|(_, c)| c == h) {
                 return Ok(own(name).expect("parse_maps accepts conditions and rh only"));
             }

@@ -9,6 +9,7 @@ mod fit;
 mod golden;
 mod grid;
 mod isotopes_leaf;
+mod keeling_input;
 mod model_numerics;
 mod numbers_text;
 mod observations;

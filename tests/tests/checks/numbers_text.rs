@@ -3,7 +3,7 @@
 //! number reader against `str::parse::<f64>`, over random values and bit patterns.
 
 use crate::common::proptest_config;
-use isodisc_runner::numfmt::{micro_text, push_num};
+use isodisc_runner::numfmt::{NumRow, micro_text, parse_f64, push_num, trim_text};
 use isodisc_runner::output::fmt_num;
 use proptest::prelude::*;
 use std::fmt::Write as _;
@@ -95,8 +95,145 @@ fn edge_values_spell_as_the_reference() {
     }
 }
 
+/// What `str::parse::<f64>` reads from the bytes (the reference for [`parse_f64`]).
+fn std_parse(text: &[u8]) -> Option<f64> {
+    std::str::from_utf8(text).ok()?.parse().ok()
+}
+
+/// Same value, bit for bit (NaN equal to NaN).
+fn same(a: Option<f64>, b: Option<f64>) -> bool {
+    match (a, b) {
+        (Some(x), Some(y)) => x.to_bits() == y.to_bits() || (x.is_nan() && y.is_nan()),
+        (None, None) => true,
+        _ => false,
+    }
+}
+
+#[test]
+fn edge_texts_read_as_the_standard_library_reads_them() {
+    // Signs, lone points, signed zeros, the largest exact mantissa 2^53 and the first above it,
+    // 19 and 20 digits, decimals past 10^22, exponents, words and white space (common practice:
+    // the standard library's correctly rounded reader is the reference).
+    for text in [
+        "",
+        "-",
+        "+",
+        ".",
+        "-.",
+        "1.",
+        ".5",
+        "+3",
+        "-0",
+        "-0.0",
+        "0.1",
+        "0.3",
+        "2037.1",
+        "-27.453009",
+        "9007199254740992",
+        "9007199254740993",
+        "900719925474099.3",
+        "1234567890123456789",
+        "12345678901234567890",
+        "0.0000000000000000000000001",
+        "1.0000000000000000000000001",
+        "1e5",
+        "1E-3",
+        "1e",
+        "inf",
+        "-inf",
+        "Infinity",
+        "NaN",
+        "nan",
+        "1.2.3",
+        " 1",
+        "1 ",
+        "1,5",
+        "0x10",
+        "１",
+        "1_000",
+        "00000000000000000001.5",
+    ] {
+        let b = text.as_bytes();
+        assert!(
+            same(parse_f64(b), std_parse(b)),
+            "`{text}`: {:?} vs {:?}",
+            parse_f64(b),
+            std_parse(b)
+        );
+    }
+    assert!(same(parse_f64(&[b'1', 0xFF]), None));
+}
+
+#[test]
+fn trimming_matches_str_trim() {
+    // Unicode White_Space at either end, including U+000B, U+0085, U+00A0 and U+3000, which
+    // `str::trim` removes (the Rust standard library as reference).
+    for text in [
+        "",
+        " ",
+        " 25 ",
+        "\t25\r",
+        "\u{b}25\u{c}",
+        "\u{85}25\u{a0}",
+        "\u{3000}x\u{2003}",
+        "a b",
+        "\u{a0}",
+        "é ",
+        " é",
+    ] {
+        assert_eq!(
+            trim_text(text.as_bytes()),
+            text.trim().as_bytes(),
+            "{text:?}"
+        );
+    }
+}
+
 proptest! {
     #![proptest_config(proptest_config("numbers_text", 20_000))]
+
+    /// Decimal texts as instruments and spreadsheets write them: up to 20 digits around a point,
+    /// either sign; and the shortest spelling of any double (`Display`).
+    #[test]
+    fn decimal_texts_read_as_the_standard_library_reads_them(
+        sign in prop::sample::select(vec!["", "-", "+"]),
+        int in "[0-9]{0,12}",
+        frac in prop::option::of("[0-9]{0,10}"),
+        bits in any::<u64>(),
+    ) {
+        let text = match &frac {
+            Some(f) => format!("{sign}{int}.{f}"),
+            None => format!("{sign}{int}"),
+        };
+        let b = text.as_bytes();
+        prop_assert!(same(parse_f64(b), std_parse(b)), "`{}`", text);
+        let shortest = f64::from_bits(bits).to_string();
+        let b = shortest.as_bytes();
+        prop_assert!(same(parse_f64(b), std_parse(b)), "`{}`", shortest);
+    }
+
+    /// A row of numbers spelled through the reused buffer, with values that repeat from row to
+    /// row in some columns, is the reference spelling of each, comma-separated.
+    #[test]
+    fn rows_spell_each_number_as_the_reference(
+        rows in prop::collection::vec(prop::collection::vec(
+            prop_oneof![
+                Just(25.0), Just(f64::NAN), Just(f64::INFINITY), Just(1e300), -1.0e6f64..1.0e6,
+            ], 6), 1..6),
+    ) {
+        let mut row = NumRow::new(4);
+        for values in &rows {
+            row.clear();
+            let mut want = String::new();
+            for (i, v) in values.iter().enumerate() {
+                row.push(i, *v);
+                row.push_byte(b',');
+                want.push_str(&reference(*v));
+                want.push(',');
+            }
+            prop_assert_eq!(String::from_utf8(row.as_bytes().to_vec()).unwrap(), want);
+        }
+    }
 
     /// Any bit pattern: subnormals, huge values, NaN payloads, both zeros.
     #[test]

@@ -182,3 +182,108 @@ fn long_inputs_keep_row_order_and_report_the_first_bad_line() {
         "{err}"
     );
 }
+
+/// A file as spreadsheets save it (RFC 4180): CRLF line breaks, a byte-order mark, quoted cells
+/// with commas and doubled quotes, quoted numbers, blank lines. Its rows give the same leaves as
+/// the plain file, and the pass-through cells are what the `csv` crate (an RFC 4180 reader, as
+/// reference) reads from it.
+#[test]
+fn spreadsheet_csv_reads_as_an_rfc4180_reader_reads_it() {
+    let dir = tempfile::tempdir().unwrap();
+    let fancy = dir.path().join("fancy.csv");
+    let plain = dir.path().join("plain.csv");
+    fs::write(
+        &fancy,
+        "\u{feff}sample,t_leaf,ppfd\r\n\"A,1\",25,1500\r\n\r\n\"say \"\"hi\"\"\",\"30\",800\r\nC3,18.5,\r\n",
+    )
+    .unwrap();
+    fs::write(
+        &plain,
+        "sample,t_leaf,ppfd\nA1,25,1500\nB,30,800\nC3,18.5,\n",
+    )
+    .unwrap();
+    let solve = |input: &std::path::Path, name: &str| {
+        let out = dir.path().join(name);
+        run(&[
+            "leaf",
+            "--input",
+            input.to_str().unwrap(),
+            "--format",
+            "csv",
+            "--output",
+            out.to_str().unwrap(),
+        ])
+        .unwrap();
+        rows(&out)
+    };
+    let (h1, got) = solve(&fancy, "fancy_out.csv");
+    let (h2, want) = solve(&plain, "plain_out.csv");
+    assert_eq!(h1, h2);
+    assert_eq!(got.len(), 3);
+    let mut reference = csv::ReaderBuilder::new()
+        .trim(csv::Trim::All)
+        .from_path(&fancy)
+        .unwrap();
+    let ids: Vec<String> = reference
+        .records()
+        .map(|r| r.unwrap()[0].to_string())
+        .collect();
+    for ((g, w), id) in got.iter().zip(&want).zip(&ids) {
+        assert_eq!(&g[0], id.as_str());
+        assert_eq!(
+            g.iter().skip(1).collect::<Vec<_>>(),
+            w.iter().skip(1).collect::<Vec<_>>()
+        );
+    }
+}
+
+/// One row is one line: a quoted cell that runs past its line, a row with a cell too many, and a
+/// bad number after blank lines in a later block are each refused by their own line (counted in
+/// the file, blank lines included) and column (common practice).
+#[test]
+fn rows_that_do_not_fit_their_line_are_refused_by_line() {
+    let dir = tempfile::tempdir().unwrap();
+    let input = dir.path().join("bad.csv");
+    let p = input.to_str().unwrap();
+    fs::write(&input, "sample,t_leaf\n\"A\n1\",25\n").unwrap();
+    let err = run(&["leaf", "--input", p]).unwrap_err();
+    assert!(
+        err.contains("bad.csv: line 2, column 1: a quoted cell is not closed"),
+        "{err}"
+    );
+    fs::write(&input, "sample,t_leaf\nA,25\nB,25,7\n").unwrap();
+    let err = run(&["leaf", "--input", p]).unwrap_err();
+    assert!(
+        err.contains("line 3: 3 cells where the header has 2"),
+        "{err}"
+    );
+    // 20,000 rows (several blocks), a blank line every 100, a bad cell on line 15,151.
+    let mut text = String::from("t_leaf,ppfd\n");
+    let mut line = 1;
+    let mut bad_line = 0;
+    for i in 0..20_000 {
+        if i % 100 == 50 {
+            text.push('\n');
+            line += 1;
+        }
+        line += 1;
+        if i == 15_000 {
+            text.push_str("25,bright\n");
+            bad_line = line;
+        } else {
+            text.push_str(&format!("{},{}\n", 10 + i % 20, i % 2000));
+        }
+    }
+    fs::write(&input, &text).unwrap();
+    let err = run(&[
+        "leaf",
+        "--input",
+        p,
+        "--output",
+        dir.path().join("o.csv").to_str().unwrap(),
+    ])
+    .unwrap_err();
+    let want = format!("line {bad_line}, column 2 (`ppfd`): `bright` is not a number");
+    assert!(err.contains(&want), "{err} (expected {want})");
+    assert_eq!(text.lines().nth(bad_line - 1), Some("25,bright"));
+}
