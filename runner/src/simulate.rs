@@ -268,6 +268,38 @@ pub fn simulate_lit(
     sink: &mut dyn StepSink,
     lights: &[Option<StepLight>],
 ) -> Result<Simulated> {
+    simulate_keeping(site, steps, step_minutes, sink, lights, Kept::ALL)
+}
+
+/// Which period rows a simulation sums up: the daily rows always (the pools' days and the
+/// effective lag need them), the monthly and annual rows when asked for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Kept {
+    /// Monthly rows.
+    pub monthly: bool,
+    /// Annual rows.
+    pub annual: bool,
+}
+
+impl Kept {
+    /// Every period.
+    pub const ALL: Kept = Kept {
+        monthly: true,
+        annual: true,
+    };
+}
+
+/// [`simulate_lit`] keeping only the periods `kept` asks for: the periods left out come back
+/// empty, and everything else is what [`simulate_lit`] gives, to the bit (a caller that reads
+/// only daily rows, as a fit's evaluations, saves the monthly and annual sums of every step).
+pub fn simulate_keeping(
+    site: &Site,
+    steps: impl Iterator<Item = std::result::Result<ForcingStep, ForcingError>>,
+    step_minutes: u32,
+    sink: &mut dyn StepSink,
+    lights: &[Option<StepLight>],
+    kept: Kept,
+) -> Result<Simulated> {
     let light = |i: usize| lights.get(i).and_then(Option::as_ref);
     let mut index = 0usize;
     let mut model = SiteModel::new(site.settings.clone())?;
@@ -289,18 +321,18 @@ pub fn simulate_lit(
     let mut first_year: Vec<(ForcingStep, Option<SiteDrivers>, Option<SiteStep>)> = Vec::new();
     let mut year_end: Option<LocalTime> = None;
     while let Some(item) = steps.peek() {
-        let f = match item {
-            Ok(f) => f.clone(),
+        let time = match item {
+            Ok(f) => f.time,
             Err(_) => {
                 let e = steps.next().expect("peeked").expect_err("peeked an error");
                 return Err(e).with_context(|| format!("site {}", site.path.display()));
             }
         };
-        let end = *year_end.get_or_insert(f.time.plus_minutes(365 * 1440));
-        if f.time >= end {
+        let end = *year_end.get_or_insert(time.plus_minutes(365 * 1440));
+        if time >= end {
             break;
         }
-        steps.next();
+        let f = steps.next().expect("peeked").expect("peeked a step");
         // The pools start after this year, so its leaves respire their current assimilate (e′ = e).
         let (d, s) = site_step(
             site,
@@ -324,37 +356,41 @@ pub fn simulate_lit(
         Aggregator::new(PeriodKind::Monthly, step_minutes),
         Aggregator::new(PeriodKind::Annual, step_minutes),
     ];
+    // The step's drivers and site step by reference: they are moved no further.
     let mut process = |f: &ForcingStep,
-                       d: Option<SiteDrivers>,
-                       s: Option<SiteStep>,
+                       d: Option<&SiteDrivers>,
+                       s: Option<&SiteStep>,
                        sink: &mut dyn StepSink|
      -> Result<()> {
         // The pools as they stand at the end of the day just closed, before this step moves them.
         if aggs[0].current_key_differs(f.time) {
             pools.end_of_day(sink, aggs[0].current_date)?;
         }
-        let resp = match (&d, &s) {
+        let resp = match (d, s) {
             (Some(d), Some(s)) => Some(pools.step(f.time.date(), d, s, step_days)?),
             _ => None,
         };
         substrate.set(pools.leaf_substrate_d13c());
         let view = StepView {
             forcing: f,
-            drivers: d.as_ref(),
-            site: s.as_ref(),
+            drivers: d,
+            site: s,
             respiration: resp.as_ref(),
             c3,
             c4,
         };
         sink.step(&view)?;
-        for a in &mut aggs {
-            a.add(&view, step_days * SECONDS_PER_DAY);
+        for (a, on) in aggs.iter_mut().zip([true, kept.monthly, kept.annual]) {
+            if on {
+                a.add(&view, step_days * SECONDS_PER_DAY);
+            }
         }
         Ok(())
     };
-    for (f, d, s) in first_year.drain(..) {
-        process(&f, d, s, sink)?;
+    for (f, d, s) in &first_year {
+        process(f, d.as_ref(), s.as_ref(), sink)?;
     }
+    drop(first_year);
     for item in steps {
         let f = item.with_context(|| format!("site {}", site.path.display()))?;
         let (d, s) = site_step(
@@ -367,7 +403,7 @@ pub fn simulate_lit(
             light(index),
         )?;
         index += 1;
-        process(&f, d, s, sink)?;
+        process(&f, d.as_ref(), s.as_ref(), sink)?;
     }
     if aggs[0].current.is_some() {
         pools.end_of_day(sink, aggs[0].current_date)?;
