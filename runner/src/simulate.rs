@@ -271,10 +271,12 @@ pub fn simulate_lit(
     simulate_keeping(site, steps, step_minutes, sink, lights, Kept::ALL)
 }
 
-/// Which period rows a simulation sums up: the daily rows always (the pools' days and the
-/// effective lag need them), the monthly and annual rows when asked for.
+/// Which period rows a simulation sums up (the effective lag of the pools' diagnostics needs the
+/// daily rows: it is None without them).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct Kept {
+    /// Daily rows.
+    pub daily: bool,
     /// Monthly rows.
     pub monthly: bool,
     /// Annual rows.
@@ -284,6 +286,7 @@ pub struct Kept {
 impl Kept {
     /// Every period.
     pub const ALL: Kept = Kept {
+        daily: true,
         monthly: true,
         annual: true,
     };
@@ -291,7 +294,8 @@ impl Kept {
 
 /// [`simulate_lit`] keeping only the periods `kept` asks for: the periods left out come back
 /// empty, and everything else is what [`simulate_lit`] gives, to the bit (a caller that reads
-/// only daily rows, as a fit's evaluations, saves the monthly and annual sums of every step).
+/// only some periods, as a fit's evaluations or an ensemble's members, saves the sums of the
+/// others at every step).
 pub fn simulate_keeping(
     site: &Site,
     steps: impl Iterator<Item = std::result::Result<ForcingStep, ForcingError>>,
@@ -362,12 +366,18 @@ pub fn simulate_keeping(
                        s: Option<&SiteStep>,
                        sink: &mut dyn StepSink|
      -> Result<()> {
+        // The step's day, converted to a calendar date once for every period.
+        let date = f.time.date();
+        let ymd = {
+            let (y, m, d) = crate::forcing::time::civil_from_days(date.days());
+            (y as i32, m, d)
+        };
         // The pools as they stand at the end of the day just closed, before this step moves them.
-        if aggs[0].current_key_differs(f.time) {
+        if aggs[0].current_key_differs(ymd) {
             pools.end_of_day(sink, aggs[0].current_date)?;
         }
         let resp = match (d, s) {
-            (Some(d), Some(s)) => Some(pools.step(f.time.date(), d, s, step_days)?),
+            (Some(d), Some(s)) => Some(pools.step(date, d, s, step_days)?),
             _ => None,
         };
         substrate.set(pools.leaf_substrate_d13c());
@@ -380,9 +390,11 @@ pub fn simulate_keeping(
             c4,
         };
         sink.step(&view)?;
-        for (a, on) in aggs.iter_mut().zip([true, kept.monthly, kept.annual]) {
+        // The daily periods are followed for the pools' days even when their sums are not kept.
+        aggs[0].add(&view, date, ymd, step_days * SECONDS_PER_DAY, kept.daily);
+        for (a, on) in aggs[1..].iter_mut().zip([kept.monthly, kept.annual]) {
             if on {
-                a.add(&view, step_days * SECONDS_PER_DAY);
+                a.add(&view, date, ymd, step_days * SECONDS_PER_DAY, true);
             }
         }
         Ok(())
@@ -408,8 +420,10 @@ pub fn simulate_keeping(
     if aggs[0].current.is_some() {
         pools.end_of_day(sink, aggs[0].current_date)?;
     }
-    for a in &mut aggs {
-        a.flush();
+    for (a, on) in aggs.iter_mut().zip([kept.daily, kept.monthly, kept.annual]) {
+        if on {
+            a.flush();
+        }
     }
     let [daily, monthly, annual] = aggs.map(|a| a.rows);
     let mut diagnostics = pools.diagnostics;
@@ -766,11 +780,12 @@ enum PeriodKind {
 type PeriodKey = (i32, u32, u32);
 
 impl PeriodKind {
-    fn key(self, t: LocalTime) -> PeriodKey {
+    /// The period of the day `(year, month, day)`.
+    fn key(self, (y, m, d): PeriodKey) -> PeriodKey {
         match self {
-            PeriodKind::Daily => (t.year(), t.month(), t.day()),
-            PeriodKind::Monthly => (t.year(), t.month(), 0),
-            PeriodKind::Annual => (t.year(), 0, 0),
+            PeriodKind::Daily => (y, m, d),
+            PeriodKind::Monthly => (y, m, 0),
+            PeriodKind::Annual => (y, 0, 0),
         }
     }
 
@@ -877,21 +892,28 @@ impl Aggregator {
         }
     }
 
-    /// True when a period is open and `t` belongs to another one.
-    fn current_key_differs(&self, t: LocalTime) -> bool {
+    /// True when a period is open and the day `ymd` belongs to another one.
+    fn current_key_differs(&self, ymd: PeriodKey) -> bool {
         self.current
             .as_ref()
-            .is_some_and(|(k, _)| *k != self.kind.key(t))
+            .is_some_and(|(k, _)| *k != self.kind.key(ymd))
     }
 
-    fn add(&mut self, v: &StepView<'_>, step_s: f64) {
+    /// Adds the step `v` of the day `date`, `ymd` its (year, month, day), to its period: its
+    /// sums when `sum` is set, else only where the period starts and ends (no row is kept).
+    fn add(&mut self, v: &StepView<'_>, date: LocalDate, ymd: PeriodKey, step_s: f64, sum: bool) {
         let f = v.forcing;
-        let key = self.kind.key(f.time);
+        let key = self.kind.key(ymd);
         if self.current.as_ref().is_none_or(|(k, _)| *k != key) {
-            self.flush();
+            if sum {
+                self.flush();
+            }
             self.current = Some((key, Sums::default()));
         }
-        self.current_date = Some(f.time.date());
+        self.current_date = Some(date);
+        if !sum {
+            return;
+        }
         let (_, sums) = self.current.as_mut().expect("set above");
         sums.steps += 1;
         sums.filled += usize::from(f.filled);

@@ -340,6 +340,7 @@ impl FitPlan {
         }
         // The streams read daily rows, and monthly rows for monthly observations only.
         let kept = Kept {
+            daily: true,
             monthly: self.streams.iter().any(|s| s.pairing == Pairing::Monthly),
             annual: false,
         };
