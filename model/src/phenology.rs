@@ -408,7 +408,7 @@ impl ColdState {
         self.recent.push_back(t_air_c);
         while self.recent.len() > per_day {
             let old = self.recent.pop_front().expect("longer than per_day >= 1");
-            if carried.is_some_and(|m| !(old > m)) {
+            if carried.is_some_and(|m| old.partial_cmp(&m) != Some(std::cmp::Ordering::Greater)) {
                 carried = None;
             }
         }
