@@ -379,6 +379,8 @@ impl Phenology {
 pub struct ColdState {
     recent: VecDeque<f64>,
     t_soil_c: Option<f64>,
+    /// The minimum of `recent` as the left fold `f64::min` from +∞ gives it, bit for bit.
+    tmin: Option<f64>,
 }
 
 /// What the cold rule decided for one step.
@@ -397,16 +399,29 @@ impl ColdState {
     /// cold factor f_cold = iTmin(min of the last 24 h), 0 when the soil is frozen.
     pub fn step(&mut self, t_air_c: f64, step_hours: f64) -> ColdStep {
         let per_day = (24.0 / step_hours).round().max(1.0) as usize;
+        // The window's minimum is carried from step to step rather than folded anew: the fold
+        // over the window after dropping values strictly above its minimum ends on the same
+        // bits (the result follows from the values equal to the minimum alone, met from an
+        // accumulator strictly above it either way), and appending a value is one more step of
+        // the fold. Dropping the minimum itself, a NaN or a tie refolds.
+        let mut carried = self.tmin;
         self.recent.push_back(t_air_c);
         while self.recent.len() > per_day {
-            self.recent.pop_front();
+            let old = self.recent.pop_front().expect("longer than per_day >= 1");
+            if carried.is_some_and(|m| old.partial_cmp(&m) != Some(std::cmp::Ordering::Greater)) {
+                carried = None;
+            }
         }
         let t_soil_c = match self.t_soil_c {
             None => t_air_c,
             Some(t) => running_mean_step(t, t_air_c, step_hours / 24.0, SOIL_TEMPERATURE_LAG_DAYS),
         };
         self.t_soil_c = Some(t_soil_c);
-        let tmin_24h_c = self.recent.iter().copied().fold(f64::INFINITY, f64::min);
+        let tmin_24h_c = match carried {
+            Some(m) => f64::min(m, t_air_c),
+            None => self.recent.iter().copied().fold(f64::INFINITY, f64::min),
+        };
+        self.tmin = Some(tmin_24h_c);
         let factor = if t_soil_c <= FROZEN_SOIL_C {
             0.0
         } else {
@@ -423,6 +438,36 @@ impl ColdState {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The carried 24-h minimum is the minimum of the last day's values recomputed from them, bit
+    /// for bit, through ties of +0 and −0, NaN and a step length that grows (the window shrinks) (common practice:
+    /// compare a shortcut with the definition it replaces).
+    #[test]
+    fn carried_minimum_is_the_windows_minimum() {
+        let mut c = ColdState::default();
+        let mut all = Vec::new();
+        let mut x: u64 = 12345;
+        for i in 0..3000 {
+            // A small linear congruential sequence (Knuth's MMIX constants) of temperatures on
+            // a coarse grid, so that ties are frequent.
+            x = x
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            let t = match (x >> 33) % 23 {
+                0 => 0.0,
+                1 => -0.0,
+                2 => f64::NAN,
+                k => (k as f64 - 12.0) * 0.5,
+            };
+            let hours = if i < 1500 { 0.5 } else { 1.0 };
+            let per_day = (24.0 / hours) as usize;
+            all.push(t);
+            let got = c.step(t, hours).tmin_24h_c;
+            let window = &all[all.len().saturating_sub(per_day)..];
+            let want = window.iter().copied().fold(f64::INFINITY, f64::min);
+            assert_eq!(got.to_bits(), want.to_bits(), "step {i}");
+        }
+    }
 
     #[test]
     fn window_fills_from_the_first_step_and_moves_daily() {

@@ -21,7 +21,7 @@
 //!   for leaf width d, 1.4 the outdoor enhancement (Campbell & Norman 1998, from memory).
 
 use crate::canopy::assimilation::{
-    CanopyDrivers, CanopyFlux, CanopyLight, CanopySettings, canopy_step_shared,
+    CanopyDrivers, CanopyFlux, CanopyLight, CanopySettings, canopy_step_in,
 };
 use crate::canopy::radiation::diffuse_fraction_erbs;
 use crate::canopy::solar::Location;
@@ -141,11 +141,59 @@ pub struct PathwayStep {
     pub lai_m2_m2: f64,
 }
 
+/// The pathways of a site step, in the settings' order: at most one C3 and one C4, held in place
+/// (no allocation per step); read as a slice.
+#[derive(Clone, Copy)]
+pub struct PathwaySteps {
+    items: [PathwayStep; 2],
+    len: usize,
+}
+
+impl PathwaySteps {
+    fn new() -> Self {
+        let none = PathwayStep {
+            pathway: Pathway::C3,
+            canopy: CanopyFlux::empty(),
+            gpp_umol_m2_s: 0.0,
+            lai_m2_m2: 0.0,
+        };
+        Self {
+            items: [none; 2],
+            len: 0,
+        }
+    }
+
+    /// Appends a pathway (a site has at most two, one per pathway: [`SiteModel::new`]).
+    fn push(&mut self, p: PathwayStep) {
+        self.items[self.len] = p;
+        self.len += 1;
+    }
+}
+
+impl std::ops::Deref for PathwaySteps {
+    type Target = [PathwayStep];
+    fn deref(&self) -> &[PathwayStep] {
+        &self.items[..self.len]
+    }
+}
+
+impl PartialEq for PathwaySteps {
+    fn eq(&self, other: &Self) -> bool {
+        **self == **other
+    }
+}
+
+impl std::fmt::Debug for PathwaySteps {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_list().entries(self.iter()).finish()
+    }
+}
+
 /// The site over one step.
 #[derive(Debug, Clone, PartialEq)]
 pub struct SiteStep {
     /// Each pathway present, in the order of the settings.
-    pub pathways: Vec<PathwayStep>,
+    pub pathways: PathwaySteps,
     /// Site GPP (µmol m⁻² s⁻¹, ground).
     pub gpp_umol_m2_s: f64,
     /// GPP-weighted ecosystem discrimination (‰); NaN when nothing is fixed.
@@ -216,6 +264,12 @@ pub struct SiteModel {
     phenology: Vec<Option<Phenology>>,
     /// Photoperiod (h) of the day (year, day of year) last asked for.
     photoperiod: Option<((i32, u32), f64)>,
+    /// One per vegetation: a working copy of its leaf, given the step's boundary layer and cold
+    /// scaling in place ([`LeafModel::adjust_from`]) instead of a fresh copy every step.
+    leaves: Vec<LeafModel>,
+    /// One per vegetation: a working copy of its leaf for the canopy's leaf classes, each with
+    /// its own capacity ([`crate::canopy::assimilation::canopy_step_in`]).
+    class_leaves: Vec<LeafModel>,
 }
 
 impl SiteModel {
@@ -258,11 +312,14 @@ impl SiteModel {
                     .map(|p| Phenology::new(p).at_latitude(settings.location.latitude_deg()))
             })
             .collect();
+        let leaves: Vec<LeafModel> = settings.vegetation.iter().map(|v| v.leaf.clone()).collect();
         Ok(Self {
             settings,
             cold: ColdState::default(),
             phenology,
             photoperiod: None,
+            class_leaves: leaves.clone(),
+            leaves,
         })
     }
 
@@ -437,17 +494,19 @@ impl SiteModel {
             f64::NAN
         };
         let leaf_base = Self::leaf_base(d, beta);
-        let mut pathways = Vec::with_capacity(self.settings.vegetation.len());
+        let mut pathways = PathwaySteps::new();
         let (mut gpp, mut gpp_c4, mut wd) = (0.0, 0.0, 0.0);
         let mut transpiration = 0.0;
         let mut lai_total = 0.0;
-        for (((v, phen), lit), temperature) in self
+        for (((((v, phen), lit), temperature), work), class_leaf) in self
             .settings
             .vegetation
             .iter()
             .zip(&mut self.phenology)
             .zip(&light.canopies)
             .zip(&light.temperatures)
+            .zip(&mut self.leaves)
+            .zip(&mut self.class_leaves)
         {
             let lai = match (phen, d.lai_m2_m2) {
                 (Some(p), _) => p.step(
@@ -460,21 +519,23 @@ impl SiteModel {
                 (None, Some(l)) => l,
                 (None, None) => v.lai_m2_m2,
             };
-            let leaf = match d.wind_m_s {
-                Some(u) if u.is_finite() => std::borrow::Cow::Owned(
-                    v.leaf
-                        .with_boundary_layer(boundary_layer_h2o_from_wind(u, v.leaf_width_m))?,
-                ),
-                _ => std::borrow::Cow::Borrowed(&v.leaf),
+            // The leaf with the wind's boundary layer and the cold rule's capacity, as
+            // `with_boundary_layer` and `with_capacity_scaled` would give it.
+            let gb = match d.wind_m_s {
+                Some(u) if u.is_finite() => Some(boundary_layer_h2o_from_wind(u, v.leaf_width_m)),
+                _ => None,
             };
-            let leaf = if cold.factor < 1.0 {
-                std::borrow::Cow::Owned(leaf.with_capacity_scaled(cold.factor))
+            let factor = (cold.factor < 1.0).then_some(cold.factor);
+            let leaf = if gb.is_none() && factor.is_none() {
+                &v.leaf
             } else {
-                leaf
+                work.adjust_from(&v.leaf, gb, factor)?;
+                &*work
             };
             let flux = if cold.factor > 0.0 {
-                canopy_step_shared(
-                    &leaf,
+                canopy_step_in(
+                    leaf,
+                    class_leaf,
                     &v.options,
                     &v.canopy,
                     &Self::canopy_drivers(leaf_base, ppfd, diffuse_fraction, cos_zenith, lai),

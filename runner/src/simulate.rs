@@ -268,6 +268,42 @@ pub fn simulate_lit(
     sink: &mut dyn StepSink,
     lights: &[Option<StepLight>],
 ) -> Result<Simulated> {
+    simulate_keeping(site, steps, step_minutes, sink, lights, Kept::ALL)
+}
+
+/// Which period rows a simulation sums up (the effective lag of the pools' diagnostics needs the
+/// daily rows: it is None without them).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Kept {
+    /// Daily rows.
+    pub daily: bool,
+    /// Monthly rows.
+    pub monthly: bool,
+    /// Annual rows.
+    pub annual: bool,
+}
+
+impl Kept {
+    /// Every period.
+    pub const ALL: Kept = Kept {
+        daily: true,
+        monthly: true,
+        annual: true,
+    };
+}
+
+/// [`simulate_lit`] keeping only the periods `kept` asks for: the periods left out come back
+/// empty, and everything else is what [`simulate_lit`] gives, to the bit (a caller that reads
+/// only some periods, as a fit's evaluations or an ensemble's members, saves the sums of the
+/// others at every step).
+pub fn simulate_keeping(
+    site: &Site,
+    steps: impl Iterator<Item = std::result::Result<ForcingStep, ForcingError>>,
+    step_minutes: u32,
+    sink: &mut dyn StepSink,
+    lights: &[Option<StepLight>],
+    kept: Kept,
+) -> Result<Simulated> {
     let light = |i: usize| lights.get(i).and_then(Option::as_ref);
     let mut index = 0usize;
     let mut model = SiteModel::new(site.settings.clone())?;
@@ -289,18 +325,18 @@ pub fn simulate_lit(
     let mut first_year: Vec<(ForcingStep, Option<SiteDrivers>, Option<SiteStep>)> = Vec::new();
     let mut year_end: Option<LocalTime> = None;
     while let Some(item) = steps.peek() {
-        let f = match item {
-            Ok(f) => f.clone(),
+        let time = match item {
+            Ok(f) => f.time,
             Err(_) => {
                 let e = steps.next().expect("peeked").expect_err("peeked an error");
                 return Err(e).with_context(|| format!("site {}", site.path.display()));
             }
         };
-        let end = *year_end.get_or_insert(f.time.plus_minutes(365 * 1440));
-        if f.time >= end {
+        let end = *year_end.get_or_insert(time.plus_minutes(365 * 1440));
+        if time >= end {
             break;
         }
-        steps.next();
+        let f = steps.next().expect("peeked").expect("peeked a step");
         // The pools start after this year, so its leaves respire their current assimilate (e′ = e).
         let (d, s) = site_step(
             site,
@@ -324,37 +360,49 @@ pub fn simulate_lit(
         Aggregator::new(PeriodKind::Monthly, step_minutes),
         Aggregator::new(PeriodKind::Annual, step_minutes),
     ];
+    // The step's drivers and site step by reference: they are moved no further.
     let mut process = |f: &ForcingStep,
-                       d: Option<SiteDrivers>,
-                       s: Option<SiteStep>,
+                       d: Option<&SiteDrivers>,
+                       s: Option<&SiteStep>,
                        sink: &mut dyn StepSink|
      -> Result<()> {
+        // The step's day, converted to a calendar date once for every period.
+        let date = f.time.date();
+        let ymd = {
+            let (y, m, d) = crate::forcing::time::civil_from_days(date.days());
+            (y as i32, m, d)
+        };
         // The pools as they stand at the end of the day just closed, before this step moves them.
-        if aggs[0].current_key_differs(f.time) {
+        if aggs[0].current_key_differs(ymd) {
             pools.end_of_day(sink, aggs[0].current_date)?;
         }
-        let resp = match (&d, &s) {
-            (Some(d), Some(s)) => Some(pools.step(f.time.date(), d, s, step_days)?),
+        let resp = match (d, s) {
+            (Some(d), Some(s)) => Some(pools.step(date, d, s, step_days)?),
             _ => None,
         };
         substrate.set(pools.leaf_substrate_d13c());
         let view = StepView {
             forcing: f,
-            drivers: d.as_ref(),
-            site: s.as_ref(),
+            drivers: d,
+            site: s,
             respiration: resp.as_ref(),
             c3,
             c4,
         };
         sink.step(&view)?;
-        for a in &mut aggs {
-            a.add(&view, step_days * SECONDS_PER_DAY);
+        // The daily periods are followed for the pools' days even when their sums are not kept.
+        aggs[0].add(&view, date, ymd, step_days * SECONDS_PER_DAY, kept.daily);
+        for (a, on) in aggs[1..].iter_mut().zip([kept.monthly, kept.annual]) {
+            if on {
+                a.add(&view, date, ymd, step_days * SECONDS_PER_DAY, true);
+            }
         }
         Ok(())
     };
-    for (f, d, s) in first_year.drain(..) {
-        process(&f, d, s, sink)?;
+    for (f, d, s) in &first_year {
+        process(f, d.as_ref(), s.as_ref(), sink)?;
     }
+    drop(first_year);
     for item in steps {
         let f = item.with_context(|| format!("site {}", site.path.display()))?;
         let (d, s) = site_step(
@@ -367,13 +415,15 @@ pub fn simulate_lit(
             light(index),
         )?;
         index += 1;
-        process(&f, d, s, sink)?;
+        process(&f, d.as_ref(), s.as_ref(), sink)?;
     }
     if aggs[0].current.is_some() {
         pools.end_of_day(sink, aggs[0].current_date)?;
     }
-    for a in &mut aggs {
-        a.flush();
+    for (a, on) in aggs.iter_mut().zip([kept.daily, kept.monthly, kept.annual]) {
+        if on {
+            a.flush();
+        }
     }
     let [daily, monthly, annual] = aggs.map(|a| a.rows);
     let mut diagnostics = pools.diagnostics;
@@ -730,11 +780,12 @@ enum PeriodKind {
 type PeriodKey = (i32, u32, u32);
 
 impl PeriodKind {
-    fn key(self, t: LocalTime) -> PeriodKey {
+    /// The period of the day `(year, month, day)`.
+    fn key(self, (y, m, d): PeriodKey) -> PeriodKey {
         match self {
-            PeriodKind::Daily => (t.year(), t.month(), t.day()),
-            PeriodKind::Monthly => (t.year(), t.month(), 0),
-            PeriodKind::Annual => (t.year(), 0, 0),
+            PeriodKind::Daily => (y, m, d),
+            PeriodKind::Monthly => (y, m, 0),
+            PeriodKind::Annual => (y, 0, 0),
         }
     }
 
@@ -841,21 +892,28 @@ impl Aggregator {
         }
     }
 
-    /// True when a period is open and `t` belongs to another one.
-    fn current_key_differs(&self, t: LocalTime) -> bool {
+    /// True when a period is open and the day `ymd` belongs to another one.
+    fn current_key_differs(&self, ymd: PeriodKey) -> bool {
         self.current
             .as_ref()
-            .is_some_and(|(k, _)| *k != self.kind.key(t))
+            .is_some_and(|(k, _)| *k != self.kind.key(ymd))
     }
 
-    fn add(&mut self, v: &StepView<'_>, step_s: f64) {
+    /// Adds the step `v` of the day `date`, `ymd` its (year, month, day), to its period: its
+    /// sums when `sum` is set, else only where the period starts and ends (no row is kept).
+    fn add(&mut self, v: &StepView<'_>, date: LocalDate, ymd: PeriodKey, step_s: f64, sum: bool) {
         let f = v.forcing;
-        let key = self.kind.key(f.time);
+        let key = self.kind.key(ymd);
         if self.current.as_ref().is_none_or(|(k, _)| *k != key) {
-            self.flush();
+            if sum {
+                self.flush();
+            }
             self.current = Some((key, Sums::default()));
         }
-        self.current_date = Some(f.time.date());
+        self.current_date = Some(date);
+        if !sum {
+            return;
+        }
         let (_, sums) = self.current.as_mut().expect("set above");
         sums.steps += 1;
         sums.filled += usize::from(f.filled);

@@ -196,6 +196,33 @@ pub fn canopy_step_shared(
     if d.lai_m2_m2 <= 0.0 {
         return Ok(CanopyFlux::empty());
     }
+    canopy_step_in(
+        leaf,
+        &mut leaf.clone(),
+        options,
+        settings,
+        d,
+        light,
+        temperature,
+    )
+}
+
+/// [`canopy_step_shared`] with `class_leaf` as the working copy of `leaf` that each leaf class
+/// gets its capacity in ([`LeafModel::adjust_from`]): it must be `leaf` but for the boundary
+/// layer and the capacity, e.g. a copy of it kept from step to step, so that a step copies no
+/// leaf.
+pub(crate) fn canopy_step_in(
+    leaf: &LeafModel,
+    class_leaf: &mut LeafModel,
+    options: &LeafOptions,
+    settings: &CanopySettings,
+    d: &CanopyDrivers,
+    light: Option<&CanopyLight>,
+    temperature: Option<&SharedTemperature>,
+) -> Result<CanopyFlux> {
+    if d.lai_m2_m2 <= 0.0 {
+        return Ok(CanopyFlux::empty());
+    }
     let own;
     let lit = match light {
         Some(l) if l.fits(settings, d) => l,
@@ -230,7 +257,9 @@ pub fn canopy_step_shared(
         if lai <= 1e-9 {
             continue;
         }
-        let scaled = leaf.with_capacity_scaled((capacity / lai).max(1e-6));
+        // `leaf.with_capacity_scaled(..)`, in place.
+        class_leaf.adjust_from(leaf, None, Some((capacity / lai).max(1e-6)))?;
+        let scaled = &*class_leaf;
         let c = LeafConditions {
             ppfd_umol_m2_s: (apar_leaf / settings.leaf_absorptance).min(3000.0),
             ..d.leaf

@@ -209,24 +209,43 @@ impl TwoLeafCanopy {
         let sq = (1.0 - self.scattering).sqrt();
         let kb_s = kb * sq;
         let kd_s = self.kd_scattered();
-        let rho_cb = self.rho_beam(kb);
         let one_minus_sigma = 1.0 - self.scattering;
 
-        // Integrals over cumulative leaf area of products of exponentials, with clumping.
+        // Integrals over cumulative leaf area of products of exponentials, with clumping. Each is
+        // computed once, and not at all where the light it multiplies is exactly zero (night, or
+        // no beam): a product of a zero with finite positive factors is that zero, sign and all,
+        // whatever those factors are, so 1.0 stands in for them there (lai > 0 keeps every
+        // integral finite and positive).
         let int = |k: f64| attenuated_integral(om * k, lai);
-        let lai_sunlit = if sun_up { om * int(kb) } else { 0.0 };
+        let skip_beam = ib == 0.0 && lai > 0.0;
+        let skip_diffuse = id == 0.0 && lai > 0.0;
+        let rho_cb = if skip_beam { 0.0 } else { self.rho_beam(kb) };
+        let int_kb = if sun_up { int(kb) } else { 0.0 };
+        let int_kb_s = if skip_beam { 1.0 } else { int(kb_s) };
+        let lai_sunlit = if sun_up { om * int_kb } else { 0.0 };
         let lai_shaded = lai - lai_sunlit;
 
-        let canopy_beam = (1.0 - rho_cb) * ib * om * kb_s * int(kb_s);
-        let canopy_diffuse = (1.0 - self.rho_cd) * id * om * kd_s * int(kd_s);
+        let canopy_beam = (1.0 - rho_cb) * ib * om * kb_s * int_kb_s;
+        let canopy_diffuse =
+            (1.0 - self.rho_cd) * id * om * kd_s * if skip_diffuse { 1.0 } else { int(kd_s) };
 
         // Sunlit leaves: unscattered beam (kb per unit leaf area), plus their share of diffuse
         // and of scattered beam (de Pury & Farquhar 1997, eq. 20, with Ω).
         let (sun_direct, sun_diffuse, sun_scattered) = if sun_up {
             let direct = ib * one_minus_sigma * kb * lai_sunlit;
-            let diffuse = (1.0 - self.rho_cd) * id * om * kd_s * om * int(kd_s + kb);
-            let total_beam = (1.0 - rho_cb) * ib * om * kb_s * om * int(kb_s + kb);
-            let unscattered = ib * one_minus_sigma * om * kb * om * int(2.0 * kb);
+            let diffuse = (1.0 - self.rho_cd)
+                * id
+                * om
+                * kd_s
+                * om
+                * if skip_diffuse { 1.0 } else { int(kd_s + kb) };
+            let (int_kb_s_kb, int_2kb) = if skip_beam {
+                (1.0, 1.0)
+            } else {
+                (int(kb_s + kb), int(2.0 * kb))
+            };
+            let total_beam = (1.0 - rho_cb) * ib * om * kb_s * om * int_kb_s_kb;
+            let unscattered = ib * one_minus_sigma * om * kb * om * int_2kb;
             (direct, diffuse, total_beam - unscattered)
         } else {
             (0.0, 0.0, 0.0)
@@ -235,8 +254,8 @@ impl TwoLeafCanopy {
         // with Ω), written as "all leaves" minus "sunlit leaves" layer by layer.
         let shade_diffuse = canopy_diffuse - sun_diffuse;
         let shade_scattered = if sun_up {
-            let all_total_beam = (1.0 - rho_cb) * ib * om * kb_s * int(kb_s);
-            let all_unscattered = ib * one_minus_sigma * om * kb * int(kb);
+            let all_total_beam = (1.0 - rho_cb) * ib * om * kb_s * int_kb_s;
+            let all_unscattered = ib * one_minus_sigma * om * kb * int_kb;
             all_total_beam - all_unscattered - sun_scattered
         } else {
             0.0
@@ -293,7 +312,13 @@ fn clumped_capacity_fractions(lai: f64, kb: f64, kn: f64, clumping: f64) -> Resu
     let kb = check_input("kb", kb, 0.0, 1e3)?;
     let kn = check_range("kn", kn, 0.0, 10.0)?;
     let total = attenuated_integral(kn, lai);
-    let sunlit = (clumping * attenuated_integral(kn + clumping * kb, lai)).min(total);
+    // No sunlit leaves (clumping 0 at night): 0 times the finite, positive integral is 0.
+    let sunlit_integral = if clumping == 0.0 && lai > 0.0 {
+        1.0
+    } else {
+        attenuated_integral(kn + clumping * kb, lai)
+    };
+    let sunlit = (clumping * sunlit_integral).min(total);
     Ok((sunlit, total - sunlit))
 }
 

@@ -34,6 +34,8 @@ pub struct Location {
     latitude_deg: f64,
     longitude_deg: f64,
     utc_offset_h: f64,
+    /// sin and cos of the latitude, from `latitude_deg` (computed once: every step needs them).
+    sin_cos_lat: (f64, f64),
 }
 
 /// The Sun's position at one instant, as seen from a [`Location`].
@@ -158,10 +160,13 @@ impl Location {
     /// A site at `latitude_deg` (°, north positive, [−90, 90]), `longitude_deg` (°, east positive,
     /// [−180, 180]) whose local standard time is UTC + `utc_offset_h` (hours, [−12, 14]).
     pub fn new(latitude_deg: f64, longitude_deg: f64, utc_offset_h: f64) -> Result<Self> {
+        let latitude_deg = check_range("latitude_deg", latitude_deg, -90.0, 90.0)?;
+        let lat = latitude_deg.to_radians();
         Ok(Self {
-            latitude_deg: check_range("latitude_deg", latitude_deg, -90.0, 90.0)?,
+            latitude_deg,
             longitude_deg: check_range("longitude_deg", longitude_deg, -180.0, 180.0)?,
             utc_offset_h: check_range("utc_offset_h", utc_offset_h, -12.0, 14.0)?,
+            sin_cos_lat: (lat.sin(), lat.cos()),
         })
     }
 
@@ -191,8 +196,8 @@ impl Location {
 
     /// cos Z = a + b·cos h for the declination `decl_rad`.
     fn cos_zenith_coefficients(&self, decl_rad: f64) -> (f64, f64) {
-        let lat = self.latitude_deg.to_radians();
-        (lat.sin() * decl_rad.sin(), lat.cos() * decl_rad.cos())
+        let (sin_lat, cos_lat) = self.sin_cos_lat;
+        (sin_lat * decl_rad.sin(), cos_lat * decl_rad.cos())
     }
 
     /// The Sun's position at `hour_lst` (fractional hour of local standard time, [0, 24]) on

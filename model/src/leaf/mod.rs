@@ -509,6 +509,34 @@ impl LeafModel {
         }
     }
 
+    /// Makes this leaf, a copy of `base`, into `base` with the boundary layer `gb` (when there
+    /// is one; `base`'s otherwise) and its capacity scaled by `factor` (when there is one), in
+    /// place: what [`LeafModel::with_boundary_layer`] and [`LeafModel::with_capacity_scaled`]
+    /// give, to the bit, without copying the leaf every step. Everything else must already be
+    /// `base`'s.
+    pub(crate) fn adjust_from(
+        &mut self,
+        base: &LeafModel,
+        gb: Option<f64>,
+        factor: Option<f64>,
+    ) -> Result<()> {
+        if std::mem::discriminant(self) != std::mem::discriminant(base) {
+            *self = base.clone();
+        }
+        match (self, base) {
+            (LeafModel::C3(p), LeafModel::C3(b)) => {
+                p.set_boundary_layer_from(b, gb)?;
+                p.set_capacity_from(b, factor);
+            }
+            (LeafModel::C4(p), LeafModel::C4(b)) => {
+                p.set_boundary_layer_from(b, gb)?;
+                p.set_capacity_from(b, factor);
+            }
+            _ => unreachable!("made the same pathway above"),
+        }
+        Ok(())
+    }
+
     /// Solves the leaf.
     pub fn solve(&self, options: &LeafOptions, c: &LeafConditions) -> Result<LeafState> {
         match self {

@@ -122,6 +122,24 @@ macro_rules! parameter_set {
                 let gb = if gb == hi { gb } else { check_range("gb", gb, lo, hi)? };
                 Ok(Self { gb, ..self.clone() })
             }
+
+            /// Sets the boundary-layer conductance in place to `gb`, checked as in
+            /// [`Self::with_boundary_layer`] (the value is left alone on error), or to `base`'s
+            /// without one.
+            pub(crate) fn set_boundary_layer_from(
+                &mut self,
+                base: &Self,
+                gb: Option<f64>,
+            ) -> Result<()> {
+                self.gb = match gb {
+                    Some(gb) => {
+                        let (lo, hi) = BOUNDARY_LAYER_RANGE;
+                        if gb == hi { gb } else { check_range("gb", gb, lo, hi)? }
+                    }
+                    None => base.gb,
+                };
+                Ok(())
+            }
         }
     };
 }
@@ -263,6 +281,25 @@ impl C3Params {
             tpu25: self.tpu25 * factor,
             rd25: self.rd25 * factor,
             ..self.clone()
+        }
+    }
+
+    /// Sets capacity and day respiration in place to `base`'s, multiplied by `factor` when
+    /// there is one: [`Self::with_capacity_scaled`] without a copy of the rest.
+    pub(crate) fn set_capacity_from(&mut self, base: &Self, factor: Option<f64>) {
+        match factor {
+            Some(f) => {
+                self.vcmax25 = base.vcmax25 * f;
+                self.jmax25 = base.jmax25 * f;
+                self.tpu25 = base.tpu25 * f;
+                self.rd25 = base.rd25 * f;
+            }
+            None => {
+                self.vcmax25 = base.vcmax25;
+                self.jmax25 = base.jmax25;
+                self.tpu25 = base.tpu25;
+                self.rd25 = base.rd25;
+            }
         }
     }
 
@@ -415,6 +452,23 @@ impl C4Params {
             k25: self.k25 * factor,
             rd25: self.rd25 * factor,
             ..self.clone()
+        }
+    }
+
+    /// Sets capacity and day respiration in place to `base`'s, multiplied by `factor` when
+    /// there is one: [`Self::with_capacity_scaled`] without a copy of the rest.
+    pub(crate) fn set_capacity_from(&mut self, base: &Self, factor: Option<f64>) {
+        match factor {
+            Some(f) => {
+                self.vmax25 = base.vmax25 * f;
+                self.k25 = base.k25 * f;
+                self.rd25 = base.rd25 * f;
+            }
+            None => {
+                self.vmax25 = base.vmax25;
+                self.k25 = base.k25;
+                self.rd25 = base.rd25;
+            }
         }
     }
 }

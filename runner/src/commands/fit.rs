@@ -32,7 +32,7 @@ use crate::forcing::{ForcingReport, ForcingStep};
 use crate::output::{
     AtomicFile, check_out_dir, fmt_num, fnv1a64, inputs_json, write_folder, write_json,
 };
-use crate::simulate::{NoSink, Simulated, simulate_lit, step_lights};
+use crate::simulate::{Kept, NoSink, Simulated, simulate_keeping, step_lights};
 use crate::site::Site;
 use isodisc_model::site::StepLight;
 
@@ -103,13 +103,14 @@ impl Weather {
     }
 
     /// One run of `site` over the weather, keeping nothing but its period rows.
-    fn simulate(&self, site: &Site) -> Result<Simulated> {
-        simulate_lit(
+    fn simulate(&self, site: &Site, kept: Kept) -> Result<Simulated> {
+        simulate_keeping(
             site,
             self.steps.iter().cloned().map(Ok),
             self.step_minutes,
             &mut NoSink,
             &self.lights,
+            kept,
         )
     }
 }
@@ -337,7 +338,13 @@ impl FitPlan {
         if site.set_params(&point.site).is_err() {
             return refused(log_prior);
         }
-        let Ok(sim) = weather.simulate(&site) else {
+        // The streams read daily rows, and monthly rows for monthly observations only.
+        let kept = Kept {
+            daily: true,
+            monthly: self.streams.iter().any(|s| s.pairing == Pairing::Monthly),
+            annual: false,
+        };
+        let Ok(sim) = weather.simulate(&site, kept) else {
             return refused(log_prior);
         };
         let mut payload = Vec::new();
@@ -358,7 +365,7 @@ impl FitPlan {
         let (steps, report) = read_steps(&self.site, self.period)?;
         let weather = Weather::new(&self.site, &self.sampled, &self.spec, steps, &report);
         // A reference run of the site as given pairs the observations with the model's periods.
-        let reference = weather.simulate(&self.site)?;
+        let reference = weather.simulate(&self.site, Kept::ALL)?;
         let mut streams = self.streams.clone();
         for s in &mut streams {
             s.pair(&reference.periods[0], &reference.periods[1])?;

@@ -12,7 +12,9 @@ use indicatif::{ParallelProgressIterator, ProgressBar};
 use rayon::prelude::*;
 
 use crate::forcing::ForcingStep;
-use crate::simulate::{NoSink, PeriodRow, Simulated, period_col, simulate_lit, step_lights};
+use crate::simulate::{
+    Kept, NoSink, PeriodRow, Simulated, period_col, simulate_keeping, step_lights,
+};
 use crate::site::Site;
 use sample::Design;
 use spec::EnsembleSpec;
@@ -160,7 +162,12 @@ pub fn run_members_drawn(
                 Err(e) => MemberStatus::Invalid(e.chain()),
                 Ok(s) => {
                     let steps = steps.iter().cloned().map(Ok);
-                    match simulate_lit(&s, steps, step_minutes, &mut NoSink, &lights) {
+                    // A member keeps its monthly and annual rows only.
+                    let kept = Kept {
+                        daily: false,
+                        ..Kept::ALL
+                    };
+                    match simulate_keeping(&s, steps, step_minutes, &mut NoSink, &lights, kept) {
                         Ok(sim) => MemberStatus::Ok(MemberPeriods::from_simulated(&sim)),
                         Err(e) => MemberStatus::Failed(e.chain()),
                     }
