@@ -193,9 +193,6 @@ pub fn canopy_step_shared(
     light: Option<&CanopyLight>,
     temperature: Option<&SharedTemperature>,
 ) -> Result<CanopyFlux> {
-    if d.lai_m2_m2 <= 0.0 {
-        return Ok(CanopyFlux::empty());
-    }
     canopy_step_in(
         leaf,
         &mut leaf.clone(),

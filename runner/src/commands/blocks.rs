@@ -250,6 +250,23 @@ impl<'a> Rows<'a> {
     pub(crate) fn lines_seen(&self) -> u64 {
         self.line
     }
+
+    /// The next line split into `cells` and checked to hold the header's `n` cells: `None` at the
+    /// block's end, else the line's number with, for a refused line, the reason (", …").
+    pub(crate) fn next_cells(
+        &mut self,
+        cells: &mut Vec<Cow<'a, [u8]>>,
+        n: usize,
+    ) -> Option<(u64, std::result::Result<(), String>)> {
+        let (at, line) = self.next()?;
+        if let Err(e) = split_cells(line, cells) {
+            return Some((at, Err(format!(", {e}"))));
+        }
+        if cells.len() != n {
+            return Some((at, Err(cell_count_error(cells.len(), n))));
+        }
+        Some((at, Ok(())))
+    }
 }
 
 impl<'a> Iterator for Rows<'a> {

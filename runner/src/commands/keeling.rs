@@ -19,7 +19,7 @@ use isodisc_model::observations::{
 use rayon::prelude::*;
 use serde::Deserialize;
 
-use super::blocks::{self, BlockDone, CsvBlocks, Rows, split_cells};
+use super::blocks::{BlockDone, CsvBlocks, Rows};
 use crate::cli::{ByArg, KeelingArgs};
 use crate::error::{Context, Error, Result};
 use crate::forcing::time::{LocalDate, LocalTime};
@@ -721,14 +721,11 @@ impl SampleColumns {
         let mut cells = Vec::with_capacity(n);
         let mut rows = Rows::new(block);
         let error = loop {
-            let Some((at, line)) = rows.next() else {
+            let Some((at, row)) = rows.next_cells(&mut cells, n) else {
                 break None;
             };
-            if let Err(e) = split_cells(line, &mut cells) {
-                break Some((at, format!(", {e}")));
-            }
-            if cells.len() != n {
-                break Some((at, blocks::cell_count_error(cells.len(), n)));
+            if let Err(why) = row {
+                break Some((at, why));
             }
             match self.parse_row(&cells) {
                 Ok(mut s) => {

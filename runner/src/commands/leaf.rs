@@ -14,7 +14,7 @@ use isodisc_model::water::vpd_from_rh_kpa;
 use crate::cli::{
     BetaTargetArg, ElectronArg, FormArg, Format, LeafArgs, PathwayArg, TemperatureSetArg,
 };
-use crate::commands::blocks::{self, BlockDone, CsvBlocks, Rows, split_cells};
+use crate::commands::blocks::{BlockDone, CsvBlocks, Rows};
 use crate::commands::leaf_input::{self, InputColumn};
 use crate::error::{Context, Error, Result};
 use crate::numfmt::{NumRow, parse_f64, push_num, trim_text};
@@ -234,14 +234,11 @@ impl LeafPlan {
         let mut nums_text = NumRow::new(LeafConditions::RANGES.len() + file.param_cols.len() + 9);
         let mut rows = Rows::new(block);
         let error = loop {
-            let Some((at, line)) = rows.next() else {
+            let Some((at, row)) = rows.next_cells(&mut cells, n) else {
                 break None;
             };
-            if let Err(e) = split_cells(line, &mut cells) {
-                break Some((at, format!(", {e}")));
-            }
-            if cells.len() != n {
-                break Some((at, blocks::cell_count_error(cells.len(), n)));
+            if let Err(why) = row {
+                break Some((at, why));
             }
             let pass_cell = |i: usize| std::str::from_utf8(trim_text(&cells[i]));
             if let Some(&i) = file.pass_cols.iter().find(|&&i| pass_cell(i).is_err()) {
