@@ -287,20 +287,12 @@ impl C3Params {
     /// Sets capacity and day respiration in place to `base`'s, multiplied by `factor` when
     /// there is one: [`Self::with_capacity_scaled`] without a copy of the rest.
     pub(crate) fn set_capacity_from(&mut self, base: &Self, factor: Option<f64>) {
-        match factor {
-            Some(f) => {
-                self.vcmax25 = base.vcmax25 * f;
-                self.jmax25 = base.jmax25 * f;
-                self.tpu25 = base.tpu25 * f;
-                self.rd25 = base.rd25 * f;
-            }
-            None => {
-                self.vcmax25 = base.vcmax25;
-                self.jmax25 = base.jmax25;
-                self.tpu25 = base.tpu25;
-                self.rd25 = base.rd25;
-            }
-        }
+        // x · 1 is x exactly (IEEE 754), so no factor needs no branch of its own.
+        let f = factor.unwrap_or(1.0);
+        self.vcmax25 = base.vcmax25 * f;
+        self.jmax25 = base.jmax25 * f;
+        self.tpu25 = base.tpu25 * f;
+        self.rd25 = base.rd25 * f;
     }
 
     /// Rubisco's constants at 25 °C and their activation energies, each the set value or, when left
@@ -458,18 +450,11 @@ impl C4Params {
     /// Sets capacity and day respiration in place to `base`'s, multiplied by `factor` when
     /// there is one: [`Self::with_capacity_scaled`] without a copy of the rest.
     pub(crate) fn set_capacity_from(&mut self, base: &Self, factor: Option<f64>) {
-        match factor {
-            Some(f) => {
-                self.vmax25 = base.vmax25 * f;
-                self.k25 = base.k25 * f;
-                self.rd25 = base.rd25 * f;
-            }
-            None => {
-                self.vmax25 = base.vmax25;
-                self.k25 = base.k25;
-                self.rd25 = base.rd25;
-            }
-        }
+        // x · 1 is x exactly (IEEE 754), so no factor needs no branch of its own.
+        let f = factor.unwrap_or(1.0);
+        self.vmax25 = base.vmax25 * f;
+        self.k25 = base.k25 * f;
+        self.rd25 = base.rd25 * f;
     }
 }
 
