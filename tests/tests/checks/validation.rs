@@ -855,3 +855,59 @@ fn validation_table() {
     }
     println!("{text}");
 }
+
+/// One change of the vegetation block at a time, for the sensitivity table: a label, the
+/// preset of the rainfall gradient and the lines added to every vegetation block.
+fn sensitivity_variants() -> Vec<(&'static str, &'static str, &'static str)> {
+    vec![
+        ("defaults", "deciduous-broadleaf", ""),
+        ("g1 = 3.0", "deciduous-broadleaf", "params = { g1 = 3.0 }\n"),
+        ("g1 = 2.5", "deciduous-broadleaf", "params = { g1 = 2.5 }\n"),
+        (
+            "gm = 0.15",
+            "deciduous-broadleaf",
+            "params = { gm = 0.15 }\n",
+        ),
+        ("gm = inf", "deciduous-broadleaf", "params = { gm = inf }\n"),
+        (
+            "phenology = \"gsi\" (no budburst rule)",
+            "deciduous-broadleaf",
+            "phenology = \"gsi\"\n",
+        ),
+        ("`c3-grass` preset on the gradient", "c3-grass", ""),
+    ]
+}
+
+#[test]
+#[ignore = "prints the sensitivity table of docs/validation.md (about 10 s)"]
+fn validation_sensitivity() {
+    // Common practice: change one thing at a time and rerun the cases that miss, so the levers
+    // quoted in docs/validation.md can be reproduced. The forest's δR is always the
+    // deciduous-broadleaf forest's (the grass row changes only the gradient).
+    let maps: Vec<String> = rainfall_gradient()
+        .iter()
+        .map(|(m, _, _)| format!("C3 Δ {m:.0} mm"))
+        .collect();
+    let mut text = format!(
+        "| change | forest δR, ‰ | {} |\n|---|---|{}\n",
+        maps.join(" | "),
+        "---|".repeat(maps.len())
+    );
+    for (label, preset, extra) in sensitivity_variants() {
+        let forest = format!("{}{extra}", vegetation("deciduous-broadleaf"));
+        let dr = annual(
+            &run_site(&temperate_humid(), &forest, "", 1),
+            "d13c_respiration",
+        );
+        let mut cells = vec![format!("{dr:.1}")];
+        for (_, climate, lai) in rainfall_gradient() {
+            let v = format!("{}lai_max = {lai}\n{extra}", vegetation(preset));
+            let d = annual(&run_site(&climate, &v, "", 1), "discrimination_c3");
+            assert!(d.is_finite(), "{label}: C3 Δ {d}");
+            cells.push(format!("{d:.2}"));
+        }
+        assert!(dr.is_finite(), "{label}: δR {dr}");
+        writeln!(text, "| {label} | {} |", cells.join(" | ")).expect("writing to a String");
+    }
+    println!("{text}");
+}
