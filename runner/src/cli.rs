@@ -135,6 +135,15 @@ pub enum TemperatureSetArg {
     Fixed,
 }
 
+/// How the C3 stomatal slope g1 follows leaf temperature.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum G1TemperatureArg {
+    /// g1 is the same at every leaf temperature.
+    Constant,
+    /// g1 × √(Γ*(T)/Γ*(25 °C)) (Medlyn et al. 2011); C3 only.
+    GammaStar,
+}
+
 /// `isodisc leaf`.
 #[derive(Debug, clap::Args)]
 pub struct LeafArgs {
@@ -176,6 +185,10 @@ pub struct LeafArgs {
     /// or one fixed set (Bernacchi et al. 2001 / Medlyn et al. 2002).
     #[arg(long, value_enum, default_value = "acclimated")]
     pub temperature_set: TemperatureSetArg,
+    /// How the C3 stomatal slope g1 follows leaf temperature: the same at every temperature, or
+    /// g1 × √(Γ*(T)/Γ*(25 °C)) after the optimisation theory of Medlyn et al. (2011).
+    #[arg(long, value_enum, default_value = "constant")]
+    pub g1_temperature: G1TemperatureArg,
     /// δ13C of the substrate of day respiration (‰ vs VPDB): the C3 respiration term then uses the
     /// apparent e′ = e + δ(assimilate) − δ(substrate) [default: the current assimilate, e′ = e].
     #[arg(long, allow_negative_numbers = true)]

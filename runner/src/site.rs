@@ -12,7 +12,8 @@ use isodisc_model::canopy::radiation::TwoLeafCanopy;
 use isodisc_model::canopy::solar::Location;
 use isodisc_model::error::closest_name;
 use isodisc_model::leaf::{
-    BetaTarget, C3Form, ElectronLimit, LeafModel, LeafOptions, Pathway, TemperatureSet,
+    BetaTarget, C3Form, ElectronLimit, G1Temperature, LeafModel, LeafOptions, Pathway,
+    TemperatureSet,
 };
 use isodisc_model::phenology::{PhenologyKind, PhenologySettings};
 use isodisc_model::pools::{AtmosphereHistory, PoolsConfig};
@@ -205,6 +206,9 @@ pub struct VegetationBlock {
     /// C3 temperature responses of Vcmax and Jmax: "acclimated" (default) or "fixed".
     #[serde(default)]
     pub temperature_set: Option<String>,
+    /// How the C3 g1 follows leaf temperature: "constant" (default) or "gamma-star".
+    #[serde(default)]
+    pub g1_temperature: Option<String>,
     /// Extinction of leaf capacity with canopy depth (per unit LAI). Default 0.3.
     #[serde(default)]
     pub kn: Option<f64>,
@@ -535,6 +539,22 @@ impl Site {
                         )
                     })?,
             };
+            let g1_temperature = match b.g1_temperature.as_deref() {
+                None => G1Temperature::default(),
+                Some(name) => G1Temperature::from_name(name)
+                    .filter(|t| pathway == Pathway::C3 || *t == G1Temperature::Constant)
+                    .ok_or_else(|| {
+                        let names: Vec<_> = G1Temperature::NAMES.iter().map(|n| n.0).collect();
+                        err(
+                            line_of_key(&text, &section, "g1_temperature"),
+                            format!(
+                                "[{section}] g1_temperature = \"{name}\": use \"{}\" \
+                                 (\"gamma-star\" is for C3 leaves)",
+                                names.join("\" or \"")
+                            ),
+                        )
+                    })?,
+            };
             let beta_target = match file.soil.beta_target.as_deref() {
                 Some("g1") => BetaTarget::G1,
                 Some("capacity") => BetaTarget::Capacity,
@@ -643,6 +663,7 @@ impl Site {
                     beta_target,
                     c3_form,
                     temperature_set,
+                    g1_temperature,
                 },
                 canopy,
                 cover: b.cover,

@@ -160,6 +160,53 @@ impl TemperatureSet {
     }
 }
 
+/// How the C3 stomatal slope g1 follows leaf temperature.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum G1Temperature {
+    /// g1 is the parameter at every leaf temperature: the default, as in the per-type fits of
+    /// Lin et al. (2015), which take one g1 per leaf.
+    #[default]
+    Constant,
+    /// g1 × √(Γ*(T)/Γ*(25 °C)) with the leaf's own Γ* response: the optimisation result of Medlyn
+    /// et al. (2011), g1 ∝ √(Γ*·λ), at a constant marginal water cost λ. C3 only.
+    GammaStar,
+}
+
+impl G1Temperature {
+    /// Every choice with its name, as the command line and site files spell it.
+    pub const NAMES: &'static [(&'static str, G1Temperature)] = &[
+        ("constant", G1Temperature::Constant),
+        ("gamma-star", G1Temperature::GammaStar),
+    ];
+
+    /// The choice's name.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            G1Temperature::Constant => "constant",
+            G1Temperature::GammaStar => "gamma-star",
+        }
+    }
+
+    /// The choice called `name`, if any.
+    pub fn from_name(name: &str) -> Option<Self> {
+        Self::NAMES
+            .iter()
+            .find(|(n, _)| *n == name)
+            .map(|(_, s)| *s)
+    }
+
+    /// The factor on the g1 of `p` at leaf temperature `t_leaf_c` (°C): 1, or
+    /// √(Γ*(T)/Γ*(25 °C)) = √exp(Ea·(T − 298.15)/(298.15·R·T)) with Γ*'s activation energy.
+    pub fn factor(self, p: &C3Params, t_leaf_c: f64) -> f64 {
+        match self {
+            G1Temperature::Constant => 1.0,
+            G1Temperature::GammaStar => {
+                crate::temperature::arrhenius_factor(p.kinetics_25().ea_gamma_star, t_leaf_c).sqrt()
+            }
+        }
+    }
+}
+
 /// Settings of the leaf model that are choices rather than numbers.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub struct LeafOptions {
@@ -171,6 +218,8 @@ pub struct LeafOptions {
     pub c3_form: C3Form,
     /// C3 temperature responses of Vcmax and Jmax.
     pub temperature_set: TemperatureSet,
+    /// How the C3 stomatal slope follows leaf temperature.
+    pub g1_temperature: G1Temperature,
 }
 
 /// The environment of one leaf.
@@ -320,6 +369,10 @@ fn solve_c3_at(
     search: RootSearch,
 ) -> Result<LeafState> {
     let (g1, capacity) = g1_and_capacity(p.g1(), c.soil_beta, options.beta_target);
+    let g1 = match options.g1_temperature {
+        G1Temperature::Constant => g1,
+        t => g1 * t.factor(p, c.t_leaf_c),
+    };
     let kin = c3::C3Kinetics::new(p, options, c, capacity, tt);
     let stomata = Medlyn::new(p.g0(), g1, c.vpd_kpa);
     let s = solve::solve(|ci| kin.demand(ci), &stomata, c.ca_umol_mol, p.gb(), search)?;

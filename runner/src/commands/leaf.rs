@@ -6,13 +6,14 @@ use std::path::{Path, PathBuf};
 
 use isodisc_model::ModelError;
 use isodisc_model::leaf::{
-    BetaTarget, C3Form, ElectronLimit, LeafConditions, LeafModel, LeafOptions, LeafState, Pathway,
-    TemperatureSet,
+    BetaTarget, C3Form, ElectronLimit, G1Temperature, LeafConditions, LeafModel, LeafOptions,
+    LeafState, Pathway, TemperatureSet,
 };
 use isodisc_model::water::vpd_from_rh_kpa;
 
 use crate::cli::{
-    BetaTargetArg, ElectronArg, FormArg, Format, LeafArgs, PathwayArg, TemperatureSetArg,
+    BetaTargetArg, ElectronArg, FormArg, Format, G1TemperatureArg, LeafArgs, PathwayArg,
+    TemperatureSetArg,
 };
 use crate::commands::blocks::{BlockDone, CsvBlocks, Rows};
 use crate::commands::leaf_input::{self, InputColumn};
@@ -60,6 +61,12 @@ impl LeafPlan {
             PathwayArg::C3 => Pathway::C3,
             PathwayArg::C4 => Pathway::C4,
         };
+        if pathway == Pathway::C4 && args.g1_temperature == G1TemperatureArg::GammaStar {
+            return Err(Error::msg(
+                "--g1-temperature gamma-star is for C3 leaves (Γ* of Rubisco's C3 cycle); \
+                 C4 g1 stays constant",
+            ));
+        }
         let mut model = LeafModel::default_for(pathway);
         for s in &args.set {
             let (name, value) = parse_assignment(s)?;
@@ -121,6 +128,10 @@ impl LeafPlan {
                 temperature_set: match args.temperature_set {
                     TemperatureSetArg::Acclimated => TemperatureSet::Acclimated,
                     TemperatureSetArg::Fixed => TemperatureSet::Fixed,
+                },
+                g1_temperature: match args.g1_temperature {
+                    G1TemperatureArg::Constant => G1Temperature::Constant,
+                    G1TemperatureArg::GammaStar => G1Temperature::GammaStar,
                 },
             },
             base,

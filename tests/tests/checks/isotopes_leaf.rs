@@ -12,8 +12,8 @@ use isodisc_model::leaf::c3::{electron_limited_rate, electron_transport};
 use isodisc_model::leaf::c4::vmax_at;
 use isodisc_model::leaf::stomata::boundary_layer_h2o_from_wind;
 use isodisc_model::leaf::{
-    C3Form, C3Params, C4Params, ElectronLimit, LeafConditions, LeafModel, LeafOptions,
-    TemperatureSet, solve_c3, solve_c4,
+    C3Form, C3Params, C4Params, ElectronLimit, G1Temperature, LeafConditions, LeafModel,
+    LeafOptions, TemperatureSet, solve_c3, solve_c4,
 };
 use isodisc_model::temperature::{
     GrowthTemperature, arrhenius_factor, kattge_knorr_ds_vcmax, peaked_arrhenius_factor,
@@ -532,6 +532,56 @@ fn c4_b4_and_leakiness_worked_points() {
 
 fn c3_with(overrides: &[(&str, f64)]) -> C3Params {
     C3Params::with_overrides(overrides.iter().copied()).unwrap()
+}
+
+#[test]
+fn g1_scaled_with_gamma_star_follows_the_optimisation_theory() {
+    // Medlyn et al. 2011: g1 ∝ √(Γ*·λ); at a constant λ, g1(T) = g1·√(Γ*(T)/Γ*(25 °C)). With
+    // g0 = 0 and no boundary layer ci/ca = g1(T)/(g1(T) + √D). Hand calculation of the factor,
+    // √exp(Ea·(T − 298.15)/(8.314·298.15·T)) with Γ*'s activation energy: 37,830 J mol⁻¹ on the ci
+    // basis of Bernacchi et al. 2001 (gm = inf) and 24,420 J mol⁻¹ on the cc basis of Bernacchi et
+    // al. 2002 (finite gm) — 0.76735 and 1.28098, 0.84287 and 1.17333 at 15 and 35 °C.
+    let scaled = LeafOptions {
+        g1_temperature: G1Temperature::GammaStar,
+        ..LeafOptions::default()
+    };
+    for (gm, cases) in [
+        (f64::INFINITY, [(15.0, 0.767_35), (35.0, 1.280_98)]),
+        (0.25, [(15.0, 0.842_87), (35.0, 1.173_33)]),
+    ] {
+        let p = c3_with(&[("g0", 0.0), ("g1", 4.45), ("gm", gm)]);
+        for (t, factor) in cases {
+            let c = LeafConditions {
+                t_leaf_c: t,
+                vpd_kpa: 1.5,
+                ..LeafConditions::default()
+            };
+            let s = solve_c3(&p, &scaled, &c).unwrap();
+            let g1 = 4.45 * factor;
+            assert_close(
+                s.ci_ca,
+                g1 / (g1 + 1.5f64.sqrt()),
+                2e-6,
+                &format!("ci/ca, gm {gm}, {t} °C"),
+            );
+            // The same leaf as one whose constant g1 is the scaled value.
+            let fixed = c3_with(&[("g0", 0.0), ("g1", g1), ("gm", gm)]);
+            let f = solve_c3(&fixed, &LeafOptions::default(), &c).unwrap();
+            assert_close(s.a_net, f.a_net, 1e-4, &format!("A, gm {gm}, {t} °C"));
+            assert_close(
+                s.discrimination,
+                f.discrimination,
+                1e-4,
+                &format!("Δ, gm {gm}, {t} °C"),
+            );
+        }
+        // At 25 °C the factor is exactly 1: the same leaf as with a constant g1, bit for bit.
+        let c = LeafConditions::default();
+        assert_eq!(
+            solve_c3(&p, &scaled, &c).unwrap(),
+            solve_c3(&p, &LeafOptions::default(), &c).unwrap()
+        );
+    }
 }
 
 #[test]

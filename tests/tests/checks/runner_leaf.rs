@@ -279,8 +279,9 @@ fn inf_is_accepted_in_set_and_in_input_cells() {
 #[test]
 fn growth_temperature_set_and_substrate_flags_reach_the_model() {
     // The flags agree with the model called directly (Kattge & Knorr 2007 acclimation; apparent e′
-    // of Wingate et al. 2007) — and each flag changes the answer, so none is inert.
-    use isodisc_model::leaf::TemperatureSet;
+    // of Wingate et al. 2007; g1 scaled with Γ*, Medlyn et al. 2011) — and each flag changes the
+    // answer, so none is inert. A C4 leaf refuses the Γ* scaling.
+    use isodisc_model::leaf::{G1Temperature, TemperatureSet};
     let dir = tempfile::tempdir().unwrap();
     let leaf_json = |extra: &[&str]| -> serde_json::Value {
         let out = dir.path().join("l.json");
@@ -301,32 +302,43 @@ fn growth_temperature_set_and_substrate_flags_reach_the_model() {
         t_leaf_c: 35.0,
         ..LeafConditions::default()
     };
-    let cases: [(&[&str], LeafConditions, TemperatureSet); 3] = [
+    let options = |set: TemperatureSet, g1: G1Temperature| LeafOptions {
+        temperature_set: set,
+        g1_temperature: g1,
+        ..LeafOptions::default()
+    };
+    let acclimated = options(TemperatureSet::Acclimated, G1Temperature::Constant);
+    let cases: [(&[&str], LeafConditions, LeafOptions); 4] = [
         (
             &["--t-growth", "15"],
             LeafConditions {
                 t_growth_c: 15.0,
                 ..base
             },
-            TemperatureSet::Acclimated,
+            acclimated,
         ),
-        (&["--temperature-set", "fixed"], base, TemperatureSet::Fixed),
+        (
+            &["--temperature-set", "fixed"],
+            base,
+            options(TemperatureSet::Fixed, G1Temperature::Constant),
+        ),
         (
             &["--d13c-substrate", "-20"],
             LeafConditions {
                 d13c_substrate_permil: Some(-20.0),
                 ..base
             },
-            TemperatureSet::Acclimated,
+            acclimated,
+        ),
+        (
+            &["--g1-temperature", "gamma-star"],
+            base,
+            options(TemperatureSet::Acclimated, G1Temperature::GammaStar),
         ),
     ];
     let plain = leaf_json(&[]);
-    for (flags, c, set) in cases {
+    for (flags, c, opts) in cases {
         let v = leaf_json(flags);
-        let opts = LeafOptions {
-            temperature_set: set,
-            ..LeafOptions::default()
-        };
         let s = solve_c3(&C3Params::default(), &opts, &c).unwrap();
         for (key, want) in [("a_net", s.a_net), ("discrimination", s.discrimination)] {
             let got = v[key].as_f64().unwrap();
@@ -338,4 +350,9 @@ fn growth_temperature_set_and_substrate_flags_reach_the_model() {
         assert_ne!(v["discrimination"], plain["discrimination"], "{flags:?}");
     }
     assert_eq!(plain["t_growth"].as_f64(), Some(25.0));
+    let err = run(&["leaf", "--pathway", "c4", "--g1-temperature", "gamma-star"]).unwrap_err();
+    assert!(
+        err.contains("--g1-temperature") && err.contains("C3"),
+        "{err}"
+    );
 }

@@ -614,6 +614,45 @@ fn day_of(year: i32, mut day: u32) -> String {
 }
 
 #[test]
+fn g1_temperature_is_chosen_by_name_in_the_site_file() {
+    // Medlyn et al. 2011, g1 ∝ √(Γ*·λ): with g1_temperature = "gamma-star", a canopy at 15 °C with
+    // g0 = 0, gm = inf and no boundary layer has ci/ca = g1·f/(g1·f + √D) with
+    // f = √(Γ*(15 °C)/Γ*(25 °C)) = 0.76735 (hand calculation, Γ*'s 37,830 J mol⁻¹ of Bernacchi et
+    // al. 2001). "gamma-star" in a C4 block and a misspelt name are errors naming the key.
+    let weather =
+        "time,t,vpd,ppfd,p\n2025-03-21T11:00,15,1.5,1500,0\n2025-03-21T12:00,15,1.5,1500,0\n";
+    let ci_ca = |block: &str, key: &str| -> Result<f64, String> {
+        let dir = tempfile::tempdir().unwrap();
+        let c4 = (block == "c4").then_some((0.5, 1.0));
+        let site = write_site(dir.path(), 0.5, 0.01, c4, weather);
+        let text = fs::read_to_string(&site).unwrap().replace(
+            &format!("[vegetation.{block}]\n"),
+            &format!("[vegetation.{block}]\ng1_temperature = \"{key}\"\n"),
+        );
+        fs::write(&site, text.replace("g1 = 4.0 }", "g1 = 4.0, gm = inf }")).unwrap();
+        let out = dir.path().join("out");
+        run_quiet(&site, &out)?;
+        Ok(Table::read(&out.join("steps.csv")).num(1, "ci_ca_c3"))
+    };
+    let g1 = 4.0 * 0.767_35;
+    let want = g1 / (g1 + 1.5f64.sqrt());
+    let got = ci_ca("c3", "gamma-star").unwrap();
+    assert!((got - want).abs() < 2e-6, "{got} vs {want}");
+    let constant = ci_ca("c3", "constant").unwrap();
+    assert!(
+        (constant - 4.0 / (4.0 + 1.5f64.sqrt())).abs() < 2e-6,
+        "{constant}"
+    );
+    for (block, key) in [("c4", "gamma-star"), ("c3", "gammastar")] {
+        let err = ci_ca(block, key).unwrap_err();
+        assert!(
+            err.contains("g1_temperature") && err.contains("\"constant\"") && err.contains(key),
+            "{err}"
+        );
+    }
+}
+
+#[test]
 fn temperature_set_is_chosen_by_name_in_the_site_file() {
     // The fixed set (Bernacchi et al. 2001 / Medlyn et al. 2002) stays selectable by name; at 38 °C
     // it keeps less capacity than the set acclimated to that growth temperature (38 °C, held at

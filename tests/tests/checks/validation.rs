@@ -874,6 +874,11 @@ fn sensitivity_variants() -> Vec<(&'static str, &'static str, &'static str)> {
             "deciduous-broadleaf",
             "phenology = \"gsi\"\n",
         ),
+        (
+            "g1_temperature = \"gamma-star\"",
+            "deciduous-broadleaf",
+            "g1_temperature = \"gamma-star\"\n",
+        ),
         ("`c3-grass` preset on the gradient", "c3-grass", ""),
     ]
 }
