@@ -639,6 +639,31 @@ fn c4_grass_discrimination_lies_between_3_and_6_permil_in_humid_and_temperate_cl
     assert_c4_discrimination("temperate prairie");
 }
 
+/// The forest presets whose δR is compared with the Keeling-plot range, and what they are called
+/// in the table: the compilation holds both conifer and broadleaf stands.
+const FOREST_DR_CASES: [(&str, &str); 2] = [
+    ("deciduous-broadleaf", "broadleaf"),
+    ("evergreen-needleleaf", "needleleaf"),
+];
+
+#[test]
+fn temperate_needleleaf_forest_respiration_lies_in_the_published_keeling_range() {
+    // Pataki et al. 2003 (from memory), shifted to today's atmosphere (see PATAKI_FOREST_DR); the
+    // Keeling-plot forests of that compilation include conifer stands.
+    let out = run_site(
+        &temperate_humid(),
+        &vegetation("evergreen-needleleaf"),
+        "",
+        1,
+    );
+    let got = annual(&out, "d13c_respiration");
+    let (lo, hi) = PATAKI_FOREST_DR;
+    assert!(
+        (lo..=hi).contains(&got),
+        "temperate needleleaf forest δR {got:.2}‰ outside {lo}…{hi}‰"
+    );
+}
+
 #[test]
 #[ignore = "δR is −29.7‰ (canopy Δ 21.9‰, ci/ca 0.82 with g1 = 4.45 at a July daytime VPD of 1.0 kPa): 1.1‰ below the range; a canopy with the Kohn (2010) leaf Δ of this climate, 20.6‰, would give −28.5‰, at the range's edge"]
 fn temperate_forest_respiration_lies_in_the_published_keeling_range() {
@@ -770,22 +795,19 @@ fn validation_rows() -> Vec<TableRow> {
         );
     }
     let (lo, hi) = PATAKI_FOREST_DR;
-    let got = try_run_site(
-        &temperate_humid(),
-        &vegetation("deciduous-broadleaf"),
-        "",
-        1,
-    )
-    .map(|o| annual(&o, "d13c_respiration"));
-    push(
-        "δR of a temperate broadleaf forest, ‰".into(),
-        "temperate humid, 48° N".into(),
-        got,
-        format!("{lo} – {hi}"),
-        "Pataki et al. 2003",
-        &|v| (lo..=hi).contains(&v),
-        1,
-    );
+    for (preset, kind) in FOREST_DR_CASES {
+        let got = try_run_site(&temperate_humid(), &vegetation(preset), "", 1)
+            .map(|o| annual(&o, "d13c_respiration"));
+        push(
+            format!("δR of a temperate {kind} forest, ‰"),
+            "temperate humid, 48° N".into(),
+            got,
+            format!("{lo} – {hi}"),
+            "Pataki et al. 2003",
+            &|v| (lo..=hi).contains(&v),
+            1,
+        );
+    }
     for (preset, climate_name, climate, (lo, hi)) in gpp_cases() {
         let got = settled_annual_gpp(&climate, preset);
         push(
@@ -833,7 +855,7 @@ fn validation_table() {
     );
     let rows = validation_rows();
     // The table is only worth printing when every case produced a number.
-    assert!(rows.len() >= 17, "{} validation rows", rows.len());
+    assert!(rows.len() >= 18, "{} validation rows", rows.len());
     for r in rows {
         assert!(
             r.predicted.trim().parse::<f64>().is_ok_and(f64::is_finite),
@@ -894,7 +916,7 @@ fn validation_sensitivity() {
         .map(|(m, _, _)| format!("C3 Δ {m:.0} mm"))
         .collect();
     let mut text = format!(
-        "| change | forest δR, ‰ | {} |\n|---|---|{}\n",
+        "| change | broadleaf forest δR, ‰ | {} |\n|---|---|{}\n",
         maps.join(" | "),
         "---|".repeat(maps.len())
     );
