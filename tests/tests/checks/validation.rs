@@ -362,11 +362,17 @@ fn rainfall_gradient() -> Vec<(f64, Climate, f64)> {
     .collect()
 }
 
-/// The vegetation of the rainfall gradient: the `deciduous-broadleaf` preset (angiosperm trees,
-/// most of the compilation below) with its phenology and the gradient's largest LAI.
-fn gradient_vegetation(lai_max: f64) -> String {
-    format!("{}lai_max = {lai_max}\n", vegetation("deciduous-broadleaf"))
+/// The vegetation of a rainfall-gradient site: `preset` with its phenology and the site's largest
+/// LAI.
+fn gradient_vegetation(preset: &str, lai_max: f64) -> String {
+    format!("{}lai_max = {lai_max}\n", vegetation(preset))
 }
+
+/// The preset of the rainfall gradient's main cases: angiosperm trees, most of the compilation
+/// below.
+const GRADIENT_TREES: &str = "deciduous-broadleaf";
+/// The second vegetation of the rainfall gradient: Kohn's (2010) compilation holds herbs too.
+const GRADIENT_GRASS: &str = "c3-grass";
 
 /// Leaf Δ13C (‰) of C3 plants predicted by the global regression of Kohn (2010, PNAS 107, 19691,
 /// from memory): Δ = 2.01 − 1.98·10⁻⁴·altitude(m) + 5.88·log10(MAP + 300) + 0.0129·|latitude|.
@@ -556,13 +562,32 @@ fn annual(out: &RunOutput, column: &str) -> f64 {
 
 /// C3 Δ (‰) of the rainfall gradient's sites, driest first, with their rainfall (mm).
 fn gradient_discrimination() -> Vec<(f64, f64)> {
+    gradient_discrimination_of(GRADIENT_TREES)
+}
+
+/// [`gradient_discrimination`] with `preset` on every site.
+fn gradient_discrimination_of(preset: &str) -> Vec<(f64, f64)> {
     rainfall_gradient()
         .into_iter()
         .map(|(map, climate, lai)| {
-            let out = run_site(&climate, &gradient_vegetation(lai), "", 1);
+            let out = run_site(&climate, &gradient_vegetation(preset, lai), "", 1);
             (map, annual(&out, "discrimination_c3"))
         })
         .collect()
+}
+
+/// Asserts that C3 Δ rises from each gradient site to the next wetter one.
+fn assert_rises_with_rainfall(sites: &[(f64, f64)]) {
+    for pair in sites.windows(2) {
+        assert!(
+            pair[1].1 > pair[0].1,
+            "MAP {} mm: Δ {:.2}‰ not above the {} mm site's {:.2}‰",
+            pair[1].0,
+            pair[1].1,
+            pair[0].0,
+            pair[0].1
+        );
+    }
 }
 
 /// Asserts that the gradient's C3 Δ at the rainfalls `maps` (mm) lies within the scatter of the
@@ -583,17 +608,18 @@ fn c3_discrimination_rises_with_rainfall_and_follows_the_global_regression_where
     // Δ must rise from arid to wet along the gradient and lie within the regression's scatter at
     // 900, 1500 and 2500 mm (the dry sites are the next check).
     let sites = gradient_discrimination();
-    for pair in sites.windows(2) {
-        assert!(
-            pair[1].1 > pair[0].1,
-            "MAP {} mm: Δ {:.2}‰ not above the {} mm site's {:.2}‰",
-            pair[1].0,
-            pair[1].1,
-            pair[0].0,
-            pair[0].1
-        );
-    }
+    assert_rises_with_rainfall(&sites);
     assert_kohn(&sites, &[900.0, 1500.0, 2500.0]);
+}
+
+#[test]
+fn c3_grass_discrimination_follows_the_global_regression_at_every_rainfall() {
+    // Kohn 2010 (from memory): the compilation holds herbs as well as woody plants, so the
+    // `c3-grass` preset on the same gradient (same climates and largest LAI) must rise with
+    // rainfall and lie within the regression's scatter at all five sites.
+    let sites = gradient_discrimination_of(GRADIENT_GRASS);
+    assert_rises_with_rainfall(&sites);
+    assert_kohn(&sites, &[250.0, 500.0, 900.0, 1500.0, 2500.0]);
 }
 
 #[test]
@@ -760,19 +786,24 @@ fn validation_rows() -> Vec<TableRow> {
             pass,
         });
     };
-    for (map, climate, lai) in rainfall_gradient() {
-        let want = kohn_2010_delta(map, 100.0, climate.latitude_deg);
-        let got = try_run_site(&climate, &gradient_vegetation(lai), "", 1)
-            .map(|o| annual(&o, "discrimination_c3"));
-        push(
-            "C3 Δ, ‰".into(),
-            format!("{map:.0} mm, 35° N, LAI ≤ {lai}"),
-            got,
-            format!("{want:.1} ± {KOHN_SCATTER_PERMIL}"),
-            "Kohn 2010",
-            &|v| (v - want).abs() <= KOHN_SCATTER_PERMIL,
-            1,
-        );
+    for (preset, what) in [
+        (GRADIENT_TREES, "C3 broadleaf Δ, ‰"),
+        (GRADIENT_GRASS, "C3 grass Δ, ‰"),
+    ] {
+        for (map, climate, lai) in rainfall_gradient() {
+            let want = kohn_2010_delta(map, 100.0, climate.latitude_deg);
+            let got = try_run_site(&climate, &gradient_vegetation(preset, lai), "", 1)
+                .map(|o| annual(&o, "discrimination_c3"));
+            push(
+                what.into(),
+                format!("{map:.0} mm, 35° N, LAI ≤ {lai}"),
+                got,
+                format!("{want:.1} ± {KOHN_SCATTER_PERMIL}"),
+                "Kohn 2010",
+                &|v| (v - want).abs() <= KOHN_SCATTER_PERMIL,
+                1,
+            );
+        }
     }
     for (name, climate) in c4_climates() {
         let got = try_run_site(&climate, &vegetation("c4-grass"), "", 1)
@@ -848,7 +879,7 @@ fn validation_table() {
     );
     let rows = validation_rows();
     // The table is only worth printing when every case produced a number.
-    assert!(rows.len() >= 18, "{} validation rows", rows.len());
+    assert!(rows.len() >= 23, "{} validation rows", rows.len());
     for r in rows {
         assert!(
             r.predicted.trim().parse::<f64>().is_ok_and(f64::is_finite),
@@ -894,7 +925,7 @@ fn sensitivity_variants() -> Vec<(&'static str, &'static str, &'static str)> {
             "deciduous-broadleaf",
             "g1_temperature = \"gamma-star\"\n",
         ),
-        ("`c3-grass` preset on the gradient", "c3-grass", ""),
+        ("`c3-grass` preset on the gradient", GRADIENT_GRASS, ""),
     ]
 }
 
