@@ -179,14 +179,6 @@ impl G1Temperature {
         ("gamma-star", G1Temperature::GammaStar),
     ];
 
-    /// The choice's name.
-    pub fn as_str(self) -> &'static str {
-        match self {
-            G1Temperature::Constant => "constant",
-            G1Temperature::GammaStar => "gamma-star",
-        }
-    }
-
     /// The choice called `name`, if any.
     pub fn from_name(name: &str) -> Option<Self> {
         Self::NAMES
@@ -195,8 +187,8 @@ impl G1Temperature {
             .map(|(_, s)| *s)
     }
 
-    /// The factor on the g1 of `p` at leaf temperature `t_leaf_c` (°C): 1, or
-    /// √(Γ*(T)/Γ*(25 °C)) = √exp(Ea·(T − 298.15)/(298.15·R·T)) with Γ*'s activation energy.
+    /// The factor on the g1 of `p` at leaf temperature `t_leaf_c` (°C): exactly 1, so that the
+    /// default leaves g1 as it is to the bit, or √(Γ*(T)/Γ*(25 °C)) = √exp(Ea·(T − 298.15)/(298.15·R·T)) with Γ*'s activation energy.
     pub fn factor(self, p: &C3Params, t_leaf_c: f64) -> f64 {
         match self {
             G1Temperature::Constant => 1.0,
@@ -369,10 +361,7 @@ fn solve_c3_at(
     search: RootSearch,
 ) -> Result<LeafState> {
     let (g1, capacity) = g1_and_capacity(p.g1(), c.soil_beta, options.beta_target);
-    let g1 = match options.g1_temperature {
-        G1Temperature::Constant => g1,
-        t => g1 * t.factor(p, c.t_leaf_c),
-    };
+    let g1 = g1 * options.g1_temperature.factor(p, c.t_leaf_c);
     let kin = c3::C3Kinetics::new(p, options, c, capacity, tt);
     let stomata = Medlyn::new(p.g0(), g1, c.vpd_kpa);
     let s = solve::solve(|ci| kin.demand(ci), &stomata, c.ca_umol_mol, p.gb(), search)?;
