@@ -9,7 +9,6 @@ use criterion::{Criterion, criterion_group, criterion_main};
 use isodisc_runner::ensemble::sample::Design;
 use isodisc_runner::ensemble::spec::EnsembleSpec;
 use isodisc_runner::ensemble::{member_site, shares_light};
-use isodisc_runner::forcing::ForcingReader;
 use isodisc_runner::simulate::{NoSink, simulate_lit, step_lights};
 use isodisc_runner::site::Site;
 
@@ -17,14 +16,7 @@ fn member(c: &mut Criterion) {
     let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("../forcing-demo");
     let site = Site::load(&demo.join("site.toml")).unwrap();
     let spec = EnsembleSpec::load(&demo.join("ensemble.toml")).unwrap();
-    let mut reader = ForcingReader::open(
-        &site.file.forcing,
-        &site.dir(),
-        site.file.site.elevation_m,
-        None,
-        None,
-    )
-    .unwrap();
+    let mut reader = site.weather(None, None).unwrap();
     let steps: Vec<_> = reader.by_ref().collect::<Result<_, _>>().unwrap();
     let step_minutes = reader.report().step_minutes;
     assert!(shares_light(&spec));

@@ -24,7 +24,7 @@ use serde::Deserialize;
 use toml::Spanned;
 
 use crate::error::{Error, Result};
-use crate::forcing::ForcingConfig;
+use crate::forcing::{ForcingConfig, ForcingError, ForcingReader, LocalTime};
 
 /// A constant, or `"forcing"`: the value comes from the weather file's column.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -831,6 +831,22 @@ impl Site {
             .parent()
             .map(Path::to_path_buf)
             .unwrap_or_else(|| PathBuf::from("."))
+    }
+
+    /// The site's weather from `[forcing]`, read from `from` to `to` (local times, both optional),
+    /// with the site's elevation for the pressure when the weather has none.
+    pub fn weather(
+        &self,
+        from: Option<LocalTime>,
+        to: Option<LocalTime>,
+    ) -> std::result::Result<ForcingReader, ForcingError> {
+        ForcingReader::open(
+            &self.file.forcing,
+            &self.dir(),
+            self.file.site.elevation_m,
+            from,
+            to,
+        )
     }
 }
 

@@ -16,21 +16,16 @@ use crate::ensemble::spec::EnsembleSpec;
 use crate::ensemble::summary::{write_members, write_quantiles, write_sensitivity};
 use crate::ensemble::{Member, MemberStatus, run_members};
 use crate::error::{Context, Error, Result};
-use crate::forcing::{ForcingReader, ForcingReport, ForcingStep};
+use crate::forcing::{ForcingReport, ForcingStep};
 
 use crate::output::{check_out_dir, fnv1a64, inputs_json, write_folder, write_json};
 use crate::site::Site;
 
 /// Reads a site's weather once into memory, for every member to replay.
 pub(crate) fn read_steps(site: &Site, period: Period) -> Result<(Vec<ForcingStep>, ForcingReport)> {
-    let mut reader = ForcingReader::open(
-        &site.file.forcing,
-        &site.dir(),
-        site.file.site.elevation_m,
-        period.0,
-        period.1,
-    )
-    .with_context(|| format!("site {}", site.path.display()))?;
+    let mut reader = site
+        .weather(period.0, period.1)
+        .with_context(|| format!("site {}", site.path.display()))?;
     let steps = reader
         .by_ref()
         .collect::<std::result::Result<Vec<_>, _>>()

@@ -10,7 +10,7 @@ use std::time::Instant;
 use crate::cli::RunArgs;
 use crate::commands::parse_period;
 use crate::error::{Context, Error, Result};
-use crate::forcing::{ForcingReader, ForcingReport, LocalDate, LocalTime, Variable};
+use crate::forcing::{ForcingReport, LocalDate, LocalTime, Variable};
 use crate::numfmt::{push_date, push_num, push_time};
 use crate::output::{
     AtomicFile, check_out_dir, fmt_num, inputs_json, json_num, plural, write_folder, write_json,
@@ -217,14 +217,9 @@ impl RunPlan {
     /// Runs the site and writes the files into `dir` (which exists).
     pub(crate) fn run_into(&self, dir: &Path, started: Instant) -> Result<(String, Vec<String>)> {
         let site = &self.site;
-        let mut reader = ForcingReader::open(
-            &site.file.forcing,
-            &site.dir(),
-            site.file.site.elevation_m,
-            self.from,
-            self.to,
-        )
-        .with_context(|| format!("site {}", site.path.display()))?;
+        let mut reader = site
+            .weather(self.from, self.to)
+            .with_context(|| format!("site {}", site.path.display()))?;
         let step_minutes = reader.report().step_minutes;
         let mut sink = FileSink::create(dir, step_minutes, site)?;
         let sim = simulate(site, &mut reader, step_minutes, &mut sink)?;

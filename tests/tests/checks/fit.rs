@@ -934,18 +934,10 @@ fn shared_light_leaves_every_number_unchanged() {
     // reuses it (docs/fit.md). A draw that changes the canopy (LAI, g1, cover) must give the very
     // numbers of a run that computes its own light (common practice: a cache never changes a
     // result), to the bit.
-    use isodisc_runner::forcing::ForcingReader;
     use isodisc_runner::simulate::{NoSink, simulate, simulate_lit, step_lights};
     use isodisc_runner::site::Site;
     let site = Site::load(&demo_path("site.toml")).unwrap();
-    let mut reader = ForcingReader::open(
-        &site.file.forcing,
-        &site.dir(),
-        site.file.site.elevation_m,
-        None,
-        None,
-    )
-    .unwrap();
+    let mut reader = site.weather(None, None).unwrap();
     let steps: Vec<_> = reader
         .by_ref()
         .take(62 * 24)

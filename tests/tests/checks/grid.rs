@@ -6,7 +6,7 @@
 
 use std::path::{Path, PathBuf};
 
-use isodisc_runner::forcing::{ForcingReader, LocalTime};
+use isodisc_runner::forcing::LocalTime;
 use isodisc_runner::grid::{GRID_FIELDS, Grid};
 use isodisc_runner::netcdf_in::cf_time::{Calendar, TimeUnits};
 use isodisc_runner::simulate::{NoSink, period_col, simulate};
@@ -49,14 +49,7 @@ fn jan_to_mar() -> (Option<LocalTime>, Option<LocalTime>) {
 /// the simulation; the monthly values `[field][month]`.
 fn run_site(site: &Path, months: &[(i32, u32)]) -> Vec<f64> {
     let site = Site::load(site).unwrap();
-    let mut reader = ForcingReader::open(
-        &site.file.forcing,
-        &site.dir(),
-        site.file.site.elevation_m,
-        None,
-        None,
-    )
-    .unwrap();
+    let mut reader = site.weather(None, None).unwrap();
     let step = reader.report().step_minutes;
     let sim = simulate(&site, &mut reader, step, &mut NoSink).unwrap();
     let nm = months.len();
